@@ -1,0 +1,39 @@
+# One target per task; CI (.ci/run) calls `make test`.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+DEMO   := examples/ring-classifier.json
+
+.PHONY: run test lint bench clean install install-test
+
+$(BIN)/python:
+	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "haarline needs Python 3.11 or newer")'
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(VENV)/.core: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e .
+	@touch $@
+
+$(VENV)/.test: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	@touch $@ $(VENV)/.core
+
+install: $(VENV)/.core
+install-test: $(VENV)/.test
+
+## run: analyze the bundled demo circuit and print its summary
+run: $(VENV)/.core
+	$(BIN)/haarline analyze $(DEMO) --format text
+
+## test: the whole suite (what CI runs)
+test: $(VENV)/.test
+	$(BIN)/python -m pytest -q
+
+lint: $(VENV)/.test
+	$(BIN)/python -m pip install --quiet ruff mypy
+	$(BIN)/ruff check analysis service tests
+	$(BIN)/mypy
+
+clean:
+	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info

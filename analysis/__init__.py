@@ -1,0 +1,98 @@
+"""haarline's numerical core: circuit descriptions, the batched engine and the metrics.
+
+Pure functions over numpy arrays; no web, no database, no I/O beyond reading a
+description file. The service and the CLI in :mod:`service` call only what is exported
+here.
+
+Examples
+--------
+>>> import analysis
+>>> circuit = analysis.load_reference("ry-cz-ring")
+>>> report = analysis.analyze(circuit, analysis.AnalysisOptions(pairs=200, samples=100))
+>>> sorted(report)[:4]
+['capacity', 'cautions', 'circuit', 'entanglement']
+"""
+
+from ._version import __version__
+from .circuit import (
+    MAX_QUBITS,
+    Circuit,
+    Step,
+    circuit_schema,
+    load_circuit,
+    parse_circuit,
+    parse_circuit_text,
+)
+from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
+from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
+from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
+from .expressibility import (
+    Expressibility,
+    divergence_from_haar,
+    expressibility,
+    fidelities,
+    plugin_bias,
+)
+from .gates import GATES, GateSpec, gate_matrix, lookup
+from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
+from .options import METRICS, AnalysisOptions, parse_options
+from .program import Operation, Program, expand, facts, placement
+from .references import load_reference, reference_names
+from .report import REPORT_FORMAT, analyze
+from .sampling import Stream, draw_angles
+from .summary import to_markdown, to_text
+
+__all__ = [
+    "DEFAULT_MEMORY_BUDGET",
+    "GATES",
+    "MAX_QUBITS",
+    "METRICS",
+    "REPORT_FORMAT",
+    "AnalysisOptions",
+    "Circuit",
+    "CircuitError",
+    "Entanglement",
+    "Expressibility",
+    "GateSpec",
+    "HaarlineError",
+    "InputError",
+    "LimitError",
+    "Operation",
+    "OptionError",
+    "Problem",
+    "Program",
+    "Step",
+    "Stream",
+    "__version__",
+    "analyze",
+    "circuit_schema",
+    "compile_program",
+    "divergence_from_haar",
+    "draw_angles",
+    "entangling_capability",
+    "expand",
+    "expressibility",
+    "facts",
+    "fidelities",
+    "gate_matrix",
+    "haar_bin_log_masses",
+    "haar_bin_masses",
+    "haar_meyer_wallach",
+    "haar_second_moment",
+    "load_circuit",
+    "load_reference",
+    "lookup",
+    "meyer_wallach",
+    "parse_circuit",
+    "parse_circuit_text",
+    "parse_options",
+    "placement",
+    "plugin_bias",
+    "qubit_purities",
+    "reference_names",
+    "rows_per_chunk",
+    "run",
+    "to_markdown",
+    "to_text",
+    "zero_states",
+]

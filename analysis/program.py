@@ -1,0 +1,347 @@
+"""Expansion of a description into an ordered gate program, and its static facts.
+
+:func:`expand` resolves every placement pattern at the description's qubit count,
+assigns trainable parameter indices in order of first use, and checks everything that
+depends on the qubit count. The result, a :class:`Program`, is what the engine runs.
+
+Placement patterns on ``n`` qubits (pairs are ``(first, second)``; for controlled
+gates ``(control, target)``):
+
+=============  ==========================================
+``chain``      (0,1), (1,2), …, (n-2,n-1)
+``ring``       ``chain`` plus (n-1,0) when n > 2
+``pairs``      every (i,j) with i < j, in lexicographic order
+``brick-even`` (0,1), (2,3), …
+``brick-odd``  (1,2), (3,4), … (empty for n = 2)
+=============  ==========================================
+
+``reverse`` walks the list from its last pair to its first and swaps each pair.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from dataclasses import dataclass, field
+from typing import Any
+
+from .circuit import MAX_QUBITS, ONE_QUBIT_PATTERNS, TWO_QUBIT_PATTERNS, Circuit, Step
+from .errors import CircuitError, Problem
+from .gates import lookup
+
+__all__ = [
+    "MAX_OPERATIONS",
+    "Operation",
+    "Program",
+    "expand",
+    "facts",
+    "placement",
+]
+
+MAX_OPERATIONS = 200_000
+"""Largest number of gate applications an expanded program may hold."""
+
+
+@dataclass(frozen=True)
+class Operation:
+    """One gate application.
+
+    Attributes
+    ----------
+    gate : str
+        Canonical gate name.
+    qubits : tuple of int
+        Qubits in the gate's own order (control first for controlled gates).
+    param : int or None
+        Index of the trainable parameter that gives the angle, if any.
+    angle : float or None
+        Fixed angle (radians) for a parameterized gate with ``angle`` set.
+    step : str
+        JSON path of the step that produced it, e.g. ``"layer[1]"``.
+    layer : int or None
+        Repetition index (0-based) for steps of ``layer``; ``None`` for prepare/finish.
+    """
+
+    gate: str
+    qubits: tuple[int, ...]
+    param: int | None = None
+    angle: float | None = None
+    step: str = ""
+    layer: int | None = None
+
+
+@dataclass(frozen=True)
+class Program:
+    """An expanded, validated circuit: what the engine runs.
+
+    ``parameters`` is the length of the parameter vector θ; operation ``k`` with
+    ``param = p`` uses angle ``θ[p]``.
+    """
+
+    name: str
+    qubits: int
+    layers: int
+    operations: tuple[Operation, ...]
+    parameters: int
+    parameter_steps: tuple[str, ...] = field(default=())
+
+    @property
+    def dimension(self) -> int:
+        """Hilbert-space dimension ``2**qubits``."""
+        return 1 << self.qubits
+
+
+def placement(pattern: str, qubits: int) -> list[tuple[int, int]]:
+    """Return the ordered pairs of a two-qubit placement pattern on ``qubits`` qubits.
+
+    Examples
+    --------
+    >>> placement("ring", 4)
+    [(0, 1), (1, 2), (2, 3), (3, 0)]
+    >>> placement("brick-odd", 5)
+    [(1, 2), (3, 4)]
+    """
+    n = qubits
+    if pattern == "chain":
+        return [(i, i + 1) for i in range(n - 1)]
+    if pattern == "ring":
+        return [(i, i + 1) for i in range(n - 1)] + ([(n - 1, 0)] if n > 2 else [])
+    if pattern == "pairs":
+        return [(i, j) for i in range(n) for j in range(i + 1, n)]
+    if pattern == "brick-even":
+        return [(i, i + 1) for i in range(0, n - 1, 2)]
+    if pattern == "brick-odd":
+        return [(i, i + 1) for i in range(1, n - 1, 2)]
+    raise ValueError(f"unknown pattern {pattern!r}")
+
+
+def _is_int(value: Any) -> bool:
+    return type(value) is int
+
+
+def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
+    """Resolve ``step.on`` to a list of qubit tuples, or raise with the field path."""
+    spec = lookup(step.gate)
+    on = step.on
+    where = f"{path}.on"
+    rng = f"for {n} qubit{'s' if n != 1 else ''} (0..{n - 1})"
+    if spec.qubits == 1:
+        if step.reverse:
+            raise CircuitError([Problem(f"{path}.reverse", "applies only to two-qubit "
+                                        f"placement patterns; {step.gate!r} is a one-qubit gate")])
+        if on == "all":
+            return [(q,) for q in range(n)]
+        if isinstance(on, str):
+            raise CircuitError([Problem(where, f"got {on!r}; the one-qubit gate {step.gate!r} "
+                                        "takes 'all' or a list of qubit indices")])
+        if not isinstance(on, list) or not on:
+            raise CircuitError([Problem(where, f"expected 'all' or a non-empty list of qubit "
+                                        f"indices, got {_show(on)}")])
+        seen: set[int] = set()
+        out: list[tuple[int, ...]] = []
+        for i, q in enumerate(on):
+            if not _is_int(q):
+                raise CircuitError([Problem(f"{where}[{i}]", f"expected a qubit index (integer),"
+                                            f" got {_show(q)}")])
+            if not 0 <= q < n:
+                raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is out of range {rng}")])
+            if q in seen:
+                raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is listed twice")])
+            seen.add(q)
+            out.append((q,))
+        return out
+    # two-qubit gate
+    patterns = ", ".join(repr(p) for p in TWO_QUBIT_PATTERNS)
+    if isinstance(on, str):
+        if on not in TWO_QUBIT_PATTERNS:
+            hint = " ('all' is for one-qubit gates)" if on in ONE_QUBIT_PATTERNS else ""
+            raise CircuitError([Problem(where, f"got {on!r}; the two-qubit gate {step.gate!r} "
+                                        f"takes one of {patterns} or a list of pairs{hint}")])
+        if n < 2:
+            raise CircuitError([Problem(where, f"pattern {on!r} needs at least 2 qubits; the "
+                                        f"circuit has {n}")])
+        pairs = placement(on, n)
+        if step.reverse:
+            pairs = [(b, a) for a, b in reversed(pairs)]
+        return list(pairs)
+    if step.reverse:
+        raise CircuitError([Problem(f"{path}.reverse", "applies only to a placement pattern, "
+                                    "not to an explicit list of pairs")])
+    if not isinstance(on, list) or not on:
+        raise CircuitError([Problem(where, f"expected one of {patterns} or a non-empty list of "
+                                    f"[first, second] pairs, got {_show(on)}")])
+    out = []
+    for i, pair in enumerate(on):
+        if not isinstance(pair, list) or len(pair) != 2:
+            raise CircuitError([Problem(f"{where}[{i}]", "expected a pair [first, second] of "
+                                        f"qubit indices, got {_show(pair)}")])
+        for j, q in enumerate(pair):
+            if not _is_int(q):
+                raise CircuitError([Problem(f"{where}[{i}][{j}]", "expected a qubit index "
+                                            f"(integer), got {_show(q)}")])
+            if not 0 <= q < n:
+                raise CircuitError([Problem(f"{where}[{i}][{j}]", f"qubit {q} is out of range "
+                                            f"{rng}")])
+        if pair[0] == pair[1]:
+            raise CircuitError([Problem(f"{where}[{i}]", f"pair {_show(pair)} uses qubit "
+                                        f"{pair[0]} twice; a two-qubit gate needs two "
+                                        "different qubits")])
+        out.append((pair[0], pair[1]))
+    return out
+
+
+def _show(value: Any) -> str:
+    import json
+
+    try:
+        text = json.dumps(value)
+    except (TypeError, ValueError):
+        text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def _check_step(step: Step, path: str, section: str) -> None:
+    spec = lookup(step.gate)
+    if not spec.takes_angle:
+        for key in ("angle", "share"):
+            if getattr(step, key) is not None:
+                raise CircuitError([Problem(f"{path}.{key}", f"the gate {step.gate!r} has no "
+                                            "angle; only rx ry rz crx cry crz rxx ryy rzz take "
+                                            f"'{key}'")])
+    if step.angle is not None and step.share is not None:
+        raise CircuitError([Problem(f"{path}.share", "a fixed 'angle' has no parameter to share;"
+                                    " give either 'angle' or 'share'")])
+    if step.share == "layers" and section != "layer":
+        raise CircuitError([Problem(f"{path}.share", f"'layers' shares a parameter across "
+                                    f"repetitions of 'layer'; {section!r} runs once (use "
+                                    "'step' or leave it out)")])
+
+
+def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = None) -> Program:
+    """Expand a description into a :class:`Program`.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        A validated description (see :func:`analysis.circuit.parse_circuit`).
+    qubits, layers : int, optional
+        Instantiate at another qubit count or layer count (patterns re-resolved).
+
+    Returns
+    -------
+    Program
+
+    Raises
+    ------
+    CircuitError
+        Naming the JSON path of the first step that cannot be placed.
+
+    Examples
+    --------
+    >>> from analysis.circuit import parse_circuit
+    >>> c = parse_circuit({"qubits": 3, "layers": 2,
+    ...                    "layer": [{"gate": "ry"}, {"gate": "cz", "on": "chain"}]})
+    >>> p = expand(c)
+    >>> p.parameters, len(p.operations)
+    (6, 10)
+    """
+    n = circuit.qubits if qubits is None else qubits
+    reps = circuit.layers if layers is None else layers
+    if not (_is_int(n) and 1 <= n <= MAX_QUBITS):
+        raise CircuitError([Problem("qubits", f"got {n!r}; allowed range is 1..{MAX_QUBITS}")])
+    if not (_is_int(reps) and reps >= 1):
+        raise CircuitError([Problem("layers", f"got {reps!r}; expected an integer >= 1")])
+    sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
+    targets: dict[str, list[tuple[int, ...]]] = {}
+    for section, steps in sections:
+        for i, step in enumerate(steps):
+            path = f"{section}[{i}]"
+            _check_step(step, path, section)
+            targets[path] = _targets(step, path, n)
+
+    total = (
+        sum(len(targets[f"prepare[{i}]"]) for i in range(len(circuit.prepare)))
+        + reps * sum(len(targets[f"layer[{i}]"]) for i in range(len(circuit.layer)))
+        + sum(len(targets[f"finish[{i}]"]) for i in range(len(circuit.finish)))
+    )
+    if total == 0:
+        raise CircuitError([Problem("layer", "the circuit has no gates: give at least one step "
+                                    "in 'prepare', 'layer' or 'finish' that places a gate")])
+    if total > MAX_OPERATIONS:
+        raise CircuitError([Problem("layers", f"the circuit expands to {total} gate applications;"
+                                    f" the limit is {MAX_OPERATIONS}")])
+
+    ops: list[Operation] = []
+    owners: list[str] = []
+    shared: dict[tuple[str, int], int] = {}
+
+    def new_param(path: str) -> int:
+        owners.append(path)
+        return len(owners) - 1
+
+    def emit(section: str, steps: list[Step], layer: int | None) -> None:
+        for i, step in enumerate(steps):
+            path = f"{section}[{i}]"
+            spec = lookup(step.gate)
+            step_param: int | None = None
+            for k, qs in enumerate(targets[path]):
+                param: int | None = None
+                if spec.takes_angle and step.angle is None:
+                    if step.share == "step":
+                        if step_param is None:
+                            step_param = new_param(path)
+                        param = step_param
+                    elif step.share == "layers":
+                        key = (path, k)
+                        if key not in shared:
+                            shared[key] = new_param(path)
+                        param = shared[key]
+                    else:
+                        param = new_param(path)
+                ops.append(Operation(spec.name, qs, param, step.angle, path, layer))
+
+    emit("prepare", circuit.prepare, None)
+    for rep in range(reps):
+        emit("layer", circuit.layer, rep)
+    emit("finish", circuit.finish, None)
+    return Program(
+        name=circuit.name,
+        qubits=n,
+        layers=reps,
+        operations=tuple(ops),
+        parameters=len(owners),
+        parameter_steps=tuple(owners),
+    )
+
+
+def facts(program: Program) -> dict[str, Any]:
+    """Static facts of a program: sizes, gate counts and depth.
+
+    Depth is the number of time steps of a greedy schedule that puts each gate, in
+    program order, one step after the latest gate on any of its qubits (common practice).
+
+    Examples
+    --------
+    >>> from analysis.circuit import parse_circuit
+    >>> p = expand(parse_circuit({"qubits": 3, "layer": [{"gate": "h"},
+    ...                                                  {"gate": "cx", "on": "chain"}]}))
+    >>> f = facts(p)
+    >>> f["gates"], f["two_qubit_gates"], f["depth"]
+    (5, 2, 3)
+    """
+    level = [0] * program.qubits
+    for op in program.operations:
+        t = max(level[q] for q in op.qubits) + 1
+        for q in op.qubits:
+            level[q] = t
+    counts = Counter(op.gate for op in program.operations)
+    return {
+        "name": program.name,
+        "qubits": program.qubits,
+        "layers": program.layers,
+        "parameters": program.parameters,
+        "gates": len(program.operations),
+        "gate_counts": dict(sorted(counts.items())),
+        "two_qubit_gates": sum(1 for op in program.operations if len(op.qubits) == 2),
+        "fixed_angle_gates": sum(1 for op in program.operations if op.angle is not None),
+        "depth": max(level, default=0),
+    }

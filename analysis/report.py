@@ -1,0 +1,176 @@
+"""Assemble the report: one JSON-ready dict with stable keys (``report_format: 1``).
+
+Keys: ``report_format``, ``haarline_version``, ``circuit`` (static facts), ``options``
+(resolved, seed included), ``expressibility``, ``entanglement``, ``trainability``,
+``capacity``, ``sweep``, ``cautions`` and ``timings``. A metric that was not asked for
+is ``null``. Everything but ``timings`` is a pure function of (circuit, options,
+version): never of the memory budget, chunk size or machine.
+"""
+
+from __future__ import annotations
+
+import time
+from typing import Any
+
+import numpy as np
+
+from ._batching import Progress
+from ._version import __version__
+from .circuit import Circuit
+from .engine import DEFAULT_MEMORY_BUDGET
+from .entanglement import Entanglement, entangling_capability
+from .expressibility import Expressibility, expressibility
+from .options import AnalysisOptions
+from .program import Program, expand, facts
+
+__all__ = ["REPORT_FORMAT", "analyze", "cautions"]
+
+REPORT_FORMAT = 1
+
+
+def _metrics(
+    program: Program,
+    options: AnalysisOptions,
+    memory_budget: int,
+    progress: Progress | None,
+    timings: dict[str, float],
+) -> tuple[Expressibility | None, Entanglement | None]:
+    expr = ent = None
+    if "expressibility" in options.metrics:
+        t = time.perf_counter()
+        expr = expressibility(
+            program,
+            pairs=options.pairs,
+            bins=options.bins,
+            seed=options.seed,
+            memory_budget=memory_budget,
+            progress=progress,
+        )
+        timings["expressibility"] = timings.get("expressibility", 0.0) + time.perf_counter() - t
+    if "entanglement" in options.metrics:
+        t = time.perf_counter()
+        ent = entangling_capability(
+            program,
+            samples=options.samples,
+            seed=options.seed,
+            memory_budget=memory_budget,
+            progress=progress,
+        )
+        timings["entanglement"] = timings.get("entanglement", 0.0) + time.perf_counter() - t
+    return expr, ent
+
+
+def cautions(report: dict[str, Any]) -> list[str]:
+    """Plain-language warnings where the numbers could mislead a reader."""
+    out: list[str] = []
+    expr = report.get("expressibility")
+    circuit = report["circuit"]
+    if expr:
+        m, k = expr["pairs"], expr["bins"]
+        if expr["kl"] <= 2 * expr["bias"] or expr["interval"][0] <= expr["bias"]:
+            out.append(
+                f"Expressibility KL {expr['kl']:.4g} is within reach of the plug-in bias "
+                f"{expr['bias']:.4g} that an exactly Haar-random circuit shows at {m} pairs: "
+                "at this sample size the circuit cannot be told apart from Haar. Raise "
+                "--pairs to resolve smaller differences."
+            )
+        if m < 1000:
+            out.append(
+                f"Only {m} fidelity pairs: the KL interval is wide and its bias "
+                f"({expr['bias']:.3g}) is large; 5000 pairs is the usual minimum."
+            )
+        if m < 5 * k:
+            out.append(
+                f"{k} bins for {m} pairs leaves fewer than 5 pairs per bin on average; the KL "
+                "mostly measures noise. Use fewer bins or more pairs."
+            )
+    ent = report.get("entanglement")
+    if ent:
+        if circuit["qubits"] == 1:
+            out.append("Meyer-Wallach is 0 for a single qubit by definition.")
+        elif ent["samples"] < 200:
+            out.append(
+                f"Only {ent['samples']} Meyer-Wallach samples: the mean has a wide interval."
+            )
+    return out
+
+
+def analyze(
+    circuit: Circuit,
+    options: AnalysisOptions | None = None,
+    *,
+    memory_budget: int = DEFAULT_MEMORY_BUDGET,
+    progress: Progress | None = None,
+) -> dict[str, Any]:
+    """Analyze a description and return the report dict.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        Validated description.
+    options : AnalysisOptions, optional
+        Defaults: expressibility and entanglement, 5000 pairs, 75 bins, 2000 samples, seed 1.
+    memory_budget : int
+        Bytes for state batches; affects speed only.
+    progress : callable, optional
+        ``progress(stage, done, total)``.
+
+    Returns
+    -------
+    dict
+        JSON-ready report (see module docstring for the keys).
+    """
+    options = options or AnalysisOptions()
+    start = time.perf_counter()
+    timings: dict[str, float] = {}
+    program = expand(circuit)
+    expr, ent = _metrics(program, options, memory_budget, progress, timings)
+    sweep = None
+    if options.layers_sweep:
+        t = time.perf_counter()
+        sweep = []
+        for layers in options.layers_sweep:
+            p = expand(circuit, layers=layers)
+            e, m = _metrics(p, options, memory_budget, progress, {})
+            f = facts(p)
+            row: dict[str, Any] = {
+                "layers": layers,
+                "parameters": f["parameters"],
+                "gates": f["gates"],
+                "depth": f["depth"],
+            }
+            if e is not None:
+                row.update(kl=e.kl, kl_interval=list(e.interval), bias=e.bias,
+                           second_moment=e.second_moment)
+            if m is not None:
+                row.update(meyer_wallach=m.meyer_wallach, meyer_wallach_interval=list(m.interval))
+            sweep.append(row)
+        timings["sweep"] = time.perf_counter() - t
+    report: dict[str, Any] = {
+        "report_format": REPORT_FORMAT,
+        "haarline_version": __version__,
+        "circuit": facts(program),
+        "options": {**options.model_dump(), "precision": "double"},
+        "expressibility": expr.to_dict() if expr else None,
+        "entanglement": ent.to_dict() if ent else None,
+        "trainability": None,
+        "capacity": None,
+        "sweep": sweep,
+    }
+    report["cautions"] = cautions(report)
+    timings["total"] = time.perf_counter() - start
+    report["timings"] = {k: round(v, 6) for k, v in timings.items()}
+    _check_finite(report)
+    return report
+
+
+def _check_finite(value: Any, path: str = "report") -> None:
+    """Guard: a report never carries NaN or infinity (JSON has no such numbers)."""
+    if isinstance(value, float) and not np.isfinite(value):
+        raise ArithmeticError(f"{path} is {value}; this is a bug in haarline, please report it")
+    if isinstance(value, dict):
+        for k, v in value.items():
+            _check_finite(v, f"{path}.{k}")
+    elif isinstance(value, list):
+        for i, v in enumerate(value):
+            _check_finite(v, f"{path}[{i}]")

@@ -1,0 +1,263 @@
+"""The ``haarline`` command line.
+
+Exit codes (one place, here): 0 success, 1 a policy rule failed, 2 bad input (usage,
+description, options or limits). ``--format json`` writes exactly the report JSON to
+stdout; messages and the progress bar go to stderr.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import re
+import sys
+from collections.abc import Sequence
+from typing import Any
+
+import analysis
+from analysis.references import REFERENCE_PREFIX
+
+from .progress import TerminalProgress
+
+__all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_size"]
+
+EXIT_OK = 0
+EXIT_POLICY = 1
+EXIT_INPUT = 2
+
+_FLAG_NAMES = {
+    "metrics": "--metrics",
+    "pairs": "--pairs",
+    "bins": "--bins",
+    "samples": "--samples",
+    "seed": "--seed",
+    "layers_sweep": "--layers-sweep",
+}
+
+
+class UsageError(analysis.InputError):
+    """A command-line value that argparse let through but we cannot use."""
+
+
+def parse_size(text: str) -> int:
+    """Parse a byte count such as ``1GiB``, ``512MiB``, ``2G`` or ``1000000``.
+
+    Examples
+    --------
+    >>> parse_size("1GiB"), parse_size("512M"), parse_size("4096")
+    (1073741824, 536870912, 4096)
+    """
+    m = re.fullmatch(r"\s*(\d+(?:\.\d+)?)\s*([KMGT]?)(i?B?)\s*", text, flags=re.IGNORECASE)
+    if not m:
+        raise argparse.ArgumentTypeError(
+            f"expected a size such as 1GiB, 512MiB or a byte count, got {text!r}"
+        )
+    scale = {"": 1, "K": 2**10, "M": 2**20, "G": 2**30, "T": 2**40}[m.group(2).upper()]
+    value = int(float(m.group(1)) * scale)
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a positive size, got {text!r}")
+    return value
+
+
+def _int_list(text: str) -> list[int]:
+    try:
+        values = [int(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected comma-separated integers such as 1,2,3, got {text!r}"
+        ) from None
+    if not values:
+        raise argparse.ArgumentTypeError("expected at least one integer")
+    return values
+
+
+def _metric_list(text: str) -> list[str]:
+    names = [part.strip() for part in text.split(",") if part.strip()]
+    for name in names:
+        if name not in analysis.METRICS:
+            raise argparse.ArgumentTypeError(
+                f"unknown metric {name!r}; expected a comma-separated list of: "
+                f"{', '.join(analysis.METRICS)}"
+            )
+    if not names:
+        raise argparse.ArgumentTypeError("expected at least one metric")
+    return names
+
+
+def load(spec: str) -> analysis.Circuit:
+    """Load a description from a path, ``ref:NAME``, or ``-`` (JSON on stdin)."""
+    if spec.startswith(REFERENCE_PREFIX):
+        return analysis.load_reference(spec)
+    if spec == "-":
+        data = sys.stdin.buffer.read(analysis.circuit.MAX_DESCRIPTION_BYTES + 1)
+        return analysis.parse_circuit_text(data, source="<stdin>")
+    return analysis.load_circuit(spec)
+
+
+def _emit(text: str) -> None:
+    sys.stdout.write(text if text.endswith("\n") else text + "\n")
+
+
+def _cmd_analyze(args: argparse.Namespace) -> int:
+    circuit = load(args.file)
+    raw: dict[str, Any] = {}
+    for field in ("metrics", "pairs", "bins", "samples", "seed"):
+        value = getattr(args, field)
+        if value is not None:
+            raw[field] = value
+    if args.layers_sweep is not None:
+        sweep = args.layers_sweep
+        raw["layers_sweep"] = list(range(1, sweep[0] + 1)) if len(sweep) == 1 else sweep
+    options = analysis.parse_options(raw, names=_FLAG_NAMES)
+    progress = TerminalProgress()
+    try:
+        report = analysis.analyze(
+            circuit, options, memory_budget=args.memory_budget, progress=progress
+        )
+    finally:
+        progress.close()
+    if args.format == "json":
+        _emit(json.dumps(report, indent=2, allow_nan=False))
+    elif args.format == "markdown":
+        _emit(analysis.to_markdown(report))
+    else:
+        _emit(analysis.to_text(report))
+    return EXIT_OK
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    circuit = load(args.file)
+    program = analysis.expand(circuit, qubits=args.qubits, layers=args.layers)
+    f = analysis.facts(program)
+    if args.format == "json":
+        _emit(json.dumps(f, indent=2))
+        return EXIT_OK
+    counts = ", ".join(f"{k} {v}" for k, v in f["gate_counts"].items())
+    _emit(
+        "\n".join(
+            [
+                f"{f['name']}: valid",
+                f"  qubits           {f['qubits']}",
+                f"  layers           {f['layers']}",
+                f"  parameters       {f['parameters']}",
+                f"  gates            {f['gates']} ({counts})",
+                f"  two-qubit gates  {f['two_qubit_gates']}",
+                f"  depth            {f['depth']}",
+            ]
+        )
+    )
+    return EXIT_OK
+
+
+def _cmd_references(args: argparse.Namespace) -> int:
+    rows = []
+    for name in analysis.reference_names():
+        c = analysis.load_reference(name)
+        p = analysis.expand(c)
+        rows.append(
+            {
+                "name": name,
+                "qubits": c.qubits,
+                "layers": c.layers,
+                "parameters": p.parameters,
+                "description": c.description or "",
+            }
+        )
+    if args.format == "json":
+        _emit(json.dumps(rows, indent=2))
+        return EXIT_OK
+    width = max(len(r["name"]) for r in rows)
+    lines = [f"{'name':<{width}}  qubits  layers  params  description"]
+    for r in rows:
+        desc = r["description"]
+        if len(desc) > 70:
+            desc = desc[:67] + "..."
+        lines.append(
+            f"{r['name']:<{width}}  {r['qubits']:>6}  {r['layers']:>6}  {r['parameters']:>6}  {desc}"
+        )
+    lines.append("")
+    lines.append(f"Use any of them as {REFERENCE_PREFIX}NAME wherever a file is accepted.")
+    _emit("\n".join(lines))
+    return EXIT_OK
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    _emit(json.dumps(analysis.circuit_schema(), indent=2))
+    return EXIT_OK
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser (exposed for tests and the docs)."""
+    parser = argparse.ArgumentParser(
+        prog="haarline",
+        description="Score parameterized quantum circuits against the Haar baseline: "
+        "expressibility and entangling capability.",
+        epilog="FILE is a .json/.yaml description, ref:NAME for a bundled circuit "
+        "(see 'haarline references'), or - for JSON on stdin. "
+        "Exit codes: 0 ok, 1 policy failed, 2 bad input.",
+    )
+    parser.add_argument("--version", action="version", version=f"haarline {analysis.__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    p = sub.add_parser("analyze", help="compute the metrics of a circuit and print a report")
+    p.add_argument("file", metavar="FILE")
+    p.add_argument(
+        "--metrics",
+        type=_metric_list,
+        help=f"comma-separated subset of: {','.join(analysis.METRICS)} (default: all)",
+    )
+    p.add_argument("--pairs", type=int, help="fidelity pairs for expressibility (default 5000)")
+    p.add_argument("--bins", type=int, help="fidelity histogram bins (default 75)")
+    p.add_argument("--samples", type=int, help="Meyer-Wallach samples (default 2000)")
+    p.add_argument(
+        "--layers-sweep",
+        type=_int_list,
+        metavar="L|L1,L2,...",
+        help="repeat the metrics at these layer counts; a single number L means 1..L",
+    )
+    p.add_argument("--seed", type=int, help=f"random seed (default {analysis.options.DEFAULT_SEED})")
+    p.add_argument(
+        "--memory-budget",
+        type=parse_size,
+        default=analysis.DEFAULT_MEMORY_BUDGET,
+        metavar="SIZE",
+        help="memory for state batches, e.g. 512MiB (default 1GiB); changes speed, not results",
+    )
+    p.add_argument("--format", choices=["text", "json", "markdown"], default="text")
+    p.set_defaults(func=_cmd_analyze)
+
+    p = sub.add_parser("check", help="validate a description and print its static facts")
+    p.add_argument("file", metavar="FILE")
+    p.add_argument("--qubits", type=int, help="check at another qubit count")
+    p.add_argument("--layers", type=int, help="check at another layer count")
+    p.add_argument("--format", choices=["text", "json"], default="text")
+    p.set_defaults(func=_cmd_check)
+
+    p = sub.add_parser("references", help="list the bundled reference circuits")
+    p.add_argument("--format", choices=["text", "json"], default="text")
+    p.set_defaults(func=_cmd_references)
+
+    p = sub.add_parser("schema", help="print the JSON Schema of the description format")
+    p.set_defaults(func=_cmd_schema)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the CLI; returns the exit code (also used as the console-script entry point)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.func(args))
+    except (analysis.InputError, analysis.LimitError) as exc:
+        for line in str(exc).splitlines():
+            sys.stderr.write(f"haarline: error: {line}\n")
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        sys.stderr.write("haarline: interrupted\n")
+        return 130
+    except BrokenPipeError:
+        return EXIT_OK
+
+
+if __name__ == "__main__":
+    sys.exit(main())
