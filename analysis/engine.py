@@ -24,6 +24,7 @@ from .gates import GateSpec, lookup
 from .program import Program
 
 __all__ = [
+    "CHUNK_AMPLITUDES",
     "DEFAULT_MEMORY_BUDGET",
     "WORK_FACTOR",
     "Plan",
@@ -38,6 +39,11 @@ DEFAULT_MEMORY_BUDGET = 1 << 30
 
 WORK_FACTOR = 3
 """States' worth of memory per batch row at peak (the state, one copy, temporaries)."""
+
+CHUNK_AMPLITUDES = 1 << 18
+"""Preferred amplitudes per chunk (4 MiB in double precision): a chunk that stays in the
+CPU caches through every gate runs several times faster than one streamed from memory.
+Speed only; the numbers never depend on it."""
 
 
 @dataclass(frozen=True)
@@ -89,8 +95,8 @@ def rows_per_chunk(qubits: int, memory_budget: int, dtype: type = np.complex128)
 
     Examples
     --------
-    >>> rows_per_chunk(10, 1 << 30)
-    21845
+    >>> rows_per_chunk(10, 1 << 30), rows_per_chunk(10, 3 * 16 * 1024 * 5)
+    (256, 5)
     """
     per_row = WORK_FACTOR * (1 << qubits) * np.dtype(dtype).itemsize
     rows = int(memory_budget // per_row)
@@ -99,7 +105,7 @@ def rows_per_chunk(qubits: int, memory_budget: int, dtype: type = np.complex128)
             f"one {qubits}-qubit state needs {per_row / 2**20:.0f} MiB of working memory; "
             f"the memory budget is {memory_budget / 2**20:.0f} MiB"
         )
-    return rows
+    return max(1, min(rows, CHUNK_AMPLITUDES >> qubits))
 
 
 def _coefficient(m: NDArray, i: int, j: int, ndim: int) -> NDArray | complex:

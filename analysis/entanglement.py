@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import stats
+from scipy import special  # scipy.stats would add a second to start-up
 
 from ._batching import Progress, chunked_states
 from .engine import DEFAULT_MEMORY_BUDGET
@@ -105,7 +105,7 @@ def summarize_meyer_wallach(values: NDArray[np.float64], qubits: int) -> Entangl
     s = len(values)
     mean = float(values.mean())
     std = float(values.std(ddof=1)) if s > 1 else 0.0
-    half = float(stats.t.ppf(0.975, s - 1) * std / np.sqrt(s)) if s > 1 else 0.0
+    half = float(special.stdtrit(s - 1, 0.975) * std / np.sqrt(s)) if s > 1 else 0.0
     counts, _ = np.histogram(values, bins=DISTRIBUTION_BINS, range=(0.0, 1.0))
     return Entanglement(
         meyer_wallach=mean,

@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import stats
+from scipy import special  # scipy.stats would add a second to start-up
 
 from ._batching import Progress, chunked_states
 from .engine import DEFAULT_MEMORY_BUDGET
@@ -145,7 +145,10 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
         lo = max(1, int(np.floor(mean - 12 * sd - 12)))
         hi = min(pairs, int(np.ceil(mean + 12 * sd + 12)))
         k = np.arange(lo, hi + 1, dtype=float)
-        pmf = stats.binom.pmf(k, pairs, qj)
+        pmf = np.exp(
+            special.gammaln(m + 1) - special.gammaln(k + 1) - special.gammaln(m - k + 1)
+            + k * lqj + (m - k) * np.log1p(-qj)
+        )
         x = k / m
         total += float(np.sum(pmf * x * np.log(x))) - qj * lqj
     return float(max(total, 0.0))
@@ -156,7 +159,7 @@ def _t_interval(values: NDArray[np.float64]) -> tuple[float, float]:
     mean = float(values.mean())
     if n < 2:
         return (mean, mean)
-    half = float(stats.t.ppf(0.975, n - 1) * values.std(ddof=1) / np.sqrt(n))
+    half = float(special.stdtrit(n - 1, 0.975) * values.std(ddof=1) / np.sqrt(n))
     return (mean - half, mean + half)
 
 
