@@ -14,15 +14,8 @@ Examples
 """
 
 from ._version import __version__
-from .circuit import (
-    MAX_QUBITS,
-    Circuit,
-    Step,
-    circuit_schema,
-    load_circuit,
-    parse_circuit,
-    parse_circuit_text,
-)
+from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
+from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
@@ -34,21 +27,27 @@ from .expressibility import (
     plugin_bias,
 )
 from .gates import GATES, GateSpec, gate_matrix, lookup
+from .gradients import adjoint_gradients, cost_values, shift_gradients
 from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
+from .loading import load_circuit, parse_circuit_text
+from .observables import NAMED_COSTS, Observable, make_observable
 from .options import METRICS, AnalysisOptions, parse_options
 from .program import Operation, Program, expand, facts, placement
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
 from .sampling import Stream, draw_angles
 from .summary import to_markdown, to_text
+from .trainability import Trainability, VariancePoint, trainability
 
 __all__ = [
     "DEFAULT_MEMORY_BUDGET",
     "GATES",
     "MAX_QUBITS",
     "METRICS",
+    "NAMED_COSTS",
     "REPORT_FORMAT",
     "AnalysisOptions",
+    "Capacity",
     "Circuit",
     "CircuitError",
     "Entanglement",
@@ -57,16 +56,22 @@ __all__ = [
     "HaarlineError",
     "InputError",
     "LimitError",
+    "Observable",
     "Operation",
     "OptionError",
     "Problem",
     "Program",
     "Step",
     "Stream",
+    "Trainability",
+    "VariancePoint",
     "__version__",
+    "adjoint_gradients",
     "analyze",
+    "capacity",
     "circuit_schema",
     "compile_program",
+    "cost_values",
     "divergence_from_haar",
     "draw_angles",
     "entangling_capability",
@@ -82,17 +87,22 @@ __all__ = [
     "load_circuit",
     "load_reference",
     "lookup",
+    "make_observable",
     "meyer_wallach",
     "parse_circuit",
     "parse_circuit_text",
     "parse_options",
     "placement",
     "plugin_bias",
+    "quantum_fisher",
     "qubit_purities",
     "reference_names",
     "rows_per_chunk",
     "run",
+    "shift_gradients",
+    "state_jacobian",
     "to_markdown",
     "to_text",
+    "trainability",
     "zero_states",
 ]

@@ -23,7 +23,7 @@ def chunked_states(
     count: int,
     copies: int,
     seed: int,
-    stream: int,
+    stream: int | tuple[int, ...],
     memory_budget: int,
     dtype: type = np.complex128,
     progress: Progress | None = None,

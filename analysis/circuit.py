@@ -1,4 +1,4 @@
-"""Circuit description, format 1: the pydantic models and the loaders.
+"""Circuit description, format 1: the pydantic models and their error messages.
 
 A description is JSON (or YAML with the same structure)::
 
@@ -12,16 +12,15 @@ non-finite angles). Everything that depends on the qubit count (qubit indices, p
 patterns) is checked when the description is expanded into a gate program by
 :func:`analysis.program.expand`, because scans re-instantiate a description at other
 qubit counts. Both stages raise :class:`~analysis.errors.CircuitError` whose problems
-name the JSON path, the value and what is allowed.
+name the JSON path, the value and what is allowed. Reading files and text (JSON, YAML)
+lives in :mod:`analysis.loading`.
 """
 
 from __future__ import annotations
 
 import json
-from pathlib import Path
 from typing import Annotated, Any, Literal
 
-import yaml
 from pydantic import BaseModel, ConfigDict, Field, StrictBool, StrictInt, ValidationError
 from pydantic.json_schema import WithJsonSchema
 
@@ -38,9 +37,7 @@ __all__ = [
     "Circuit",
     "Step",
     "circuit_schema",
-    "load_circuit",
     "parse_circuit",
-    "parse_circuit_text",
     "validation_problems",
 ]
 
@@ -158,19 +155,73 @@ def circuit_schema() -> dict[str, Any]:
     return schema
 
 
-def _describe(value: Any) -> str:
-    text = json.dumps(value) if _jsonable(value) else repr(value)
-    if len(text) > 60:
-        text = text[:57] + "..."
-    return text
+def _describe(value: Any, limit: int = 60) -> str:
+    """Render ``value`` JSON-style for a message, cut at ``limit`` characters.
+
+    The walk stops as soon as the text is long enough, so a value built from YAML aliases
+    (which can stand for billions of nodes in a small file) costs no more than a short one.
+    """
+    out: list[str] = []
+    size = [0]
+
+    def emit(text: str) -> bool:
+        out.append(text)
+        size[0] += len(text)
+        return size[0] <= limit
+
+    def walk(v: Any) -> bool:
+        if v is None:
+            return emit("null")
+        if isinstance(v, bool):
+            return emit("true" if v else "false")
+        if isinstance(v, int):
+            return emit(str(v) if v.bit_length() <= 200 else f"<integer of {v.bit_length()} bits>")
+        if isinstance(v, float):
+            return emit(repr(v))
+        if isinstance(v, str):
+            return emit(json.dumps(v[: limit + 1]))
+        if isinstance(v, dict):
+            if not emit("{"):
+                return False
+            for i, (k, item) in enumerate(v.items()):
+                if (i and not emit(", ")) or not walk(k) or not emit(": ") or not walk(item):
+                    return False
+            return emit("}")
+        if isinstance(v, (list, tuple, set, frozenset)):
+            if not emit("["):
+                return False
+            for i, item in enumerate(v):
+                if (i and not emit(", ")) or not walk(item):
+                    return False
+            return emit("]")
+        return emit(str(v)[: limit + 1])
+
+    walk(value)
+    text = "".join(out)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
-def _jsonable(value: Any) -> bool:
-    try:
-        json.dumps(value, allow_nan=False)
-    except (TypeError, ValueError):
-        return False
-    return True
+def _kind(value: Any) -> str:
+    """The JSON word for the type of a decoded value ('a string', 'an array', ...)."""
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "a boolean"
+    if isinstance(value, int):
+        return "an integer"
+    if isinstance(value, float):
+        return "a floating-point number"
+    if isinstance(value, str):
+        return "a string"
+    if isinstance(value, (list, tuple)):
+        return "an array"
+    if isinstance(value, dict):
+        return "an object"
+    return type(value).__name__
+
+
+def _kind_note(value: Any) -> str:
+    return "" if value is None else f" ({_kind(value)})"
 
 
 _TYPE_WORDS = {
@@ -178,7 +229,7 @@ _TYPE_WORDS = {
     "bool_type": "true or false",
     "string_type": "a string",
     "float_type": "a number",
-    "list_type": "a list",
+    "list_type": "an array",
     "model_type": "an object",
     "dict_type": "an object",
 }
@@ -210,19 +261,31 @@ def validation_problems(exc: ValidationError) -> list[Problem]:
         elif kind == "literal_error":
             msg = f"got {_describe(value)}; expected {ctx.get('expected')}"
         elif kind in _TYPE_WORDS:
-            got = type(value).__name__ if value is not None else "null"
-            msg = f"expected {_TYPE_WORDS[kind]}, got {_describe(value)} ({got})"
+            msg = f"expected {_TYPE_WORDS[kind]}, got {_describe(value)}{_kind_note(value)}"
         elif kind == "finite_number":
             msg = f"expected a finite number, got {_describe(value)}"
         elif kind in ("greater_than_equal", "less_than_equal", "greater_than", "less_than"):
             lo, hi = _bounds(loc)
             msg = f"got {_describe(value)}; allowed range is {lo}..{hi}"
-        elif kind in ("too_long", "too_short"):
-            msg = f"length {ctx.get('actual_length')} is outside the allowed range " + (
-                f"(at most {ctx.get('max_length')})"
-                if kind == "too_long"
-                else f"(at least {ctx.get('min_length')})"
+        elif kind == "too_long":
+            msg = (
+                f"got a list of {ctx.get('actual_length')} items; at most "
+                f"{ctx.get('max_length')} allowed"
             )
+        elif kind == "too_short":
+            msg = (
+                f"got a list of {ctx.get('actual_length')} items; at least "
+                f"{ctx.get('min_length')} required"
+            )
+        elif kind in ("string_too_short", "string_too_long"):
+            word = "at least" if kind == "string_too_short" else "at most"
+            bound = ctx.get("min_length") if kind == "string_too_short" else ctx.get("max_length")
+            msg = (
+                f"got {_describe(value)} ({len(value)} characters); expected {word} "
+                f"{bound} character{'s' if bound != 1 else ''}"
+            )
+        elif kind == "string_unicode":
+            msg = f"got {_describe(value)}; expected text without unpaired surrogate escapes"
         elif kind == "string_pattern_mismatch":
             msg = (
                 f"got {_describe(value)}; expected 1 to 80 characters: letters, digits, space "
@@ -270,125 +333,11 @@ def parse_circuit(data: Any, *, source: str | None = None) -> Circuit:
     if isinstance(data, Circuit):
         return data
     if not isinstance(data, dict):
-        got = type(data).__name__ if data is not None else "null"
-        raise CircuitError([Problem("(root)", f"expected an object, got {got}")], source=source)
+        raise CircuitError(
+            [Problem("(root)", f"expected an object, got {_describe(data)}{_kind_note(data)}")],
+            source=source,
+        )
     try:
         return Circuit.model_validate(data)
     except ValidationError as exc:
         raise CircuitError(validation_problems(exc), source=source) from exc
-
-
-class _Loader(yaml.SafeLoader):
-    """YAML 1.2-style booleans: only true/false (so the key ``on`` stays a string)."""
-
-
-_Loader.yaml_implicit_resolvers = {
-    first: [(tag, rx) for tag, rx in resolvers if tag != "tag:yaml.org,2002:bool"]
-    for first, resolvers in yaml.SafeLoader.yaml_implicit_resolvers.items()
-}
-_Loader.add_implicit_resolver(
-    "tag:yaml.org,2002:bool",
-    __import__("re").compile(r"^(?:true|True|TRUE|false|False|FALSE)$"),
-    list("tTfF"),
-)
-
-
-def _construct_mapping(loader: _Loader, node: yaml.MappingNode, deep: bool = False) -> dict:
-    seen: set[Any] = set()
-    for key_node, _ in node.value:
-        key = loader.construct_object(key_node, deep=deep)
-        if key in seen:
-            raise yaml.constructor.ConstructorError(
-                None, None, f"duplicate key {key!r}", key_node.start_mark
-            )
-        seen.add(key)
-    return yaml.SafeLoader.construct_mapping(loader, node, deep=deep)
-
-
-_Loader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _construct_mapping)
-
-
-def _reject_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
-    out: dict[str, Any] = {}
-    for key, value in pairs:
-        if key in out:
-            raise ValueError(f"duplicate key {key!r}")
-        out[key] = value
-    return out
-
-
-def _decode(text: str, kind: str, source: str | None) -> Any:
-    if kind == "yaml":
-        try:
-            return yaml.load(text, Loader=_Loader)  # noqa: S506 - a SafeLoader subclass
-        except yaml.YAMLError as exc:
-            mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
-            where = f"line {mark.line + 1}, column {mark.column + 1}: " if mark else ""
-            what = getattr(exc, "problem", None) or str(exc)
-            raise CircuitError([Problem("(root)", f"{where}invalid YAML: {what}")], source=source)
-    try:
-        return json.loads(text, object_pairs_hook=_reject_duplicates)
-    except json.JSONDecodeError as exc:
-        raise CircuitError(
-            [Problem("(root)", f"line {exc.lineno}, column {exc.colno}: invalid JSON: {exc.msg}")],
-            source=source,
-        ) from None
-    except ValueError as exc:  # duplicate keys
-        raise CircuitError([Problem("(root)", f"invalid JSON: {exc}")], source=source) from None
-    except RecursionError:
-        raise CircuitError(
-            [Problem("(root)", "invalid JSON: nested too deeply")], source=source
-        ) from None
-
-
-def parse_circuit_text(text: str | bytes, *, kind: str = "json", source: str | None = None) -> Circuit:
-    """Decode JSON or YAML text and validate it as a description.
-
-    Duplicate keys are rejected (JSON would silently keep the last one), and in YAML only
-    ``true``/``false`` are booleans, so the key ``on`` is not read as ``True``.
-    """
-    if len(text) > MAX_DESCRIPTION_BYTES:
-        raise CircuitError(
-            [Problem("(root)", f"description is {len(text)} bytes; the limit is "
-                     f"{MAX_DESCRIPTION_BYTES} bytes")],
-            source=source,
-        )
-    if isinstance(text, bytes):
-        try:
-            text = text.decode("utf-8")
-        except UnicodeDecodeError as exc:
-            raise CircuitError(
-                [Problem("(root)", f"not UTF-8 text (byte {exc.start})")], source=source
-            ) from None
-    if kind not in ("json", "yaml"):
-        raise ValueError(f"kind must be 'json' or 'yaml', got {kind!r}")
-    return parse_circuit(_decode(text, kind, source), source=source)
-
-
-def load_circuit(path: str | Path) -> Circuit:
-    """Read a description from a ``.json``, ``.yaml`` or ``.yml`` file.
-
-    Raises
-    ------
-    CircuitError
-        If the file is missing, too large, not valid JSON/YAML, or not a valid description.
-    """
-    path = Path(path)
-    source = str(path)
-    try:
-        size = path.stat().st_size
-        if size > MAX_DESCRIPTION_BYTES:
-            raise CircuitError(
-                [Problem("(root)", f"file is {size} bytes; the limit is "
-                         f"{MAX_DESCRIPTION_BYTES} bytes")],
-                source=source,
-            )
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise CircuitError([Problem("(root)", "no such file")], source=source) from None
-    except IsADirectoryError:
-        raise CircuitError([Problem("(root)", "is a directory, not a file")], source=source) from None
-    except PermissionError:
-        raise CircuitError([Problem("(root)", "permission denied")], source=source) from None
-    kind = "yaml" if path.suffix.lower() in (".yaml", ".yml") else "json"
-    return parse_circuit_text(raw, kind=kind, source=source)

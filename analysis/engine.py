@@ -28,9 +28,14 @@ __all__ = [
     "DEFAULT_MEMORY_BUDGET",
     "WORK_FACTOR",
     "Plan",
+    "PlanStep",
+    "apply_generator",
+    "apply_pauli",
+    "apply_step",
     "compile_program",
     "rows_per_chunk",
     "run",
+    "step_matrix",
     "zero_states",
 ]
 
@@ -47,7 +52,9 @@ Speed only; the numbers never depend on it."""
 
 
 @dataclass(frozen=True)
-class _Step:
+class PlanStep:
+    """One gate of a plan: its table row, qubits, parameter index and fixed matrix."""
+
     spec: GateSpec
     qubits: tuple[int, ...]
     param: int | None
@@ -60,7 +67,7 @@ class Plan:
 
     qubits: int
     parameters: int
-    steps: tuple[_Step, ...]
+    steps: tuple[PlanStep, ...]
 
 
 def compile_program(program: Program) -> Plan:
@@ -74,13 +81,13 @@ def compile_program(program: Program) -> Plan:
         fixed = None
         if op.param is None:
             fixed = matrix_spec.matrix(np.array([op.angle or 0.0]))[0]
-        steps.append(_Step(spec, op.qubits, op.param, fixed))
+        steps.append(PlanStep(spec, op.qubits, op.param, fixed))
     return Plan(program.qubits, program.parameters, tuple(steps))
 
 
 def zero_states(batch: int, qubits: int, dtype: type = np.complex128) -> NDArray:
     """Return ``batch`` copies of |0…0⟩, shape ``(batch, 2**qubits)``."""
-    states = np.zeros((batch, 1 << qubits), dtype=dtype)
+    states: NDArray = np.zeros((batch, 1 << qubits), dtype=dtype)
     states[:, 0] = 1.0
     return states
 
@@ -131,14 +138,70 @@ def _apply_2x2(s0: NDArray, s1: NDArray, m: NDArray, diagonal: bool) -> None:
     s0[...] = t
 
 
-def _apply(states: NDArray, n: int, step: _Step, angles: NDArray | None) -> None:
+def step_matrix(step: PlanStep, angles: NDArray | None, dtype: type, *, adjoint: bool = False) -> NDArray:
+    """Matrix of one plan step: fixed ``(d, d)`` or batched ``(B, d, d)``.
+
+    For controlled gates this is the one-qubit matrix acting on the target.
+    """
+    spec = step.spec
+    if step.fixed is not None:
+        m = step.fixed
+    else:
+        if angles is None:
+            raise ValueError(f"step {spec.name} on {step.qubits} needs angles")
+        source = lookup(spec.target) if spec.target is not None else spec
+        m = source.matrix(angles)
+    if adjoint:
+        m = np.conj(np.swapaxes(m, -1, -2))
+    return m.astype(dtype, copy=False)
+
+
+def apply_step(
+    states: NDArray, n: int, step: PlanStep, angles: NDArray | None, *, adjoint: bool = False
+) -> None:
+    """Apply one plan step (or its inverse, ``adjoint=True``) to a batch in place."""
+    _apply_matrix(states, n, step, step_matrix(step, angles, states.dtype.type, adjoint=adjoint))
+
+
+_PAULI_MATRICES = {
+    "X": np.array([[0, 1], [1, 0]], dtype=complex),
+    "Y": np.array([[0, -1j], [1j, 0]], dtype=complex),
+    "Z": np.array([[1, 0], [0, -1]], dtype=complex),
+}
+
+
+def apply_pauli(states: NDArray, n: int, paulis: str, qubits: tuple[int, ...]) -> None:
+    """Multiply a batch in place by the Pauli string ``paulis`` on ``qubits``."""
+    b = states.shape[0]
+    for letter, q in zip(paulis, qubits, strict=True):
+        if letter == "I":
+            continue
+        v = states.reshape(b, 1 << q, 2, 1 << (n - q - 1))
+        _apply_2x2(v[:, :, 0, :], v[:, :, 1, :], _PAULI_MATRICES[letter], letter == "Z")
+
+
+def apply_generator(states: NDArray, n: int, step: PlanStep) -> None:
+    """Multiply a batch in place by the generator ``G`` of a rotation step.
+
+    A rotation is ``exp(-i θ G / 2)``; for a controlled rotation ``G = |1⟩⟨1|_c ⊗ P_t``,
+    so the half of the batch where the control is |0⟩ is set to zero.
+    """
+    spec = step.spec
+    if spec.generator is None:
+        raise ValueError(f"gate {spec.name} has no generator")
+    if spec.target is None:
+        apply_pauli(states, n, spec.generator, step.qubits)
+        return
+    control, target = step.qubits
+    b = states.shape[0]
+    v = states.reshape(b, 1 << control, 2, 1 << (n - control - 1))
+    v[:, :, 0, :] = 0.0
+    apply_pauli(states, n, spec.generator, (target,))
+
+
+def _apply_matrix(states: NDArray, n: int, step: PlanStep, m: NDArray) -> None:
     spec = step.spec
     b = states.shape[0]
-    if step.fixed is not None:
-        m = step.fixed.astype(states.dtype, copy=False)
-    else:
-        source = lookup(spec.target) if spec.target is not None else spec
-        m = source.matrix(angles).astype(states.dtype, copy=False)
     if spec.qubits == 1:
         (q,) = step.qubits
         v = states.reshape(b, 1 << q, 2, 1 << (n - q - 1))
@@ -220,5 +283,5 @@ def run(
         raise ValueError(f"states must have shape {(thetas.shape[0], 1 << n)}, got {states.shape}")
     for step in plan.steps:
         angles = thetas[:, step.param] if step.param is not None else None
-        _apply(states, n, step, angles)
+        apply_step(states, n, step, angles)
     return states

@@ -6,7 +6,7 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, ValidationError, field_validator
 
-from .circuit import MAX_LAYERS
+from .circuit import MAX_LAYERS, _describe
 from .errors import OptionError, Problem, format_path
 from .sampling import MAX_SEED
 
@@ -92,16 +92,23 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
             value = err.get("input")
             kind = err["type"]
             if kind in ("greater_than_equal", "less_than_equal") and field in _RANGES:
-                msg = f"got {value!r}; allowed range is {_RANGES[field]}"
+                msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
             elif kind == "literal_error":
-                msg = f"got {value!r}; expected one of: {', '.join(METRICS)}"
+                msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
+            elif kind == "too_long":
+                msg = (
+                    f"got {err['ctx'].get('actual_length')} values; at most "
+                    f"{err['ctx'].get('max_length')} allowed"
+                )
+            elif kind == "too_short":
+                msg = f"got an empty list; at least {err['ctx'].get('min_length')} needed"
             elif kind == "extra_forbidden":
                 msg = f"unknown option; allowed: {', '.join(AnalysisOptions.model_fields)}"
             elif kind == "int_type":
-                msg = f"expected an integer, got {value!r}"
+                msg = f"expected an integer, got {_describe(value)}"
             elif kind == "value_error":
                 msg = str(err["ctx"]["error"])
             else:
-                msg = f"{err['msg']} (got {value!r})"
+                msg = f"{err['msg']} (got {_describe(value)})"
             problems.append(Problem(path, msg))
         raise OptionError(problems) from exc

@@ -24,7 +24,15 @@ from collections import Counter
 from dataclasses import dataclass, field
 from typing import Any
 
-from .circuit import MAX_QUBITS, ONE_QUBIT_PATTERNS, TWO_QUBIT_PATTERNS, Circuit, Step
+from .circuit import (
+    MAX_LAYERS,
+    MAX_QUBITS,
+    ONE_QUBIT_PATTERNS,
+    TWO_QUBIT_PATTERNS,
+    Circuit,
+    Step,
+    _describe,
+)
 from .errors import CircuitError, Problem
 from .gates import lookup
 
@@ -131,7 +139,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
         if on == "all":
             return [(q,) for q in range(n)]
         if isinstance(on, str):
-            raise CircuitError([Problem(where, f"got {on!r}; the one-qubit gate {step.gate!r} "
+            raise CircuitError([Problem(where, f"got {_show(on)}; the one-qubit gate {step.gate!r} "
                                         "takes 'all' or a list of qubit indices")])
         if not isinstance(on, list) or not on:
             raise CircuitError([Problem(where, f"expected 'all' or a non-empty list of qubit "
@@ -154,7 +162,10 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
     if isinstance(on, str):
         if on not in TWO_QUBIT_PATTERNS:
             hint = " ('all' is for one-qubit gates)" if on in ONE_QUBIT_PATTERNS else ""
-            raise CircuitError([Problem(where, f"got {on!r}; the two-qubit gate {step.gate!r} "
+            got = f"got {_show(on)}"
+            if "on" not in step.model_fields_set:
+                got = f"'on' is missing, so it defaults to {on!r}"
+            raise CircuitError([Problem(where, f"{got}; the two-qubit gate {step.gate!r} "
                                         f"takes one of {patterns} or a list of pairs{hint}")])
         if n < 2:
             raise CircuitError([Problem(where, f"pattern {on!r} needs at least 2 qubits; the "
@@ -190,13 +201,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
 
 
 def _show(value: Any) -> str:
-    import json
-
-    try:
-        text = json.dumps(value)
-    except (TypeError, ValueError):
-        text = repr(value)
-    return text if len(text) <= 60 else text[:57] + "..."
+    return _describe(value)
 
 
 def _check_step(step: Step, path: str, section: str) -> None:
@@ -247,9 +252,11 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     n = circuit.qubits if qubits is None else qubits
     reps = circuit.layers if layers is None else layers
     if not (_is_int(n) and 1 <= n <= MAX_QUBITS):
-        raise CircuitError([Problem("qubits", f"got {n!r}; allowed range is 1..{MAX_QUBITS}")])
-    if not (_is_int(reps) and reps >= 1):
-        raise CircuitError([Problem("layers", f"got {reps!r}; expected an integer >= 1")])
+        raise CircuitError([Problem("qubits", f"got {_show(n)}; allowed range is "
+                                    f"1..{MAX_QUBITS}")])
+    if not (_is_int(reps) and 1 <= reps <= MAX_LAYERS):
+        raise CircuitError([Problem("layers", f"got {_show(reps)}; allowed range is "
+                                    f"1..{MAX_LAYERS}")])
     sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
     targets: dict[str, list[tuple[int, ...]]] = {}
     for section, steps in sections:

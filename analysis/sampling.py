@@ -35,8 +35,16 @@ class Stream(IntEnum):
     CAPACITY = 4
 
 
-def block_rng(seed: int, stream: int, block: int) -> np.random.Generator:
+def _key(stream: int | tuple[int, ...]) -> tuple[int, ...]:
+    return tuple(int(s) for s in stream) if isinstance(stream, tuple) else (int(stream),)
+
+
+def block_rng(seed: int, stream: int | tuple[int, ...], block: int) -> np.random.Generator:
     """Generator for block ``block`` of stream ``stream``.
+
+    A stream is a :class:`Stream` member, or a tuple starting with one and followed by
+    sub-stream numbers (a scan point's qubit and layer counts, say): block ``b`` of
+    ``(s, i, j)`` uses ``SeedSequence(seed, spawn_key=(s, i, j, b))``.
 
     Examples
     --------
@@ -46,10 +54,13 @@ def block_rng(seed: int, stream: int, block: int) -> np.random.Generator:
     >>> a == b
     True
     """
-    return np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(stream, block))))
+    sequence = np.random.SeedSequence(seed, spawn_key=(*_key(stream), block))
+    return np.random.Generator(np.random.PCG64(sequence))
 
 
-def draw_angles(seed: int, stream: int, start: int, count: int, width: int) -> NDArray[np.float64]:
+def draw_angles(
+    seed: int, stream: int | tuple[int, ...], start: int, count: int, width: int
+) -> NDArray[np.float64]:
     """Rows ``start .. start+count-1`` of a stream of i.i.d. uniform angles on [0, 2π).
 
     Returns

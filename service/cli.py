@@ -89,9 +89,20 @@ def load(spec: str) -> analysis.Circuit:
     if spec.startswith(REFERENCE_PREFIX):
         return analysis.load_reference(spec)
     if spec == "-":
-        data = sys.stdin.buffer.read(analysis.circuit.MAX_DESCRIPTION_BYTES + 1)
+        limit = analysis.circuit.MAX_DESCRIPTION_BYTES
+        data = sys.stdin.buffer.read(limit + 1)
+        if len(data) > limit:
+            raise analysis.CircuitError(
+                [analysis.Problem("(root)", f"input is larger than the limit of {limit} bytes")],
+                source="<stdin>",
+            )
         return analysis.parse_circuit_text(data, source="<stdin>")
     return analysis.load_circuit(spec)
+
+
+def _source_name(spec: str) -> str:
+    """How error lines name the description given as ``spec``."""
+    return "<stdin>" if spec == "-" else spec
 
 
 def _emit(text: str) -> None:
@@ -107,6 +118,11 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
             raw[field] = value
     if args.layers_sweep is not None:
         sweep = args.layers_sweep
+        if len(sweep) == 1 and not 1 <= sweep[0] <= analysis.circuit.MAX_LAYERS:
+            top = analysis.circuit.MAX_LAYERS
+            raise UsageError(
+                [analysis.Problem("--layers-sweep", f"got {sweep[0]}; allowed range is 1..{top}")]
+            )
         raw["layers_sweep"] = list(range(1, sweep[0] + 1)) if len(sweep) == 1 else sweep
     options = analysis.parse_options(raw, names=_FLAG_NAMES)
     progress = TerminalProgress()
@@ -127,6 +143,12 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
 
 def _cmd_check(args: argparse.Namespace) -> int:
     circuit = load(args.file)
+    for flag, value, top in (
+        ("--qubits", args.qubits, analysis.MAX_QUBITS),
+        ("--layers", args.layers, analysis.circuit.MAX_LAYERS),
+    ):
+        if value is not None and not 1 <= value <= top:
+            raise UsageError([analysis.Problem(flag, f"got {value}; allowed range is 1..{top}")])
     program = analysis.expand(circuit, qubits=args.qubits, layers=args.layers)
     f = analysis.facts(program)
     if args.format == "json":
@@ -150,7 +172,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _cmd_references(args: argparse.Namespace) -> int:
-    rows = []
+    rows: list[dict[str, Any]] = []
     for name in analysis.reference_names():
         c = analysis.load_reference(name)
         p = analysis.expand(c)
@@ -173,7 +195,8 @@ def _cmd_references(args: argparse.Namespace) -> int:
         if len(desc) > 70:
             desc = desc[:67] + "..."
         lines.append(
-            f"{r['name']:<{width}}  {r['qubits']:>6}  {r['layers']:>6}  {r['parameters']:>6}  {desc}"
+            f"{r['name']:<{width}}  {r['qubits']:>6}  {r['layers']:>6}  "
+            f"{r['parameters']:>6}  {desc}"
         )
     lines.append("")
     lines.append(f"Use any of them as {REFERENCE_PREFIX}NAME wherever a file is accepted.")
@@ -215,7 +238,9 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="L|L1,L2,...",
         help="repeat the metrics at these layer counts; a single number L means 1..L",
     )
-    p.add_argument("--seed", type=int, help=f"random seed (default {analysis.options.DEFAULT_SEED})")
+    p.add_argument(
+        "--seed", type=int, help=f"random seed (default {analysis.options.DEFAULT_SEED})"
+    )
     p.add_argument(
         "--memory-budget",
         type=parse_size,
@@ -245,10 +270,16 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the CLI; returns the exit code (also used as the console-script entry point)."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # usage errors (argparse printed them), --help, --version
+        return exc.code if isinstance(exc.code, int) else EXIT_INPUT if exc.code else EXIT_OK
     try:
         return int(args.func(args))
     except (analysis.InputError, analysis.LimitError) as exc:
+        if isinstance(exc, analysis.CircuitError) and exc.source is None and "file" in args:
+            # expansion errors (qubit indices, patterns) do not know where the text came from
+            exc.source = _source_name(args.file)
         for line in str(exc).splitlines():
             sys.stderr.write(f"haarline: error: {line}\n")
         return EXIT_INPUT

@@ -25,6 +25,7 @@ class TerminalProgress:
         self._drawn = False
 
     def __call__(self, stage: str, done: int, total: int) -> None:
+        """Redraw the bar for ``done`` of ``total`` units of ``stage``."""
         if not self.enabled:
             return
         elapsed = time.monotonic() - self.start

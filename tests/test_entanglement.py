@@ -95,7 +95,8 @@ def test_haar_random_states_reach_haar_value(n):
 
 
 def test_bounds_and_distribution():
-    p = program({"qubits": 3, "layers": 2, "layer": [{"gate": "ry"}, {"gate": "crx", "on": "ring"}]})
+    p = program({"qubits": 3, "layers": 2,
+                 "layer": [{"gate": "ry"}, {"gate": "crx", "on": "ring"}]})
     e = entangling_capability(p, samples=300)
     assert 0.0 <= e.interval[0] <= e.meyer_wallach <= e.interval[1] <= 1.0
     assert math.isclose(sum(e.distribution), 1.0)

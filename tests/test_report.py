@@ -133,5 +133,7 @@ def test_public_api_is_complete():
 _MODULE_ONLY = {
     # helpers kept at module level on purpose
     "format_path", "validation_problems", "kl_from_counts", "summarize_meyer_wallach",
-    "block_rng", "cautions", "ALIASES", "Plan", "Metric",
+    "block_rng", "cautions", "ALIASES", "Plan", "PlanStep", "Metric", "apply_generator",
+    "apply_pauli", "apply_step", "step_matrix", "validate_cost", "Fit", "fit_decay",
+    "gradient_samples", "summarize_gradients", "verdict",
 }

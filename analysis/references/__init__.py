@@ -10,7 +10,8 @@ from __future__ import annotations
 
 from importlib import resources
 
-from ..circuit import Circuit, parse_circuit_text
+from ..circuit import Circuit
+from ..loading import parse_circuit_text
 from ..errors import CircuitError, Problem
 
 __all__ = ["REFERENCE_PREFIX", "load_reference", "reference_names"]

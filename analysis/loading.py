@@ -1,0 +1,239 @@
+"""Reading descriptions from text and files: JSON and YAML, with strict decoding.
+
+JSON duplicate keys are rejected (the standard parser would keep the last one silently).
+YAML is read by YAML 1.2 rules for booleans and numbers (so the key ``on`` stays a
+string and ``010`` is ten), with string keys only and no timestamps, sets or merge keys.
+Every problem raises :class:`~analysis.errors.CircuitError`.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from .circuit import MAX_DESCRIPTION_BYTES, Circuit, _describe, parse_circuit
+from .errors import CircuitError, Problem
+
+__all__ = ["load_circuit", "parse_circuit_text"]
+
+
+_YAML_TAG = "tag:yaml.org,2002:"
+
+
+class _Loader(yaml.SafeLoader):
+    """A SafeLoader that reads plain scalars as the YAML 1.2 core schema does.
+
+    PyYAML follows YAML 1.1, where ``on``/``off``/``yes``/``no`` are booleans (so the key
+    ``on`` would become ``True``), ``010`` is octal 8, ``1_0`` is 10, ``1:30`` is 90 and
+    ``1e-3`` is a string. Here only ``true``/``false`` are booleans, integers are decimal
+    (or ``0o``/``0x``), ``1e-3`` is a float, and there are no timestamps, sets, merge keys
+    or other extra types, so a YAML description means what its JSON twin means.
+    """
+
+
+def _yaml_fail(node: yaml.Node, problem: str) -> yaml.constructor.ConstructorError:
+    return yaml.constructor.ConstructorError(None, None, problem, node.start_mark)
+
+
+def _construct_bool(loader: _Loader, node: yaml.ScalarNode) -> bool:
+    text = loader.construct_scalar(node)
+    if text in ("true", "True", "TRUE"):
+        return True
+    if text in ("false", "False", "FALSE"):
+        return False
+    raise _yaml_fail(node, f"{text!r} is not a boolean (expected true or false)")
+
+
+def _construct_int(loader: _Loader, node: yaml.ScalarNode) -> int:
+    text = str(loader.construct_scalar(node))
+    try:
+        if re.fullmatch(r"[-+]?[0-9]+", text):
+            return int(text, 10)
+        if re.fullmatch(r"0o[0-7]+", text):
+            return int(text[2:], 8)
+        if re.fullmatch(r"0x[0-9a-fA-F]+", text):
+            return int(text[2:], 16)
+    except ValueError:  # more digits than Python converts
+        raise _yaml_fail(node, "integer with too many digits") from None
+    raise _yaml_fail(node, f"{text[:40]!r} is not an integer")
+
+
+def _construct_float(loader: _Loader, node: yaml.ScalarNode) -> float:
+    text = str(loader.construct_scalar(node))
+    special = {".inf": float("inf"), "+.inf": float("inf"), "-.inf": float("-inf"),
+               ".nan": float("nan")}
+    if text.lower() in special:
+        return special[text.lower()]
+    if re.fullmatch(r"[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?", text):
+        return float(text)
+    raise _yaml_fail(node, f"{text[:40]!r} is not a number")
+
+
+def _construct_mapping(loader: _Loader, node: yaml.MappingNode, deep: bool = False) -> dict:
+    if not isinstance(node, yaml.MappingNode):
+        raise _yaml_fail(node, "expected a mapping")
+    seen: set[str] = set()
+    for key_node, _ in node.value:
+        key = loader.construct_object(key_node, deep=True)
+        if not isinstance(key, str):
+            raise _yaml_fail(key_node, f"key {_describe(key)} is not a string; keys are "
+                             "names such as 'qubits' or 'gate'")
+        if key in seen:
+            raise _yaml_fail(key_node, f"duplicate key {key!r}")
+        seen.add(key)
+    return yaml.SafeLoader.construct_mapping(loader, node, deep=deep)
+
+
+_Loader.yaml_implicit_resolvers = {}
+_Loader.add_implicit_resolver(
+    _YAML_TAG + "null", re.compile(r"^(?:~|null|Null|NULL|)$"), ["~", "n", "N", ""]
+)
+_Loader.add_implicit_resolver(
+    _YAML_TAG + "bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"), list("tTfF")
+)
+_Loader.add_implicit_resolver(
+    _YAML_TAG + "int",
+    re.compile(r"^(?:[-+]?[0-9]+|0o[0-7]+|0x[0-9a-fA-F]+)$"),
+    list("-+0123456789"),
+)
+_Loader.add_implicit_resolver(
+    _YAML_TAG + "float",
+    re.compile(
+        r"^(?:[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?"
+        r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN))$"
+    ),
+    list("-+.0123456789"),
+)
+_Loader.yaml_constructors = {
+    _YAML_TAG + "null": yaml.SafeLoader.yaml_constructors[_YAML_TAG + "null"],
+    _YAML_TAG + "str": yaml.SafeLoader.yaml_constructors[_YAML_TAG + "str"],
+    _YAML_TAG + "seq": yaml.SafeLoader.yaml_constructors[_YAML_TAG + "seq"],
+    _YAML_TAG + "bool": _construct_bool,
+    _YAML_TAG + "int": _construct_int,
+    _YAML_TAG + "float": _construct_float,
+    _YAML_TAG + "map": _construct_mapping,
+    None: yaml.SafeLoader.construct_undefined,
+}
+
+
+class _DuplicateKey(ValueError):
+    """A JSON object repeats a key."""
+
+
+def _reject_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in pairs:
+        if key in out:
+            raise _DuplicateKey(f"duplicate key {key!r}")
+        out[key] = value
+    return out
+
+
+def _decode(text: str, kind: str, source: str | None) -> Any:
+    if kind == "yaml":
+        try:
+            return yaml.load(text, Loader=_Loader)  # noqa: S506 - a SafeLoader subclass
+        except yaml.YAMLError as exc:
+            mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
+            where = f"line {mark.line + 1}, column {mark.column + 1}: " if mark else ""
+            what = getattr(exc, "problem", None) or str(exc)
+            raise CircuitError(
+                [Problem("(root)", f"{where}invalid YAML: {what}")], source=source
+            ) from None
+        except RecursionError:
+            raise CircuitError(
+                [Problem("(root)", "invalid YAML: nested too deeply")], source=source
+            ) from None
+    try:
+        return json.loads(text, object_pairs_hook=_reject_duplicates)
+    except json.JSONDecodeError as exc:
+        raise CircuitError(
+            [Problem("(root)", f"line {exc.lineno}, column {exc.colno}: invalid JSON: {exc.msg}")],
+            source=source,
+        ) from None
+    except _DuplicateKey as exc:
+        raise CircuitError([Problem("(root)", f"invalid JSON: {exc}")], source=source) from None
+    except ValueError:  # an integer literal longer than Python converts
+        raise CircuitError(
+            [Problem("(root)", "invalid JSON: a number has too many digits")], source=source
+        ) from None
+    except RecursionError:
+        raise CircuitError(
+            [Problem("(root)", "invalid JSON: nested too deeply")], source=source
+        ) from None
+
+
+def _utf8_length(text: str) -> int:
+    return len(text.encode("utf-8", "surrogatepass"))
+
+
+def parse_circuit_text(
+    text: str | bytes, *, kind: str = "json", source: str | None = None
+) -> Circuit:
+    """Decode JSON or YAML text and validate it as a description.
+
+    Duplicate keys are rejected (JSON would silently keep the last one). YAML plain
+    scalars follow the YAML 1.2 core schema: only ``true``/``false`` are booleans (so the
+    key ``on`` is not read as ``True``), ``010`` is ten, ``1e-3`` is a number, and keys must
+    be strings. A leading UTF-8 byte order mark is ignored.
+    """
+    size = len(text) if isinstance(text, bytes) else _utf8_length(text)
+    if size > MAX_DESCRIPTION_BYTES:
+        raise CircuitError(
+            [Problem("(root)", f"description is {size} bytes; the limit is "
+                     f"{MAX_DESCRIPTION_BYTES} bytes")],
+            source=source,
+        )
+    if isinstance(text, bytes):
+        try:
+            # RFC 8259 section 8.1 lets a parser ignore a leading byte order mark.
+            text = text.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise CircuitError(
+                [Problem("(root)", f"not UTF-8 text (byte {exc.start})")], source=source
+            ) from None
+    if kind not in ("json", "yaml"):
+        raise ValueError(f"kind must be 'json' or 'yaml', got {kind!r}")
+    return parse_circuit(_decode(text, kind, source), source=source)
+
+
+def load_circuit(path: str | Path) -> Circuit:
+    """Read a description from a ``.json``, ``.yaml`` or ``.yml`` file.
+
+    Raises
+    ------
+    CircuitError
+        If the file is missing, too large, not valid JSON/YAML, or not a valid description.
+    """
+    path = Path(path)
+    source = str(path)
+    too_big = f"; the limit is {MAX_DESCRIPTION_BYTES} bytes"
+    try:
+        size = path.stat().st_size
+        if path.is_file() and size > MAX_DESCRIPTION_BYTES:
+            raise CircuitError([Problem("(root)", f"file is {size} bytes{too_big}")], source=source)
+        with path.open("rb") as handle:  # bounded read: special files may not report a size
+            raw = handle.read(MAX_DESCRIPTION_BYTES + 1)
+    except FileNotFoundError:
+        raise CircuitError([Problem("(root)", "no such file")], source=source) from None
+    except IsADirectoryError:
+        raise CircuitError(
+            [Problem("(root)", "is a directory, not a file")], source=source
+        ) from None
+    except PermissionError:
+        raise CircuitError([Problem("(root)", "permission denied")], source=source) from None
+    except (OSError, ValueError) as exc:  # name too long, bad characters, I/O errors
+        why = getattr(exc, "strerror", None) or str(exc)
+        raise CircuitError([Problem("(root)", f"cannot read the file: {why}")],
+                           source=source) from None
+    if len(raw) > MAX_DESCRIPTION_BYTES:
+        raise CircuitError(
+            [Problem("(root)", f"file is larger than the limit of {MAX_DESCRIPTION_BYTES} bytes")],
+            source=source,
+        )
+    kind = "yaml" if path.suffix.lower() in (".yaml", ".yml") else "json"
+    return parse_circuit_text(raw, kind=kind, source=source)

@@ -1,0 +1,368 @@
+"""Trainability: how the variance of cost gradients scales with qubit count and depth.
+
+For each point of a scan (a qubit count, or a layer count at fixed qubits) the
+description is re-instantiated, ``S`` parameter vectors are drawn uniformly on
+[0, 2π), all gradients are computed exactly (:func:`analysis.gradients.adjoint_gradients`)
+and the point reports the mean over parameters of the sample variance of ∂C/∂θ_k, with a
+95% interval, and the largest and smallest per-parameter variance.
+
+A barren plateau is a variance that decays exponentially with the qubit count (McClean
+et al., Nat. Commun. 9, 4812, 2018; Cerezo et al., Nat. Commun. 12, 1791, 2021).
+:func:`fit_decay` fits ``ln Var`` against ``n`` (exponential) and against ``ln n``
+(power law) by weighted least squares and applies the rule documented in
+:func:`verdict`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+from scipy import special
+
+from ._batching import Progress
+from .circuit import Circuit
+from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
+from .errors import CircuitError, OptionError, Problem
+from .gradients import adjoint_gradients
+from .observables import make_observable
+from .program import Program, expand
+from .sampling import Stream, draw_angles
+
+__all__ = [
+    "MIN_FIT_POINTS",
+    "MIN_FIT_QUBITS",
+    "Fit",
+    "Trainability",
+    "VariancePoint",
+    "fit_decay",
+    "gradient_samples",
+    "summarize_gradients",
+    "trainability",
+    "verdict",
+]
+
+MIN_FIT_POINTS = 4
+"""Fewest qubit counts for a verdict."""
+MIN_FIT_QUBITS = 6
+"""Smallest largest-qubit-count for a verdict."""
+DECISIVE_AIC = 2.0
+"""AIC difference above which one model is called favoured (Burnham & Anderson, 2002)."""
+FLAT_DECAY = 0.25
+"""Decay per qubit (nats) below which a non-significant decay is called flat."""
+
+
+@dataclass(frozen=True)
+class VariancePoint:
+    """Gradient statistics at one (qubits, layers) point."""
+
+    qubits: int
+    layers: int
+    parameters: int
+    samples: int
+    variance: float
+    interval: tuple[float, float]
+    standard_error: float
+    largest: float
+    smallest: float
+    mean_cost: float
+    top_sample_share: float
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the report object (plain JSON types)."""
+        out = asdict(self)
+        out["interval"] = list(self.interval)
+        return out
+
+
+def gradient_samples(
+    program: Program,
+    cost: Any,
+    *,
+    samples: int,
+    seed: int,
+    memory_budget: int = DEFAULT_MEMORY_BUDGET,
+    progress: Progress | None = None,
+    stage: str = "gradients",
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Costs ``(S,)`` and gradients ``(S, P)`` at ``samples`` random parameter vectors.
+
+    Sample ``k`` at ``(n, L)`` uses row ``k`` of stream ``(GRADIENTS, n, L)``, so points of a
+    scan are independent and the numbers never depend on chunking.
+    """
+    observable = make_observable(cost, program.qubits)
+    plan = compile_program(program)
+    stream = (Stream.GRADIENTS, program.qubits, program.layers)
+    # adjoint differentiation holds three state batches
+    rows = max(1, rows_per_chunk(program.qubits, memory_budget) // 2)
+    costs = np.empty(samples)
+    grads = np.empty((samples, program.parameters))
+    done = 0
+    while done < samples:
+        k = min(rows, samples - done)
+        thetas = draw_angles(seed, stream, done, k, program.parameters)
+        c, g = adjoint_gradients(plan, thetas, observable)
+        costs[done : done + k] = c
+        grads[done : done + k] = g
+        done += k
+        if progress is not None:
+            progress(stage, done, samples)
+    return costs, grads
+
+
+def summarize_gradients(
+    qubits: int, layers: int, costs: NDArray[np.float64], grads: NDArray[np.float64]
+) -> VariancePoint:
+    """Mean per-parameter variance with a 95% interval.
+
+    The estimate ``v = (1/P) Σ_k s_k²`` (``s_k²`` the unbiased sample variance of ∂C/∂θ_k)
+    equals ``S/(S-1)`` times the sample mean of ``y_s = (1/P) Σ_k (g_sk - ḡ_k)²``; its
+    standard error is ``S/(S-1) · sd(y)/√S`` (delta method, common practice). The interval
+    is ``v · exp(±t · se / v)``, symmetric in ``ln v`` (so it stays positive on a log axis).
+    ``top_sample_share`` is the largest single sample's share of ``Σ y``: when one sample
+    carries a large share the squared gradients are heavy-tailed and the interval is
+    likely too narrow (the report then says so).
+    """
+    s, p = grads.shape
+    if p == 0:
+        raise CircuitError([Problem("layer", "the circuit has no trainable parameters; "
+                                    "there are no gradients to analyze")])
+    centred = grads - grads.mean(axis=0)
+    per_param = (centred**2).sum(axis=0) / (s - 1)
+    y = (centred**2).mean(axis=1)
+    v = float(per_param.mean())
+    se = float(s / (s - 1) * y.std(ddof=1) / math.sqrt(s))
+    if v > 0:
+        t = float(special.stdtrit(s - 1, 0.975))
+        width = t * se / v
+        interval = (v * math.exp(-width), v * math.exp(width))
+    else:
+        interval = (0.0, 0.0)
+    return VariancePoint(
+        qubits=qubits,
+        layers=layers,
+        parameters=p,
+        samples=s,
+        variance=v,
+        interval=interval,
+        standard_error=se,
+        largest=float(per_param.max()),
+        smallest=float(per_param.min()),
+        mean_cost=float(costs.mean()),
+        top_sample_share=float(y.max() / y.sum()) if y.sum() > 0 else 0.0,
+    )
+
+
+@dataclass(frozen=True)
+class Fit:
+    """Weighted least squares of ``ln Var = intercept + slope · x``."""
+
+    model: str
+    slope: float
+    slope_stderr: float
+    intercept: float
+    chi2: float
+    aic: float
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the report object."""
+        return asdict(self)
+
+
+def _wls(x: NDArray, y: NDArray, sigma: NDArray, model: str) -> Fit:
+    w = 1.0 / sigma**2
+    a = np.stack([np.ones_like(x), x], axis=1)
+    cov = np.linalg.inv(a.T @ (a * w[:, None]))
+    beta = cov @ (a.T @ (w * y))
+    resid = y - a @ beta
+    chi2 = float(np.sum(w * resid**2))
+    dof = len(x) - 2
+    scale = max(1.0, chi2 / dof) if dof > 0 else 1.0  # inflate when the model misfits
+    return Fit(
+        model=model,
+        slope=float(beta[1]),
+        slope_stderr=float(math.sqrt(cov[1, 1] * scale)),
+        intercept=float(beta[0]),
+        chi2=chi2,
+        aic=chi2 + 2 * 2,
+    )
+
+
+def fit_decay(points: list[VariancePoint]) -> dict[str, Fit] | None:
+    """Fit ``ln Var`` against ``n`` and against ``ln n``; ``None`` if fewer than 3 usable points.
+
+    Each point is weighted by ``1/σ²`` with ``σ = se/Var``, the standard error of ``ln Var``.
+    """
+    use = [p for p in points if p.variance > 0 and p.standard_error > 0]
+    if len(use) < 3:
+        return None
+    n = np.array([p.qubits for p in use], dtype=float)
+    y = np.log([p.variance for p in use])
+    sigma = np.array([p.standard_error / p.variance for p in use])
+    return {
+        "exponential": _wls(n, y, sigma, "exponential"),
+        "power": _wls(np.log(n), y, sigma, "power"),
+    }
+
+
+def verdict(points: list[VariancePoint], fits: dict[str, Fit] | None) -> tuple[bool | None, str]:
+    """The barren-plateau verdict and the one-line reason for it.
+
+    Rule (also in the README):
+
+    1. Fewer than 4 qubit counts, or a largest qubit count below 6: ``None``.
+    2. A zero variance anywhere: ``None`` (the cost ignores the parameters there).
+    3. Decay per qubit ``d = -slope`` of the exponential fit, standard error ``se``. If
+       ``d - 2 se ≤ 0`` (no significant decrease with n): ``False`` when ``d + 2 se`` is
+       below 0.25 nats per qubit (the variance is flat), else ``None`` (too noisy to tell).
+    4. If the exponential fit has the lower AIC by more than 2: ``True``.
+    5. If the power-law fit has the lower AIC by more than 2: ``False`` (polynomial decay).
+    6. Otherwise: ``None`` (the data do not tell the two apart).
+    """
+    qs = sorted({p.qubits for p in points})
+    if len(qs) < MIN_FIT_POINTS or qs[-1] < MIN_FIT_QUBITS:
+        return None, (
+            f"no verdict: the scan has {len(qs)} qubit count(s) up to n = {qs[-1] if qs else 0}; "
+            f"a verdict needs at least {MIN_FIT_POINTS} counts and a largest n of at least "
+            f"{MIN_FIT_QUBITS}"
+        )
+    zero = [p.qubits for p in points if p.variance <= 0]
+    if zero or fits is None:
+        return None, f"no verdict: the gradient variance is exactly zero at n = {zero}"
+    e, pw = fits["exponential"], fits["power"]
+    d, se = -e.slope, e.slope_stderr
+    span = f"n = {qs[0]}..{qs[-1]}"
+    rate = f"{d:.3g} ± {se:.2g} nats per qubit (x{math.exp(-d):.3g} per qubit)"
+    if d - 2 * se <= 0:
+        if d + 2 * se <= FLAT_DECAY:
+            return False, (
+                f"not a barren plateau: the variance does not fall significantly with n over "
+                f"{span} (exponential decay {rate})"
+            )
+        return None, (
+            f"no verdict: the variances are too noisy to tell a decay from none over {span} "
+            f"(exponential decay {rate}); draw more --grad-samples"
+        )
+    delta = pw.aic - e.aic
+    if delta > DECISIVE_AIC:
+        return True, (
+            f"barren plateau: exponential decay favoured over a power law (AIC "
+            f"{e.aic:.3g} vs {pw.aic:.3g}) over {span}; the variance falls by {rate}"
+        )
+    if delta < -DECISIVE_AIC:
+        return False, (
+            f"not a barren plateau: power-law decay favoured (AIC {pw.aic:.3g} vs "
+            f"{e.aic:.3g}), Var ~ n^{pw.slope:.3g} ± {pw.slope_stderr:.2g} over {span}"
+        )
+    return None, (
+        f"no verdict: exponential (AIC {e.aic:.3g}) and power-law (AIC {pw.aic:.3g}) fits "
+        f"are equally good over {span}; decay {rate}. Scan more qubit counts."
+    )
+
+
+@dataclass(frozen=True)
+class Trainability:
+    """The report's ``trainability`` object."""
+
+    cost: Any
+    samples: int
+    layers_rule: str
+    points: list[VariancePoint]
+    fit: dict[str, Fit] | None
+    barren_plateau: bool | None
+    reason: str
+    layer_points: list[VariancePoint] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the report object (plain JSON types)."""
+        return {
+            "cost": self.cost if isinstance(self.cost, str) else [list(t) for t in self.cost],
+            "samples": self.samples,
+            "layers_rule": self.layers_rule,
+            "points": [p.to_dict() for p in self.points],
+            "fit": {k: f.to_dict() for k, f in self.fit.items()} if self.fit else None,
+            "decay_per_qubit": -self.fit["exponential"].slope if self.fit else None,
+            "decay_per_qubit_stderr": self.fit["exponential"].slope_stderr if self.fit else None,
+            "barren_plateau": self.barren_plateau,
+            "reason": self.reason,
+            "layer_points": [p.to_dict() for p in self.layer_points],
+        }
+
+
+def _layers_at(rule: int | str | None, n: int, circuit: Circuit) -> int:
+    if rule is None:
+        return circuit.layers
+    if rule == "n":
+        return n
+    return int(rule)
+
+
+def trainability(
+    circuit: Circuit,
+    *,
+    cost: Any = "global",
+    scan: list[int] | None = None,
+    scan_layers: int | str | None = None,
+    layer_scan: list[int] | None = None,
+    samples: int = 200,
+    seed: int = 1,
+    memory_budget: int = DEFAULT_MEMORY_BUDGET,
+    progress: Progress | None = None,
+) -> Trainability:
+    """Gradient-variance scan over qubit counts (and, optionally, over layer counts).
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The description; its patterns are re-resolved at every qubit count.
+    cost : str or list
+        ``"global"``, ``"local"``, ``"zz"`` or a Pauli sum (fixed qubit count; no scan).
+    scan : list of int, optional
+        Qubit counts; default the description's own count only.
+    scan_layers : int or "n", optional
+        Layers at each point: as described (default), a fixed count, or ``"n"``.
+    layer_scan : list of int, optional
+        Layer counts for a variance-against-depth scan at the description's qubit count.
+    samples : int
+        Parameter vectors per point (default 200).
+    seed : int
+        Seed.
+
+    Returns
+    -------
+    Trainability
+    """
+    qubit_counts = sorted(set(scan or [circuit.qubits]))
+    if not isinstance(cost, str) and qubit_counts != [circuit.qubits]:
+        raise OptionError([Problem("scan", "a Pauli-sum cost is fixed to its qubit count; "
+                                   "scan qubit counts only with a named cost (global, local, "
+                                   "zz)")])
+    rule = "as described" if scan_layers is None else (
+        "layers = n" if scan_layers == "n" else f"layers = {scan_layers}")
+    work = [(n, _layers_at(scan_layers, n, circuit)) for n in qubit_counts]
+    depth_work = [(circuit.qubits, L) for L in sorted(set(layer_scan or []))]
+    points: list[VariancePoint] = []
+    layer_points: list[VariancePoint] = []
+    for target, todo in ((points, work), (layer_points, depth_work)):
+        for n, layers in todo:
+            program = expand(circuit, qubits=n, layers=layers)
+            c, g = gradient_samples(
+                program, cost, samples=samples, seed=seed, memory_budget=memory_budget,
+                progress=progress, stage=f"gradients n={n} L={layers}",
+            )
+            target.append(summarize_gradients(n, layers, c, g))
+    fits = fit_decay(points)
+    bp, reason = verdict(points, fits)
+    return Trainability(
+        cost=cost,
+        samples=samples,
+        layers_rule=rule,
+        points=points,
+        fit=fits,
+        barren_plateau=bp,
+        reason=reason,
+        layer_points=layer_points,
+    )
