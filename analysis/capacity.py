@@ -101,7 +101,7 @@ class Capacity:
         return asdict(self)
 
 
-def _rank(f: NDArray[np.float64], tol: float) -> tuple[int, NDArray[np.float64]]:
+def _rank(f: NDArray[np.float64], tol: float) -> tuple[int, NDArray[np.floating]]:
     eig = np.linalg.eigvalsh((f + f.T) / 2)[::-1]
     top = eig[0] if eig.size else 0.0
     if top <= 0:

@@ -138,7 +138,9 @@ def _apply_2x2(s0: NDArray, s1: NDArray, m: NDArray, diagonal: bool) -> None:
     s0[...] = t
 
 
-def step_matrix(step: PlanStep, angles: NDArray | None, dtype: type, *, adjoint: bool = False) -> NDArray:
+def step_matrix(
+    step: PlanStep, angles: NDArray | None, dtype: type, *, adjoint: bool = False
+) -> NDArray:
     """Matrix of one plan step: fixed ``(d, d)`` or batched ``(B, d, d)``.
 
     For controlled gates this is the one-qubit matrix acting on the target.
@@ -273,9 +275,7 @@ def run(
     plan = program if isinstance(program, Plan) else compile_program(program)
     thetas = np.asarray(thetas, dtype=float)
     if thetas.ndim != 2 or thetas.shape[1] != plan.parameters:
-        raise ValueError(
-            f"thetas must have shape (B, {plan.parameters}), got {thetas.shape}"
-        )
+        raise ValueError(f"thetas must have shape (B, {plan.parameters}), got {thetas.shape}")
     n = plan.qubits
     if states is None:
         states = zero_states(thetas.shape[0], n, dtype)

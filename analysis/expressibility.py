@@ -146,8 +146,11 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
         hi = min(pairs, int(np.ceil(mean + 12 * sd + 12)))
         k = np.arange(lo, hi + 1, dtype=float)
         pmf = np.exp(
-            special.gammaln(m + 1) - special.gammaln(k + 1) - special.gammaln(m - k + 1)
-            + k * lqj + (m - k) * np.log1p(-qj)
+            special.gammaln(m + 1)
+            - special.gammaln(k + 1)
+            - special.gammaln(m - k + 1)
+            + k * lqj
+            + (m - k) * np.log1p(-qj)
         )
         x = k / m
         total += float(np.sum(pmf * x * np.log(x))) - qj * lqj

@@ -101,9 +101,7 @@ def adjoint_gradients(
     return costs, grads
 
 
-def _run_shifted(
-    plan: Plan, thetas: NDArray[np.float64], index: int, delta: float
-) -> NDArray:
+def _run_shifted(plan: Plan, thetas: NDArray[np.float64], index: int, delta: float) -> NDArray:
     """Run the plan with step ``index``'s angle shifted by ``delta``."""
     states = np.zeros((thetas.shape[0], 1 << plan.qubits), dtype=complex)
     states[:, 0] = 1.0

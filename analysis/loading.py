@@ -64,8 +64,12 @@ def _construct_int(loader: _Loader, node: yaml.ScalarNode) -> int:
 
 def _construct_float(loader: _Loader, node: yaml.ScalarNode) -> float:
     text = str(loader.construct_scalar(node))
-    special = {".inf": float("inf"), "+.inf": float("inf"), "-.inf": float("-inf"),
-               ".nan": float("nan")}
+    special = {
+        ".inf": float("inf"),
+        "+.inf": float("inf"),
+        "-.inf": float("-inf"),
+        ".nan": float("nan"),
+    }
     if text.lower() in special:
         return special[text.lower()]
     if re.fullmatch(r"[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?", text):
@@ -80,8 +84,10 @@ def _construct_mapping(loader: _Loader, node: yaml.MappingNode, deep: bool = Fal
     for key_node, _ in node.value:
         key = loader.construct_object(key_node, deep=True)
         if not isinstance(key, str):
-            raise _yaml_fail(key_node, f"key {_describe(key)} is not a string; keys are "
-                             "names such as 'qubits' or 'gate'")
+            raise _yaml_fail(
+                key_node,
+                f"key {_describe(key)} is not a string; keys are names such as 'qubits' or 'gate'",
+            )
         if key in seen:
             raise _yaml_fail(key_node, f"duplicate key {key!r}")
         seen.add(key)
@@ -184,8 +190,12 @@ def parse_circuit_text(
     size = len(text) if isinstance(text, bytes) else _utf8_length(text)
     if size > MAX_DESCRIPTION_BYTES:
         raise CircuitError(
-            [Problem("(root)", f"description is {size} bytes; the limit is "
-                     f"{MAX_DESCRIPTION_BYTES} bytes")],
+            [
+                Problem(
+                    "(root)",
+                    f"description is {size} bytes; the limit is {MAX_DESCRIPTION_BYTES} bytes",
+                )
+            ],
             source=source,
         )
     if isinstance(text, bytes):
@@ -228,8 +238,9 @@ def load_circuit(path: str | Path) -> Circuit:
         raise CircuitError([Problem("(root)", "permission denied")], source=source) from None
     except (OSError, ValueError) as exc:  # name too long, bad characters, I/O errors
         why = getattr(exc, "strerror", None) or str(exc)
-        raise CircuitError([Problem("(root)", f"cannot read the file: {why}")],
-                           source=source) from None
+        raise CircuitError(
+            [Problem("(root)", f"cannot read the file: {why}")], source=source
+        ) from None
     if len(raw) > MAX_DESCRIPTION_BYTES:
         raise CircuitError(
             [Problem("(root)", f"file is larger than the limit of {MAX_DESCRIPTION_BYTES} bytes")],

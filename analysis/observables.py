@@ -78,32 +78,61 @@ def validate_cost(cost: Any, *, path: str = "cost") -> str | tuple[tuple[float, 
     """
     if isinstance(cost, str):
         if cost not in NAMED_COSTS:
-            raise OptionError([Problem(path, f"got {cost!r}; expected one of "
-                                       f"{', '.join(NAMED_COSTS)} or a Pauli sum "
-                                       "[[coefficient, \"ZZI…\"], …]")])
+            raise OptionError(
+                [
+                    Problem(
+                        path,
+                        f"got {cost!r}; expected one of "
+                        f"{', '.join(NAMED_COSTS)} or a Pauli sum "
+                        '[[coefficient, "ZZI…"], …]',
+                    )
+                ]
+            )
         return cost
     if not isinstance(cost, list | tuple) or not cost:
-        raise OptionError([Problem(path, "expected a named cost or a non-empty list of "
-                                   f"[coefficient, pauli-string] terms, got {cost!r}")])
+        raise OptionError(
+            [
+                Problem(
+                    path,
+                    "expected a named cost or a non-empty list of "
+                    f"[coefficient, pauli-string] terms, got {cost!r}",
+                )
+            ]
+        )
     terms = []
     length = None
     for i, term in enumerate(cost):
         where = f"{path}[{i}]"
         if not isinstance(term, list | tuple) or len(term) != 2:
-            raise OptionError([Problem(where, f"expected [coefficient, pauli-string], got "
-                                       f"{term!r}")])
+            raise OptionError(
+                [Problem(where, f"expected [coefficient, pauli-string], got {term!r}")]
+            )
         coef, paulis = term
         if isinstance(coef, bool) or not isinstance(coef, int | float) or not math.isfinite(coef):
-            raise OptionError([Problem(f"{where}[0]", f"expected a finite real coefficient, "
-                                       f"got {coef!r}")])
+            raise OptionError(
+                [Problem(f"{where}[0]", f"expected a finite real coefficient, got {coef!r}")]
+            )
         if not isinstance(paulis, str) or not paulis or set(paulis) - set("IXYZ"):
-            raise OptionError([Problem(f"{where}[1]", "expected a string of the letters I, X, "
-                                       f"Y, Z (one per qubit, qubit 0 first), got {paulis!r}")])
+            raise OptionError(
+                [
+                    Problem(
+                        f"{where}[1]",
+                        "expected a string of the letters I, X, "
+                        f"Y, Z (one per qubit, qubit 0 first), got {paulis!r}",
+                    )
+                ]
+            )
         if length is None:
             length = len(paulis)
         elif len(paulis) != length:
-            raise OptionError([Problem(f"{where}[1]", f"{paulis!r} has {len(paulis)} letters; "
-                                       f"the first term has {length}")])
+            raise OptionError(
+                [
+                    Problem(
+                        f"{where}[1]",
+                        f"{paulis!r} has {len(paulis)} letters; the first term has {length}",
+                    )
+                ]
+            )
         terms.append((float(coef), paulis))
     return tuple(terms)
 
@@ -126,18 +155,25 @@ def make_observable(cost: Any, qubits: int) -> Observable:
         d[0] = 0.0
         return Observable("global", n, d)
     if spec == "local":
-        return Observable("local", n, _bit_counts(n) / n)
+        return Observable("local", n, (_bit_counts(n) / n).astype(np.float64))
     if spec == "zz":
         if n < 2:
             raise OptionError([Problem("cost", f"'zz' needs at least 2 qubits; got {n}")])
         idx = np.arange(1 << n)
         b0 = (idx >> (n - 1)) & 1
         b1 = (idx >> (n - 2)) & 1
-        return Observable("zz", n, 1.0 - 2.0 * (b0 ^ b1))
+        return Observable("zz", n, (1.0 - 2.0 * (b0 ^ b1)).astype(np.float64))
     assert isinstance(spec, tuple)
     if len(spec[0][1]) != n:
-        raise OptionError([Problem("cost", f"the Pauli sum acts on {len(spec[0][1])} qubits; "
-                                   f"the circuit has {n} (a Pauli sum does not scale with n)")])
+        raise OptionError(
+            [
+                Problem(
+                    "cost",
+                    f"the Pauli sum acts on {len(spec[0][1])} qubits; "
+                    f"the circuit has {n} (a Pauli sum does not scale with n)",
+                )
+            ]
+        )
     label = " + ".join(f"{c:g}*{p}" for c, p in spec)
     if all(set(p) <= {"I", "Z"} for _, p in spec):
         idx = np.arange(1 << n)

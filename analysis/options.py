@@ -2,23 +2,58 @@
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, ValidationError, field_validator
+from pydantic.json_schema import WithJsonSchema
 
-from .circuit import MAX_LAYERS, _describe
+from .circuit import MAX_LAYERS, MAX_QUBITS, _describe
 from .errors import OptionError, Problem, format_path
+from .observables import NAMED_COSTS, validate_cost
 from .sampling import MAX_SEED
 
-__all__ = ["DEFAULT_SEED", "METRICS", "AnalysisOptions", "parse_options"]
+__all__ = [
+    "DEFAULT_METRICS",
+    "DEFAULT_SCAN",
+    "DEFAULT_SEED",
+    "METRICS",
+    "AnalysisOptions",
+    "parse_options",
+]
 
-METRICS = ("expressibility", "entanglement")
+Metric = Literal["expressibility", "entanglement", "trainability", "capacity"]
+
+METRICS = ("expressibility", "entanglement", "trainability", "capacity")
 """Metrics available in this version, in report order."""
+
+DEFAULT_METRICS: tuple[Metric, ...] = ("expressibility", "entanglement")
+"""Metrics computed when none are named (the sampled scans cost more; ask for them)."""
 
 DEFAULT_SEED = 1
 """Seed used when none is given, so that a plain run is reproducible."""
 
-Metric = Literal["expressibility", "entanglement"]
+DEFAULT_SCAN = (2, 4, 6, 8)
+"""Qubit counts of the trainability scan when none are given (pattern-only circuits)."""
+
+
+_COST_SCHEMA: dict[str, Any] = {
+    "description": "Cost for the trainability scan: a named cost or a Pauli sum "
+    "[[coefficient, 'ZZI...'], ...] with one letter per qubit (qubit 0 first).",
+    "anyOf": [
+        {"type": "string", "enum": list(NAMED_COSTS)},
+        {
+            "type": "array",
+            "minItems": 1,
+            "items": {
+                "type": "array",
+                "prefixItems": [{"type": "number"}, {"type": "string", "pattern": "^[IXYZ]+$"}],
+                "minItems": 2,
+                "maxItems": 2,
+            },
+        },
+    ],
+    "default": "global",
+}
 
 
 class AnalysisOptions(BaseModel):
@@ -26,7 +61,7 @@ class AnalysisOptions(BaseModel):
 
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
 
-    metrics: list[Metric] = Field(default_factory=lambda: list(METRICS), min_length=1)
+    metrics: list[Metric] = Field(default_factory=lambda: list(DEFAULT_METRICS), min_length=1)
     pairs: StrictInt = Field(default=5000, ge=2, le=10_000_000, description="Fidelity pairs.")
     bins: StrictInt = Field(default=75, ge=2, le=100_000, description="Fidelity histogram bins.")
     samples: StrictInt = Field(
@@ -38,11 +73,63 @@ class AnalysisOptions(BaseModel):
         max_length=100,
         description="Layer counts at which to repeat the metrics (the 'sweep' rows).",
     )
+    cost: Annotated[Any, WithJsonSchema(_COST_SCHEMA)] = "global"
+    scan: list[StrictInt] | None = Field(
+        default=None,
+        min_length=1,
+        max_length=30,
+        description="Qubit counts of the gradient-variance scan (default 2,4,6,8 for circuits "
+        "written with placement patterns, else the circuit's own count).",
+    )
+    scan_layers: StrictInt | Literal["n"] | None = Field(
+        default=None,
+        description="Layers at each scan point: as described (null), a count, or 'n'.",
+    )
+    depth_scan: list[StrictInt] | None = Field(
+        default=None,
+        min_length=1,
+        max_length=50,
+        description="Layer counts of a variance-against-depth scan at the circuit's qubit count.",
+    )
+    grad_samples: StrictInt = Field(
+        default=200, ge=2, le=1_000_000, description="Parameter vectors per scan point."
+    )
+    capacity_points: StrictInt = Field(
+        default=4, ge=1, le=1000, description="Random points behind the QFI rank."
+    )
 
     @field_validator("metrics")
     @classmethod
     def _ordered_unique(cls, value: list[str]) -> list[str]:
         return [m for m in METRICS if m in value]
+
+    @field_validator("cost")
+    @classmethod
+    def _cost(cls, value: Any) -> Any:
+        spec = validate_cost(value)
+        return spec if isinstance(spec, str) else [list(t) for t in spec]
+
+    @field_validator("scan")
+    @classmethod
+    def _qubit_counts(cls, value: list[int] | None) -> list[int] | None:
+        if value is None:
+            return None
+        for v in value:
+            if not 1 <= v <= MAX_QUBITS:
+                raise ValueError(f"qubit count {v} is out of range 1..{MAX_QUBITS}")
+        return sorted(set(value))
+
+    @field_validator("scan_layers")
+    @classmethod
+    def _scan_layers(cls, value: int | str | None) -> int | str | None:
+        if isinstance(value, int) and not 1 <= value <= MAX_LAYERS:
+            raise ValueError(f"got {value}; expected 'n' or a layer count in 1..{MAX_LAYERS}")
+        return value
+
+    @field_validator("depth_scan")
+    @classmethod
+    def _depths(cls, value: list[int] | None) -> list[int] | None:
+        return cls._layer_counts(value)
 
     @field_validator("layers_sweep")
     @classmethod
@@ -60,6 +147,8 @@ _RANGES = {
     "bins": "2..100000",
     "samples": "2..10000000",
     "seed": f"0..{MAX_SEED}",
+    "grad_samples": "2..1000000",
+    "capacity_points": "1..1000",
 }
 
 
@@ -81,6 +170,8 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
     analysis.errors.OptionError: --bins: got 1; allowed range is 2..100000
     """
     names = names or {}
+    if isinstance(data, dict) and "cost" in data:
+        validate_cost(data["cost"], path=names.get("cost", "cost"))
     try:
         return AnalysisOptions.model_validate(data)
     except ValidationError as exc:
@@ -93,8 +184,10 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
             kind = err["type"]
             if kind in ("greater_than_equal", "less_than_equal") and field in _RANGES:
                 msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
-            elif kind == "literal_error":
+            elif kind == "literal_error" and field == "metrics":
                 msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
+            elif field == "scan_layers" and kind in ("literal_error", "int_type"):
+                msg = f"got {_describe(value)}; expected 'n' or a layer count"
             elif kind == "too_long":
                 msg = (
                     f"got {err['ctx'].get('actual_length')} values; at most "
@@ -110,5 +203,7 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
                 msg = str(err["ctx"]["error"])
             else:
                 msg = f"{err['msg']} (got {_describe(value)})"
-            problems.append(Problem(path, msg))
+            problem = Problem(path, msg)
+            if problem not in problems:  # a union reports once per member
+                problems.append(problem)
         raise OptionError(problems) from exc

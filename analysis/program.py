@@ -134,22 +134,43 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
     rng = f"for {n} qubit{'s' if n != 1 else ''} (0..{n - 1})"
     if spec.qubits == 1:
         if step.reverse:
-            raise CircuitError([Problem(f"{path}.reverse", "applies only to two-qubit "
-                                        f"placement patterns; {step.gate!r} is a one-qubit gate")])
+            raise CircuitError(
+                [
+                    Problem(
+                        f"{path}.reverse",
+                        "applies only to two-qubit "
+                        f"placement patterns; {step.gate!r} is a one-qubit gate",
+                    )
+                ]
+            )
         if on == "all":
             return [(q,) for q in range(n)]
         if isinstance(on, str):
-            raise CircuitError([Problem(where, f"got {_show(on)}; the one-qubit gate {step.gate!r} "
-                                        "takes 'all' or a list of qubit indices")])
+            raise CircuitError(
+                [
+                    Problem(
+                        where,
+                        f"got {_show(on)}; the one-qubit gate {step.gate!r} "
+                        "takes 'all' or a list of qubit indices",
+                    )
+                ]
+            )
         if not isinstance(on, list) or not on:
-            raise CircuitError([Problem(where, f"expected 'all' or a non-empty list of qubit "
-                                        f"indices, got {_show(on)}")])
+            raise CircuitError(
+                [
+                    Problem(
+                        where,
+                        f"expected 'all' or a non-empty list of qubit indices, got {_show(on)}",
+                    )
+                ]
+            )
         seen: set[int] = set()
         out: list[tuple[int, ...]] = []
         for i, q in enumerate(on):
             if not _is_int(q):
-                raise CircuitError([Problem(f"{where}[{i}]", f"expected a qubit index (integer),"
-                                            f" got {_show(q)}")])
+                raise CircuitError(
+                    [Problem(f"{where}[{i}]", f"expected a qubit index (integer), got {_show(q)}")]
+                )
             if not 0 <= q < n:
                 raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is out of range {rng}")])
             if q in seen:
@@ -165,37 +186,78 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
             got = f"got {_show(on)}"
             if "on" not in step.model_fields_set:
                 got = f"'on' is missing, so it defaults to {on!r}"
-            raise CircuitError([Problem(where, f"{got}; the two-qubit gate {step.gate!r} "
-                                        f"takes one of {patterns} or a list of pairs{hint}")])
+            raise CircuitError(
+                [
+                    Problem(
+                        where,
+                        f"{got}; the two-qubit gate {step.gate!r} "
+                        f"takes one of {patterns} or a list of pairs{hint}",
+                    )
+                ]
+            )
         if n < 2:
-            raise CircuitError([Problem(where, f"pattern {on!r} needs at least 2 qubits; the "
-                                        f"circuit has {n}")])
+            raise CircuitError(
+                [Problem(where, f"pattern {on!r} needs at least 2 qubits; the circuit has {n}")]
+            )
         pairs = placement(on, n)
         if step.reverse:
             pairs = [(b, a) for a, b in reversed(pairs)]
         return list(pairs)
     if step.reverse:
-        raise CircuitError([Problem(f"{path}.reverse", "applies only to a placement pattern, "
-                                    "not to an explicit list of pairs")])
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.reverse",
+                    "applies only to a placement pattern, not to an explicit list of pairs",
+                )
+            ]
+        )
     if not isinstance(on, list) or not on:
-        raise CircuitError([Problem(where, f"expected one of {patterns} or a non-empty list of "
-                                    f"[first, second] pairs, got {_show(on)}")])
+        raise CircuitError(
+            [
+                Problem(
+                    where,
+                    f"expected one of {patterns} or a non-empty list of "
+                    f"[first, second] pairs, got {_show(on)}",
+                )
+            ]
+        )
     out = []
     for i, pair in enumerate(on):
         if not isinstance(pair, list) or len(pair) != 2:
-            raise CircuitError([Problem(f"{where}[{i}]", "expected a pair [first, second] of "
-                                        f"qubit indices, got {_show(pair)}")])
+            raise CircuitError(
+                [
+                    Problem(
+                        f"{where}[{i}]",
+                        f"expected a pair [first, second] of qubit indices, got {_show(pair)}",
+                    )
+                ]
+            )
         for j, q in enumerate(pair):
             if not _is_int(q):
-                raise CircuitError([Problem(f"{where}[{i}][{j}]", "expected a qubit index "
-                                            f"(integer), got {_show(q)}")])
+                raise CircuitError(
+                    [
+                        Problem(
+                            f"{where}[{i}][{j}]",
+                            f"expected a qubit index (integer), got {_show(q)}",
+                        )
+                    ]
+                )
             if not 0 <= q < n:
-                raise CircuitError([Problem(f"{where}[{i}][{j}]", f"qubit {q} is out of range "
-                                            f"{rng}")])
+                raise CircuitError(
+                    [Problem(f"{where}[{i}][{j}]", f"qubit {q} is out of range {rng}")]
+                )
         if pair[0] == pair[1]:
-            raise CircuitError([Problem(f"{where}[{i}]", f"pair {_show(pair)} uses qubit "
-                                        f"{pair[0]} twice; a two-qubit gate needs two "
-                                        "different qubits")])
+            raise CircuitError(
+                [
+                    Problem(
+                        f"{where}[{i}]",
+                        f"pair {_show(pair)} uses qubit "
+                        f"{pair[0]} twice; a two-qubit gate needs two "
+                        "different qubits",
+                    )
+                ]
+            )
         out.append((pair[0], pair[1]))
     return out
 
@@ -209,16 +271,36 @@ def _check_step(step: Step, path: str, section: str) -> None:
     if not spec.takes_angle:
         for key in ("angle", "share"):
             if getattr(step, key) is not None:
-                raise CircuitError([Problem(f"{path}.{key}", f"the gate {step.gate!r} has no "
-                                            "angle; only rx ry rz crx cry crz rxx ryy rzz take "
-                                            f"'{key}'")])
+                raise CircuitError(
+                    [
+                        Problem(
+                            f"{path}.{key}",
+                            f"the gate {step.gate!r} has no "
+                            "angle; only rx ry rz crx cry crz rxx ryy rzz take "
+                            f"'{key}'",
+                        )
+                    ]
+                )
     if step.angle is not None and step.share is not None:
-        raise CircuitError([Problem(f"{path}.share", "a fixed 'angle' has no parameter to share;"
-                                    " give either 'angle' or 'share'")])
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.share",
+                    "a fixed 'angle' has no parameter to share; give either 'angle' or 'share'",
+                )
+            ]
+        )
     if step.share == "layers" and section != "layer":
-        raise CircuitError([Problem(f"{path}.share", f"'layers' shares a parameter across "
-                                    f"repetitions of 'layer'; {section!r} runs once (use "
-                                    "'step' or leave it out)")])
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.share",
+                    f"'layers' shares a parameter across "
+                    f"repetitions of 'layer'; {section!r} runs once (use "
+                    "'step' or leave it out)",
+                )
+            ]
+        )
 
 
 def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = None) -> Program:
@@ -252,11 +334,11 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     n = circuit.qubits if qubits is None else qubits
     reps = circuit.layers if layers is None else layers
     if not (_is_int(n) and 1 <= n <= MAX_QUBITS):
-        raise CircuitError([Problem("qubits", f"got {_show(n)}; allowed range is "
-                                    f"1..{MAX_QUBITS}")])
+        raise CircuitError([Problem("qubits", f"got {_show(n)}; allowed range is 1..{MAX_QUBITS}")])
     if not (_is_int(reps) and 1 <= reps <= MAX_LAYERS):
-        raise CircuitError([Problem("layers", f"got {_show(reps)}; allowed range is "
-                                    f"1..{MAX_LAYERS}")])
+        raise CircuitError(
+            [Problem("layers", f"got {_show(reps)}; allowed range is 1..{MAX_LAYERS}")]
+        )
     sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
     targets: dict[str, list[tuple[int, ...]]] = {}
     for section, steps in sections:
@@ -271,11 +353,25 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
         + sum(len(targets[f"finish[{i}]"]) for i in range(len(circuit.finish)))
     )
     if total == 0:
-        raise CircuitError([Problem("layer", "the circuit has no gates: give at least one step "
-                                    "in 'prepare', 'layer' or 'finish' that places a gate")])
+        raise CircuitError(
+            [
+                Problem(
+                    "layer",
+                    "the circuit has no gates: give at least one step "
+                    "in 'prepare', 'layer' or 'finish' that places a gate",
+                )
+            ]
+        )
     if total > MAX_OPERATIONS:
-        raise CircuitError([Problem("layers", f"the circuit expands to {total} gate applications;"
-                                    f" the limit is {MAX_OPERATIONS}")])
+        raise CircuitError(
+            [
+                Problem(
+                    "layers",
+                    f"the circuit expands to {total} gate applications;"
+                    f" the limit is {MAX_OPERATIONS}",
+                )
+            ]
+        )
 
     ops: list[Operation] = []
     owners: list[str] = []

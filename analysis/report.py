@@ -16,12 +16,14 @@ import numpy as np
 
 from ._batching import Progress
 from ._version import __version__
+from .capacity import capacity
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET
 from .entanglement import Entanglement, entangling_capability
 from .expressibility import Expressibility, expressibility
-from .options import AnalysisOptions
+from .options import DEFAULT_SCAN, AnalysisOptions
 from .program import Program, expand, facts
+from .trainability import trainability, uses_only_patterns
 
 __all__ = ["REPORT_FORMAT", "analyze", "cautions"]
 
@@ -84,6 +86,26 @@ def cautions(report: dict[str, Any]) -> list[str]:
                 f"{k} bins for {m} pairs leaves fewer than 5 pairs per bin on average; the KL "
                 "mostly measures noise. Use fewer bins or more pairs."
             )
+    tr = report.get("trainability")
+    if tr:
+        if tr["barren_plateau"] is None:
+            out.append(f"Trainability: {tr['reason']}.")
+        for p in tr["points"] + tr["layer_points"]:
+            if p["top_sample_share"] > 0.1:
+                out.append(
+                    f"At {p['qubits']} qubits and {p['layers']} layers one of {p['samples']} "
+                    f"gradient samples carries {p['top_sample_share']:.0%} of the variance "
+                    "estimate: the squared gradients are heavy-tailed and the interval is "
+                    "likely too narrow. Raise --grad-samples."
+                )
+        if tr.get("scan_note"):
+            out.append(tr["scan_note"])
+    cap = report.get("capacity")
+    if cap and cap["points"] < 3:
+        out.append(
+            f"The QFI rank comes from {cap['points']} random point(s); special parameter "
+            "values lower the rank, so use at least 3 points."
+        )
     ent = report.get("entanglement")
     if ent:
         if circuit["qubits"] == 1:
@@ -125,6 +147,41 @@ def analyze(
     timings: dict[str, float] = {}
     program = expand(circuit)
     expr, ent = _metrics(program, options, memory_budget, progress, timings)
+    train = None
+    if "trainability" in options.metrics:
+        t = time.perf_counter()
+        scan, note = options.scan, None
+        if scan is None:
+            if not isinstance(options.cost, str):
+                scan = [circuit.qubits]  # a Pauli sum is fixed to its qubit count
+            elif uses_only_patterns(circuit):
+                scan = list(DEFAULT_SCAN)
+            else:
+                scan = [circuit.qubits]
+                note = (
+                    "The trainability scan ran at the circuit's own qubit count only: the "
+                    "description lists explicit qubits, so it does not exist at other counts. "
+                    "Write it with placement patterns to scan it."
+                )
+        result = trainability(
+            circuit,
+            cost=options.cost,
+            scan=scan,
+            scan_layers=options.scan_layers,
+            layer_scan=options.depth_scan,
+            samples=options.grad_samples,
+            seed=options.seed,
+            memory_budget=memory_budget,
+            progress=progress,
+        )
+        train = result.to_dict()
+        train["scan_note"] = note
+        timings["trainability"] = time.perf_counter() - t
+    cap = None
+    if "capacity" in options.metrics:
+        t = time.perf_counter()
+        cap = capacity(program, points=options.capacity_points, seed=options.seed).to_dict()
+        timings["capacity"] = time.perf_counter() - t
     sweep = None
     if options.layers_sweep:
         t = time.perf_counter()
@@ -140,8 +197,12 @@ def analyze(
                 "depth": f["depth"],
             }
             if e is not None:
-                row.update(kl=e.kl, kl_interval=list(e.interval), bias=e.bias,
-                           second_moment=e.second_moment)
+                row.update(
+                    kl=e.kl,
+                    kl_interval=list(e.interval),
+                    bias=e.bias,
+                    second_moment=e.second_moment,
+                )
             if m is not None:
                 row.update(meyer_wallach=m.meyer_wallach, meyer_wallach_interval=list(m.interval))
             sweep.append(row)
@@ -153,8 +214,8 @@ def analyze(
         "options": {**options.model_dump(), "precision": "double"},
         "expressibility": expr.to_dict() if expr else None,
         "entanglement": ent.to_dict() if ent else None,
-        "trainability": None,
-        "capacity": None,
+        "trainability": train,
+        "capacity": cap,
         "sweep": sweep,
     }
     report["cautions"] = cautions(report)

@@ -10,9 +10,14 @@ __all__ = ["to_markdown", "to_text"]
 def _headline(report: dict[str, Any]) -> str:
     c = report["circuit"]
     return (
-        f"{c['name']}: {c['qubits']} qubits, {c['layers']} layers, {c['parameters']} parameters, "
+        f"{c['name']}: {_count(c['qubits'], 'qubit')}, {_count(c['layers'], 'layer')}, "
+        f"{_count(c['parameters'], 'parameter')}, "
         f"{c['gates']} gates ({c['two_qubit_gates']} two-qubit), depth {c['depth']}"
     )
+
+
+def _count(k: int, word: str) -> str:
+    return f"{k} {word}" + ("" if k == 1 else "s")
 
 
 def _iv(pair: list[float], digits: int = 4) -> str:
@@ -43,6 +48,55 @@ def to_text(report: dict[str, Any]) -> str:
             f"  {m['samples']} samples",
             "",
         ]
+    t = report.get("trainability")
+    if t:
+        cost = t["cost"] if isinstance(t["cost"], str) else "Pauli sum"
+        lines.append(
+            f"Trainability (variance of dC/dtheta, {cost} cost, {t['samples']} samples per point,"
+            f" {t['layers_rule']})"
+        )
+        lines.append(
+            f"  {'qubits':>6} {'layers':>6} {'params':>6} {'variance':>10} "
+            f"{'95% interval':>23} {'smallest':>10} {'largest':>10}"
+        )
+        rows = [("", p) for p in t["points"]]
+        if t["layer_points"]:
+            rows.append(("  depth scan", None))
+            rows += [("", p) for p in t["layer_points"]]
+        for label, p in rows:
+            if p is None:
+                lines.append(label)
+                continue
+            lines.append(
+                f"  {p['qubits']:>6} {p['layers']:>6} {p['parameters']:>6} {p['variance']:>10.3e}"
+                f" {p['interval'][0]:>10.3e} .. {p['interval'][1]:>9.3e} {p['smallest']:>10.3e}"
+                f" {p['largest']:>10.3e}"
+            )
+        if t["fit"]:
+            e, pw = t["fit"]["exponential"], t["fit"]["power"]
+            lines.append(
+                f"  fits: exponential decay {-e['slope']:.3g} ± {e['slope_stderr']:.2g} nats/qubit "
+                f"(AIC {e['aic']:.3g}); power law exponent {pw['slope']:.3g} ± "
+                f"{pw['slope_stderr']:.2g} (AIC {pw['aic']:.3g})"
+            )
+        lines.append(f"  verdict: {t['reason']}")
+        lines.append("")
+    c = report.get("capacity")
+    if c:
+        lines += [
+            "Capacity (rank of the quantum Fisher information)",
+            f"  rank {c['qfi_rank']} of {c['parameters']} parameters, {c['redundant']} redundant;"
+            f" pure-state ceiling 2^(n+1)-2 = {c['max_rank']} (largest over {c['points']} "
+            f"points, eigenvalues below {c['tolerance']:g} x largest count as zero)",
+        ]
+        if c["redundant_parameters"]:
+            shown = ", ".join(
+                f"{r['parameter']} ({r['step']}, {r['kind']})"
+                for r in c["redundant_parameters"][:8]
+            )
+            more = len(c["redundant_parameters"]) - 8
+            lines.append(f"  redundant: {shown}" + (f" and {more} more" if more > 0 else ""))
+        lines.append("")
     sweep = report.get("sweep")
     if sweep:
         lines.append("Layer sweep")
@@ -95,8 +149,30 @@ def to_markdown(report: dict[str, Any]) -> str:
             f"| Meyer-Wallach | {m['meyer_wallach']:.4f} | {_iv(m['interval'])} | "
             f"{m['haar_meyer_wallach']:.4f} |"
         )
+    t = report.get("trainability")
+    if t:
+        last = t["points"][-1]
+        cost = t["cost"] if isinstance(t["cost"], str) else "Pauli sum"
+        rows.append(
+            f"| Gradient variance at n = {last['qubits']} ({cost} cost) | "
+            f"{last['variance']:.3e} | {last['interval'][0]:.3e} .. {last['interval'][1]:.3e} | |"
+        )
+        if t["fit"]:
+            e = t["fit"]["exponential"]
+            lo, hi = -e["slope"] - 1.96 * e["slope_stderr"], -e["slope"] + 1.96 * e["slope_stderr"]
+            rows.append(
+                f"| Variance decay per qubit (nats) | {-e['slope']:.3f} | {lo:.3f} .. {hi:.3f} | |"
+            )
+    c = report.get("capacity")
+    if c:
+        rows.append(
+            f"| QFI rank / parameters | {c['qfi_rank']} / {c['parameters']} | | ceiling "
+            f"{c['max_rank']} |"
+        )
     if rows:
         out += ["| metric | value | 95% interval | Haar |", "| --- | --- | --- | --- |", *rows, ""]
+    if t:
+        out += [f"**Trainability verdict:** {t['reason'][0].upper()}{t['reason'][1:]}.", ""]
     if report.get("cautions"):
         out.append("**Cautions**")
         out.append("")

@@ -42,6 +42,7 @@ __all__ = [
     "gradient_samples",
     "summarize_gradients",
     "trainability",
+    "uses_only_patterns",
     "verdict",
 ]
 
@@ -128,8 +129,14 @@ def summarize_gradients(
     """
     s, p = grads.shape
     if p == 0:
-        raise CircuitError([Problem("layer", "the circuit has no trainable parameters; "
-                                    "there are no gradients to analyze")])
+        raise CircuitError(
+            [
+                Problem(
+                    "layer",
+                    "the circuit has no trainable parameters; there are no gradients to analyze",
+                )
+            ]
+        )
     centred = grads - grads.mean(axis=0)
     per_param = (centred**2).sum(axis=0) / (s - 1)
     y = (centred**2).mean(axis=1)
@@ -292,6 +299,12 @@ class Trainability:
         }
 
 
+def uses_only_patterns(circuit: Circuit) -> bool:
+    """Whether every step places its gate by pattern, so the circuit exists at any n."""
+    steps = [*circuit.prepare, *circuit.layer, *circuit.finish]
+    return all(isinstance(step.on, str) for step in steps)
+
+
 def _layers_at(rule: int | str | None, n: int, circuit: Circuit) -> int:
     if rule is None:
         return circuit.layers
@@ -337,21 +350,48 @@ def trainability(
     """
     qubit_counts = sorted(set(scan or [circuit.qubits]))
     if not isinstance(cost, str) and qubit_counts != [circuit.qubits]:
-        raise OptionError([Problem("scan", "a Pauli-sum cost is fixed to its qubit count; "
-                                   "scan qubit counts only with a named cost (global, local, "
-                                   "zz)")])
-    rule = "as described" if scan_layers is None else (
-        "layers = n" if scan_layers == "n" else f"layers = {scan_layers}")
+        raise OptionError(
+            [
+                Problem(
+                    "scan",
+                    "a Pauli-sum cost is fixed to its qubit count; "
+                    "scan qubit counts only with a named cost (global, local, "
+                    "zz)",
+                )
+            ]
+        )
+    rule = (
+        "as described"
+        if scan_layers is None
+        else ("layers = n" if scan_layers == "n" else f"layers = {scan_layers}")
+    )
     work = [(n, _layers_at(scan_layers, n, circuit)) for n in qubit_counts]
     depth_work = [(circuit.qubits, L) for L in sorted(set(layer_scan or []))]
     points: list[VariancePoint] = []
     layer_points: list[VariancePoint] = []
     for target, todo in ((points, work), (layer_points, depth_work)):
         for n, layers in todo:
-            program = expand(circuit, qubits=n, layers=layers)
+            try:
+                program = expand(circuit, qubits=n, layers=layers)
+            except CircuitError as exc:
+                raise CircuitError(
+                    [
+                        Problem(
+                            p.path,
+                            f"at {n} qubits, {layers} layers (trainability scan): {p.message}",
+                        )
+                        for p in exc.problems
+                    ],
+                    source=exc.source,
+                ) from exc
             c, g = gradient_samples(
-                program, cost, samples=samples, seed=seed, memory_budget=memory_budget,
-                progress=progress, stage=f"gradients n={n} L={layers}",
+                program,
+                cost,
+                samples=samples,
+                seed=seed,
+                memory_budget=memory_budget,
+                progress=progress,
+                stage=f"gradients n={n} L={layers}",
             )
             target.append(summarize_gradients(n, layers, c, g))
     fits = fit_decay(points)

@@ -19,7 +19,7 @@ from analysis.references import REFERENCE_PREFIX
 
 from .progress import TerminalProgress
 
-__all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_size"]
+__all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_cost", "parse_size"]
 
 EXIT_OK = 0
 EXIT_POLICY = 1
@@ -32,7 +32,63 @@ _FLAG_NAMES = {
     "samples": "--samples",
     "seed": "--seed",
     "layers_sweep": "--layers-sweep",
+    "cost": "--cost",
+    "scan": "--scan",
+    "scan_layers": "--scan-layers",
+    "depth_scan": "--depth-scan",
+    "grad_samples": "--grad-samples",
+    "capacity_points": "--capacity-points",
 }
+
+_TERM = re.compile(r"\s*([+-])?\s*(?:((?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*\*?\s*)?([IXYZ]+)\s*")
+
+
+def parse_cost(text: str) -> str | list[list[Any]]:
+    """Parse ``--cost``: a named cost, a Pauli sum such as ``0.5*ZZII - XIII``, or JSON.
+
+    Examples
+    --------
+    >>> parse_cost("zz")
+    'zz'
+    >>> parse_cost("0.5*ZZI - XIX + 2e-1 YYY")
+    [[0.5, 'ZZI'], [-1.0, 'XIX'], [0.2, 'YYY']]
+    """
+    text = text.strip()
+    if text in analysis.NAMED_COSTS:
+        return text
+    if text.startswith("["):
+        try:
+            value = json.loads(text)
+        except json.JSONDecodeError as exc:
+            raise argparse.ArgumentTypeError(f"invalid JSON Pauli sum: {exc.msg}") from None
+        if not isinstance(value, list):
+            raise argparse.ArgumentTypeError("a JSON Pauli sum must be a list")
+        return value
+    terms: list[list[Any]] = []
+    pos = 0
+    while pos < len(text):
+        m = _TERM.match(text, pos)
+        if not m or (terms and not m.group(1)) or m.end() == pos:
+            raise argparse.ArgumentTypeError(
+                f"expected one of {', '.join(analysis.NAMED_COSTS)} or a Pauli sum such as "
+                f"'0.5*ZZII - XIII' (one letter I/X/Y/Z per qubit), got {text!r}"
+            )
+        sign = -1.0 if m.group(1) == "-" else 1.0
+        coef = float(m.group(2)) if m.group(2) else 1.0
+        terms.append([sign * coef, m.group(3)])
+        pos = m.end()
+    return terms
+
+
+def _scan_layers(text: str) -> int | str:
+    if text == "n":
+        return "n"
+    try:
+        return int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected 'n' (layers = qubit count) or a layer count, got {text!r}"
+        ) from None
 
 
 class UsageError(analysis.InputError):
@@ -112,7 +168,19 @@ def _emit(text: str) -> None:
 def _cmd_analyze(args: argparse.Namespace) -> int:
     circuit = load(args.file)
     raw: dict[str, Any] = {}
-    for field in ("metrics", "pairs", "bins", "samples", "seed"):
+    for field in (
+        "metrics",
+        "pairs",
+        "bins",
+        "samples",
+        "seed",
+        "cost",
+        "scan",
+        "scan_layers",
+        "depth_scan",
+        "grad_samples",
+        "capacity_points",
+    ):
         value = getattr(args, field)
         if value is not None:
             raw[field] = value
@@ -227,7 +295,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument(
         "--metrics",
         type=_metric_list,
-        help=f"comma-separated subset of: {','.join(analysis.METRICS)} (default: all)",
+        help=f"comma-separated subset of: {','.join(analysis.METRICS)} "
+        f"(default: {','.join(analysis.options.DEFAULT_METRICS)})",
     )
     p.add_argument("--pairs", type=int, help="fidelity pairs for expressibility (default 5000)")
     p.add_argument("--bins", type=int, help="fidelity histogram bins (default 75)")
@@ -237,6 +306,38 @@ def build_parser() -> argparse.ArgumentParser:
         type=_int_list,
         metavar="L|L1,L2,...",
         help="repeat the metrics at these layer counts; a single number L means 1..L",
+    )
+    p.add_argument(
+        "--cost",
+        type=parse_cost,
+        help="trainability cost: global (default), local, zz, or a Pauli sum such as "
+        "'0.5*ZZII - XIII' (one letter per qubit, qubit 0 first)",
+    )
+    p.add_argument(
+        "--scan",
+        type=_int_list,
+        metavar="N1,N2,...",
+        help="qubit counts of the gradient-variance scan (default 2,4,6,8 for circuits "
+        "written with placement patterns)",
+    )
+    p.add_argument(
+        "--scan-layers",
+        type=_scan_layers,
+        metavar="N|n",
+        help="layers at every scan point: a count, or n for layers = qubit count "
+        "(default: as described)",
+    )
+    p.add_argument(
+        "--depth-scan",
+        type=_int_list,
+        metavar="L1,L2,...",
+        help="also scan the gradient variance over these layer counts at the circuit's size",
+    )
+    p.add_argument(
+        "--grad-samples", type=int, help="parameter vectors per scan point (default 200)"
+    )
+    p.add_argument(
+        "--capacity-points", type=int, help="random points behind the QFI rank (default 4)"
     )
     p.add_argument(
         "--seed", type=int, help=f"random seed (default {analysis.options.DEFAULT_SEED})"

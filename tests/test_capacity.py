@@ -18,8 +18,7 @@ def test_ry_product_has_rank_n(n):
 
 def test_rz_on_zero_state_is_redundant_and_named():
     # RZ applied first to |0> only adds a global phase: its parameter is inactive
-    p = expand(parse_circuit({"qubits": 2, "layer": [{"gate": "rz", "on": [0]},
-                                                     {"gate": "ry"}]}))
+    p = expand(parse_circuit({"qubits": 2, "layer": [{"gate": "rz", "on": [0]}, {"gate": "ry"}]}))
     c = capacity(p)
     assert c.qfi_rank == 2 and c.redundant == 1
     assert c.redundant_parameters == [{"parameter": 0, "step": "layer[0]", "kind": "inactive"}]
@@ -27,8 +26,15 @@ def test_rz_on_zero_state_is_redundant_and_named():
 
 def test_deep_three_qubit_circuit_reaches_the_ceiling():
     # 2^(n+1) - 2 = 14 for n = 3 (Haug, Bharti & Kim 2021)
-    p = expand(parse_circuit({"qubits": 3, "layers": 6, "layer": [
-        {"gate": "rx"}, {"gate": "rz"}, {"gate": "cz", "on": "ring"}]}))
+    p = expand(
+        parse_circuit(
+            {
+                "qubits": 3,
+                "layers": 6,
+                "layer": [{"gate": "rx"}, {"gate": "rz"}, {"gate": "cz", "on": "ring"}],
+            }
+        )
+    )
     c = capacity(p)
     assert c.qfi_rank == 14 == c.max_rank
     assert c.redundant == p.parameters - 14
@@ -44,9 +50,19 @@ def test_dependent_parameters_are_named():
 def test_jacobian_and_qfi_against_finite_differences():
     # F_ij = 4 Re[<d_i psi|d_j psi> - <d_i psi|psi><psi|d_j psi>] (Haug, Bharti & Kim 2021);
     # Jacobian by central differences of the engine's states (common practice)
-    p = expand(parse_circuit({"qubits": 3, "layers": 2, "layer": [
-        {"gate": "ry"}, {"gate": "crz", "on": "ring"}, {"gate": "rxx", "on": "chain",
-                                                          "share": "step"}]}))
+    p = expand(
+        parse_circuit(
+            {
+                "qubits": 3,
+                "layers": 2,
+                "layer": [
+                    {"gate": "ry"},
+                    {"gate": "crz", "on": "ring"},
+                    {"gate": "rxx", "on": "chain", "share": "step"},
+                ],
+            }
+        )
+    )
     rng = np.random.default_rng(4)
     theta = rng.uniform(0, 2 * np.pi, p.parameters)
     psi, jac = state_jacobian(p, theta)

@@ -396,3 +396,89 @@ def test_dash_as_a_real_process():
     proc = run_process("analyze", "-", *FAST, "--format", "json", stdin=json.dumps(TINY).encode())
     assert proc.returncode == 0, proc.stderr.decode()
     assert json.loads(proc.stdout)["report_format"] == 1
+
+
+# --- trainability and capacity flags ------------------------------------------------------
+
+TRAIN = ["--metrics", "trainability,capacity", "--grad-samples", "20", "--capacity-points", "2"]
+
+
+def test_trainability_and_capacity_in_json(capsys):
+    code, out, err = run(
+        capsys,
+        "analyze",
+        "ref:ry-cz-ring",
+        *TRAIN,
+        "--scan",
+        "2,3",
+        "--scan-layers",
+        "n",
+        "--cost",
+        "local",
+        "--depth-scan",
+        "1,2",
+        "--format",
+        "json",
+    )
+    assert code == 0, err
+    report = json.loads(out)
+    t = report["trainability"]
+    assert t["cost"] == "local" and t["layers_rule"] == "layers = n"
+    assert [(p["qubits"], p["layers"]) for p in t["points"]] == [(2, 2), (3, 3)]
+    assert [p["layers"] for p in t["layer_points"]] == [1, 2]
+    assert t["barren_plateau"] is None and "at least 4 counts" in t["reason"]
+    c = report["capacity"]
+    assert c["parameters"] == 12 and c["max_rank"] == 30 and c["points"] == 2
+    assert report["expressibility"] is None and report["entanglement"] is None
+    opts = report["options"]
+    assert opts["scan"] == [2, 3] and opts["scan_layers"] == "n" and opts["cost"] == "local"
+
+
+def test_pauli_sum_cost_flag(capsys):
+    code, out, err = run(
+        capsys,
+        "analyze",
+        "ref:ry-cz-ring",
+        *TRAIN,
+        "--scan",
+        "4",
+        "--cost",
+        "0.5*ZZII - XIIX",
+        "--format",
+        "json",
+    )
+    assert code == 0, err
+    assert json.loads(out)["trainability"]["cost"] == [[0.5, "ZZII"], [-1.0, "XIIX"]]
+
+
+@pytest.mark.parametrize(
+    "flags,words",
+    [
+        (["--cost", "ZZQ"], ["--cost", "Pauli sum"]),
+        (["--cost", "ZZ"], ["cost", "acts on 2 qubits", "has 4"]),
+        (["--cost", "ZZII", "--scan", "2,4"], ["scan", "fixed to its qubit count"]),
+        (["--scan", "0"], ["--scan", "out of range"]),
+        (["--scan-layers", "m"], ["--scan-layers", "'n'"]),
+        (["--grad-samples", "1"], ["--grad-samples", "2..1000000"]),
+        (["--capacity-points", "0"], ["--capacity-points", "1..1000"]),
+    ],
+)
+def test_bad_trainability_flags_exit_2(capsys, flags, words):
+    code, out, err = run(capsys, "analyze", "ref:ry-cz-ring", *TRAIN, *flags)
+    assert code == 2 and out == ""
+    assert "Traceback" not in err
+    for word in words:
+        assert word in err, (word, err)
+
+
+def test_scan_of_an_explicit_list_circuit_names_the_size(capsys):
+    code, out, err = run(capsys, "analyze", "ref:sim2019-11", *TRAIN, "--scan", "2,4")
+    assert code == 2
+    assert_one_error_line(err, "at 2 qubits", "out of range")
+
+
+def test_text_summary_mentions_the_verdict(capsys):
+    code, out, err = run(capsys, "analyze", "ref:rx-product", *TRAIN, "--scan", "2,3,4,6")
+    assert code == 0, err
+    assert "Trainability (variance of dC/dtheta, global cost" in out
+    assert "verdict:" in out and "Capacity (rank of the quantum Fisher information)" in out

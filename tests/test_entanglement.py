@@ -54,11 +54,13 @@ def test_graph_state_with_local_rotations_is_one_for_every_parameter(n):
     # H on all then a CZ chain prepares a graph state (no isolated vertex), whose one-qubit
     # reduced states are all maximally mixed (Hein, Eisert & Briegel, PRA 69, 062311, 2004);
     # one-qubit rotations afterwards do not change purities, so Q = 1 for every parameter.
-    p = program({
-        "qubits": n,
-        "prepare": [{"gate": "h"}, {"gate": "cz", "on": "chain"}],
-        "layer": [{"gate": "rx"}, {"gate": "rz"}, {"gate": "ry"}],
-    })
+    p = program(
+        {
+            "qubits": n,
+            "prepare": [{"gate": "h"}, {"gate": "cz", "on": "chain"}],
+            "layer": [{"gate": "rx"}, {"gate": "rz"}, {"gate": "ry"}],
+        }
+    )
     rng = np.random.default_rng(n)
     states = run(p, rng.uniform(0, 2 * np.pi, size=(50, p.parameters)))
     np.testing.assert_allclose(meyer_wallach(states, n), 1.0, atol=1e-12)
@@ -70,8 +72,13 @@ def test_purities_agree_with_qutip_ptrace():
         warnings.simplefilter("ignore")
         import qutip
     n = 4
-    p = program({"qubits": n, "layers": 2,
-                 "layer": [{"gate": "ry"}, {"gate": "rz"}, {"gate": "cx", "on": "ring"}]})
+    p = program(
+        {
+            "qubits": n,
+            "layers": 2,
+            "layer": [{"gate": "ry"}, {"gate": "rz"}, {"gate": "cx", "on": "ring"}],
+        }
+    )
     rng = np.random.default_rng(3)
     states = run(p, rng.uniform(0, 2 * np.pi, size=(6, p.parameters)))
     ours = qubit_purities(states, n)
@@ -95,8 +102,9 @@ def test_haar_random_states_reach_haar_value(n):
 
 
 def test_bounds_and_distribution():
-    p = program({"qubits": 3, "layers": 2,
-                 "layer": [{"gate": "ry"}, {"gate": "crx", "on": "ring"}]})
+    p = program(
+        {"qubits": 3, "layers": 2, "layer": [{"gate": "ry"}, {"gate": "crx", "on": "ring"}]}
+    )
     e = entangling_capability(p, samples=300)
     assert 0.0 <= e.interval[0] <= e.meyer_wallach <= e.interval[1] <= 1.0
     assert math.isclose(sum(e.distribution), 1.0)

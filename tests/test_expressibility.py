@@ -156,8 +156,9 @@ def test_real_amplitude_circuit_reaches_real_haar_law():
     # unit vectors in R^N ~ Beta(1/2, (N-1)/2) (textbook: Muirhead, Aspects of
     # Multivariate Statistical Theory, 1982, Thm 1.5.7).
     n, big_n = 4, 16
-    prog = program({"qubits": n, "layers": 8,
-                    "layer": [{"gate": "ry"}, {"gate": "cx", "on": "ring"}]})
+    prog = program(
+        {"qubits": n, "layers": 8, "layer": [{"gate": "ry"}, {"gate": "cx", "on": "ring"}]}
+    )
     p = np.diff(stats.beta.cdf(EDGES, 0.5, (big_n - 1) / 2))
     e = expressibility(prog, pairs=5000, bins=K, seed=5)
     assert e.interval[0] <= binned_kl(p, n) <= e.interval[1]

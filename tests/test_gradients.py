@@ -49,9 +49,15 @@ def test_every_parameterized_gate_is_differentiated():
 
 
 def test_shared_parameters_sum_their_occurrences():
-    desc = {"qubits": 3, "layers": 2, "layer": [
-        {"gate": "ry", "share": "layers"}, {"gate": "crx", "on": "ring", "share": "step"},
-        {"gate": "rz", "angle": 0.4}]}
+    desc = {
+        "qubits": 3,
+        "layers": 2,
+        "layer": [
+            {"gate": "ry", "share": "layers"},
+            {"gate": "crx", "on": "ring", "share": "step"},
+            {"gate": "rz", "angle": 0.4},
+        ],
+    }
     program = expand(parse_circuit(desc))
     assert program.parameters == 3 + 2
     rng = np.random.default_rng(1)

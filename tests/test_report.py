@@ -10,8 +10,14 @@ from analysis import AnalysisOptions, analyze, draw_angles, load_reference, pars
 from analysis.sampling import BLOCK_SIZE
 
 SMALL = AnalysisOptions(pairs=300, samples=200, seed=7)
-RING = parse_circuit({"name": "t", "qubits": 4, "layers": 2,
-                      "layer": [{"gate": "ry"}, {"gate": "rz"}, {"gate": "cz", "on": "ring"}]})
+RING = parse_circuit(
+    {
+        "name": "t",
+        "qubits": 4,
+        "layers": 2,
+        "layer": [{"gate": "ry"}, {"gate": "rz"}, {"gate": "cz", "on": "ring"}],
+    }
+)
 
 
 def strip(report):
@@ -21,15 +27,40 @@ def strip(report):
 def test_keys_are_stable():
     r = analyze(RING, SMALL)
     assert r["report_format"] == 1
-    assert list(r) == ["report_format", "haarline_version", "circuit", "options",
-                       "expressibility", "entanglement", "trainability", "capacity", "sweep",
-                       "cautions", "timings"]
-    assert set(r["expressibility"]) >= {"kl", "interval", "bias", "pairs", "bins",
-                                         "second_moment", "haar_second_moment", "histogram",
-                                         "haar"}
+    assert list(r) == [
+        "report_format",
+        "haarline_version",
+        "circuit",
+        "options",
+        "expressibility",
+        "entanglement",
+        "trainability",
+        "capacity",
+        "sweep",
+        "cautions",
+        "timings",
+    ]
+    assert set(r["expressibility"]) >= {
+        "kl",
+        "interval",
+        "bias",
+        "pairs",
+        "bins",
+        "second_moment",
+        "haar_second_moment",
+        "histogram",
+        "haar",
+    }
     assert set(r["entanglement"]) >= {"meyer_wallach", "std", "samples", "haar_meyer_wallach"}
-    assert set(r["circuit"]) >= {"name", "qubits", "layers", "parameters", "gates",
-                                 "two_qubit_gates", "depth"}
+    assert set(r["circuit"]) >= {
+        "name",
+        "qubits",
+        "layers",
+        "parameters",
+        "gates",
+        "two_qubit_gates",
+        "depth",
+    }
     assert r["options"]["seed"] == 7
 
 
@@ -85,8 +116,27 @@ def test_cautions_flag_small_samples_and_haar_like_results():
 def test_reference_circuits_expand_with_published_parameter_counts():
     # per-layer parameter counts of Sim, Johnson & Aspuru-Guzik (2019), Fig. 2 / Table,
     # as recalled from memory (see analysis/references/NOTES.md)
-    counts = {1: 8, 2: 8, 3: 11, 4: 11, 5: 28, 6: 28, 7: 19, 8: 19, 9: 4, 10: 8, 11: 12,
-              12: 12, 13: 16, 14: 16, 15: 8, 16: 11, 17: 11, 18: 12, 19: 12}
+    counts = {
+        1: 8,
+        2: 8,
+        3: 11,
+        4: 11,
+        5: 28,
+        6: 28,
+        7: 19,
+        8: 19,
+        9: 4,
+        10: 8,
+        11: 12,
+        12: 12,
+        13: 16,
+        14: 16,
+        15: 8,
+        16: 11,
+        17: 11,
+        18: 12,
+        19: 12,
+    }
     for k, want in counts.items():
         c = load_reference(f"sim2019-{k:02d}")
         assert c.qubits == 4 and c.layers == 1
@@ -132,8 +182,26 @@ def test_public_api_is_complete():
 
 _MODULE_ONLY = {
     # helpers kept at module level on purpose
-    "format_path", "validation_problems", "kl_from_counts", "summarize_meyer_wallach",
-    "block_rng", "cautions", "ALIASES", "Plan", "PlanStep", "Metric", "apply_generator",
-    "apply_pauli", "apply_step", "step_matrix", "validate_cost", "Fit", "fit_decay",
-    "gradient_samples", "summarize_gradients", "verdict",
+    "uses_only_patterns",
+    "parse_cost",
+    "format_path",
+    "validation_problems",
+    "kl_from_counts",
+    "summarize_meyer_wallach",
+    "block_rng",
+    "cautions",
+    "ALIASES",
+    "Plan",
+    "PlanStep",
+    "Metric",
+    "apply_generator",
+    "apply_pauli",
+    "apply_step",
+    "step_matrix",
+    "validate_cost",
+    "Fit",
+    "fit_decay",
+    "gradient_samples",
+    "summarize_gradients",
+    "verdict",
 }

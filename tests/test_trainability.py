@@ -49,8 +49,7 @@ def test_deep_ring_with_global_cost_is_a_barren_plateau():
     # ry on all + cz ring with layers = n, global cost: exponential decay (Cerezo et al. 2021;
     # McClean et al., Nat. Commun. 9, 4812, 2018)
     ring = parse_circuit({"qubits": 2, "layer": [{"gate": "ry"}, {"gate": "cz", "on": "ring"}]})
-    tr = trainability(ring, cost="global", scan=[2, 4, 6, 8], scan_layers="n", samples=200,
-                      seed=1)
+    tr = trainability(ring, cost="global", scan=[2, 4, 6, 8], scan_layers="n", samples=200, seed=1)
     assert tr.barren_plateau is True, tr.reason
     assert tr.layers_rule == "layers = n"
     assert [p.layers for p in tr.points] == [2, 4, 6, 8]
@@ -74,8 +73,7 @@ def test_no_verdict_on_too_few_qubit_counts():
 
 
 def _points(values, se_rel=0.05):
-    return [VariancePoint(n, 1, n, 200, v, (v, v), se_rel * v, v, v, 0.0, 0.01)
-            for n, v in values]
+    return [VariancePoint(n, 1, n, 200, v, (v, v), se_rel * v, v, v, 0.0, 0.01) for n, v in values]
 
 
 def test_verdict_rules_on_constructed_points():

@@ -20,8 +20,8 @@ from hypothesis import strategies as st
 import analysis
 from analysis import CircuitError, OptionError, expand, facts, parse_circuit, parse_circuit_text
 from analysis.circuit import MAX_DESCRIPTION_BYTES, MAX_LAYERS
-from analysis.loading import load_circuit
 from analysis.gates import ALIASES, GATES
+from analysis.loading import load_circuit
 
 MAX_QUBITS = analysis.MAX_QUBITS
 

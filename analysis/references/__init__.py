@@ -11,8 +11,8 @@ from __future__ import annotations
 from importlib import resources
 
 from ..circuit import Circuit
-from ..loading import parse_circuit_text
 from ..errors import CircuitError, Problem
+from ..loading import parse_circuit_text
 
 __all__ = ["REFERENCE_PREFIX", "load_reference", "reference_names"]
 
@@ -45,8 +45,12 @@ def load_reference(name: str) -> Circuit:
     names = reference_names()
     if name not in names:
         raise CircuitError(
-            [Problem("(root)", f"unknown reference circuit {name!r}; expected one of: "
-                     f"{', '.join(names)}")],
+            [
+                Problem(
+                    "(root)",
+                    f"unknown reference circuit {name!r}; expected one of: {', '.join(names)}",
+                )
+            ],
             source=f"{REFERENCE_PREFIX}{name}",
         )
     text = resources.files(__name__).joinpath(f"{name}.json").read_text(encoding="utf-8")
