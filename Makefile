@@ -19,20 +19,25 @@ $(VENV)/.test: pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	@touch $@ $(VENV)/.core
 
+$(VENV)/.lint: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e '.[test,lint]'
+	@touch $@ $(VENV)/.test $(VENV)/.core
+
 install: $(VENV)/.core
 install-test: $(VENV)/.test
 
 ## run: analyze the bundled demo circuit and print its summary
 run: $(VENV)/.core
-	$(BIN)/haarline analyze $(DEMO) --format text
+	$(BIN)/haarline analyze $(DEMO) --metrics expressibility,entanglement,trainability,capacity
 
 ## test: the whole suite (what CI runs)
 test: $(VENV)/.test
 	$(BIN)/python -m pytest -q
 
-lint: $(VENV)/.test
-	$(BIN)/python -m pip install --quiet ruff mypy
+## lint: style, docstrings and types (CI runs it after the tests)
+lint: $(VENV)/.lint
 	$(BIN)/ruff check analysis service tests
+	$(BIN)/ruff format --check analysis service tests
 	$(BIN)/mypy
 
 clean:
