@@ -24,7 +24,10 @@ from .engine import Plan, apply_generator, apply_step, compile_program, run
 from .observables import Observable
 from .program import Program
 
-__all__ = ["adjoint_gradients", "cost_values", "shift_gradients"]
+__all__ = ["GRADIENT_METHODS", "adjoint_gradients", "cost_values", "shift_gradients"]
+
+GRADIENT_METHODS = ("adjoint", "shift")
+"""How gradients can be computed: adjoint differentiation or parameter shift."""
 
 _D1 = (np.sqrt(2) + 1) / (4 * np.sqrt(2))
 _D2 = (np.sqrt(2) - 1) / (4 * np.sqrt(2))

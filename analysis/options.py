@@ -94,6 +94,11 @@ class AnalysisOptions(BaseModel):
     grad_samples: StrictInt = Field(
         default=200, ge=2, le=1_000_000, description="Parameter vectors per scan point."
     )
+    gradients: Literal["adjoint", "shift"] = Field(
+        default="adjoint",
+        description="Gradient method: adjoint differentiation, or the parameter-shift rules "
+        "(slower; a cross-check).",
+    )
     capacity_points: StrictInt = Field(
         default=4, ge=1, le=1000, description="Random points behind the QFI rank."
     )
@@ -186,6 +191,8 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
                 msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
             elif kind == "literal_error" and field == "metrics":
                 msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
+            elif field == "gradients" and kind == "literal_error":
+                msg = f"got {_describe(value)}; expected adjoint or shift"
             elif field == "scan_layers" and kind in ("literal_error", "int_type"):
                 msg = f"got {_describe(value)}; expected 'n' or a layer count"
             elif kind == "too_long":

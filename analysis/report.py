@@ -173,6 +173,7 @@ def analyze(
             seed=options.seed,
             memory_budget=memory_budget,
             progress=progress,
+            method=options.gradients,
         )
         train = result.to_dict()
         train["scan_note"] = note

@@ -27,7 +27,7 @@ from ._batching import Progress
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
 from .errors import CircuitError, OptionError, Problem
-from .gradients import adjoint_gradients
+from .gradients import adjoint_gradients, cost_values, shift_gradients
 from .observables import make_observable
 from .program import Program, expand
 from .sampling import Stream, draw_angles
@@ -88,6 +88,7 @@ def gradient_samples(
     memory_budget: int = DEFAULT_MEMORY_BUDGET,
     progress: Progress | None = None,
     stage: str = "gradients",
+    method: str = "adjoint",
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Costs ``(S,)`` and gradients ``(S, P)`` at ``samples`` random parameter vectors.
 
@@ -105,7 +106,10 @@ def gradient_samples(
     while done < samples:
         k = min(rows, samples - done)
         thetas = draw_angles(seed, stream, done, k, program.parameters)
-        c, g = adjoint_gradients(plan, thetas, observable)
+        if method == "adjoint":
+            c, g = adjoint_gradients(plan, thetas, observable)
+        else:
+            c, g = cost_values(plan, thetas, observable), shift_gradients(plan, thetas, observable)
         costs[done : done + k] = c
         grads[done : done + k] = g
         done += k
@@ -324,6 +328,7 @@ def trainability(
     seed: int = 1,
     memory_budget: int = DEFAULT_MEMORY_BUDGET,
     progress: Progress | None = None,
+    method: str = "adjoint",
 ) -> Trainability:
     """Gradient-variance scan over qubit counts (and, optionally, over layer counts).
 
@@ -392,6 +397,7 @@ def trainability(
                 memory_budget=memory_budget,
                 progress=progress,
                 stage=f"gradients n={n} L={layers}",
+                method=method,
             )
             target.append(summarize_gradients(n, layers, c, g))
     fits = fit_decay(points)

@@ -38,6 +38,7 @@ _FLAG_NAMES = {
     "depth_scan": "--depth-scan",
     "grad_samples": "--grad-samples",
     "capacity_points": "--capacity-points",
+    "gradients": "--gradients",
 }
 
 _TERM = re.compile(r"\s*([+-])?\s*(?:((?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*\*?\s*)?([IXYZ]+)\s*")
@@ -180,6 +181,7 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
         "depth_scan",
         "grad_samples",
         "capacity_points",
+        "gradients",
     ):
         value = getattr(args, field)
         if value is not None:
@@ -335,6 +337,11 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument(
         "--grad-samples", type=int, help="parameter vectors per scan point (default 200)"
+    )
+    p.add_argument(
+        "--gradients",
+        choices=["adjoint", "shift"],
+        help="gradient method: adjoint differentiation (default) or parameter shift (slower)",
     )
     p.add_argument(
         "--capacity-points", type=int, help="random points behind the QFI rank (default 4)"
