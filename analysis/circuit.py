@@ -106,6 +106,11 @@ class Step(BaseModel):
         description="'step': one parameter for every target of this step in a layer; "
         "'layers': one parameter per target, reused by every layer.",
     )
+    param: Annotated[str, Field(pattern=r"^[A-Za-z_][A-Za-z0-9_]{0,63}$")] | None = Field(
+        default=None,
+        description="Name of one trainable parameter used by every target of this step and "
+        "by every other step that gives the same name (in every layer).",
+    )
 
 
 Name = Annotated[

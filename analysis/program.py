@@ -82,7 +82,9 @@ class Program:
     """An expanded, validated circuit: what the engine runs.
 
     ``parameters`` is the length of the parameter vector θ; operation ``k`` with
-    ``param = p`` uses angle ``θ[p]``.
+    ``param = p`` uses angle ``θ[p]``. ``parameter_steps[p]`` is the JSON path of the step
+    that introduced parameter ``p`` and ``parameter_names[p]`` its ``param`` name (or
+    ``None``).
     """
 
     name: str
@@ -91,6 +93,7 @@ class Program:
     operations: tuple[Operation, ...]
     parameters: int
     parameter_steps: tuple[str, ...] = field(default=())
+    parameter_names: tuple[str | None, ...] = field(default=())
 
     @property
     def dimension(self) -> int:
@@ -269,7 +272,7 @@ def _show(value: Any) -> str:
 def _check_step(step: Step, path: str, section: str) -> None:
     spec = lookup(step.gate)
     if not spec.takes_angle:
-        for key in ("angle", "share"):
+        for key in ("angle", "share", "param"):
             if getattr(step, key) is not None:
                 raise CircuitError(
                     [
@@ -287,6 +290,17 @@ def _check_step(step: Step, path: str, section: str) -> None:
                 Problem(
                     f"{path}.share",
                     "a fixed 'angle' has no parameter to share; give either 'angle' or 'share'",
+                )
+            ]
+        )
+    if step.param is not None and (step.angle is not None or step.share is not None):
+        other = "angle" if step.angle is not None else "share"
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.param",
+                    f"a named parameter cannot be combined with '{other}'; give one of "
+                    "'angle', 'share' or 'param'",
                 )
             ]
         )
@@ -377,8 +391,12 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     owners: list[str] = []
     shared: dict[tuple[str, int], int] = {}
 
-    def new_param(path: str) -> int:
+    names: list[str | None] = []
+    named: dict[str, int] = {}
+
+    def new_param(path: str, name: str | None = None) -> int:
         owners.append(path)
+        names.append(name)
         return len(owners) - 1
 
     def emit(section: str, steps: list[Step], layer: int | None) -> None:
@@ -389,7 +407,11 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
             for k, qs in enumerate(targets[path]):
                 param: int | None = None
                 if spec.takes_angle and step.angle is None:
-                    if step.share == "step":
+                    if step.param is not None:
+                        if step.param not in named:
+                            named[step.param] = new_param(path, step.param)
+                        param = named[step.param]
+                    elif step.share == "step":
                         if step_param is None:
                             step_param = new_param(path)
                         param = step_param
@@ -413,6 +435,7 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
         operations=tuple(ops),
         parameters=len(owners),
         parameter_steps=tuple(owners),
+        parameter_names=tuple(names),
     )
 
 

@@ -1069,3 +1069,40 @@ def test_fuzz_json_token_soup(text):
         expand(parse_circuit_text(text))
     except CircuitError:
         pass
+
+
+# --- named parameters ('param') ----------------------------------------------------------
+
+
+def test_named_parameter_is_shared_across_steps_and_layers():
+    desc = {
+        "qubits": 2,
+        "layers": 2,
+        "layer": [
+            {"gate": "rx", "param": "a"},
+            {"gate": "ry", "on": [1], "param": "a"},
+            {"gate": "rz"},
+        ],
+    }
+    p = expand(parse_circuit(desc))
+    assert p.parameters == 1 + 2 * 2
+    assert {op.param for op in p.operations if op.gate in ("rx", "ry")} == {0}
+    assert p.parameter_names[0] == "a" and p.parameter_names[1] is None
+
+
+@pytest.mark.parametrize(
+    "step,path,words",
+    [
+        ({"gate": "h", "param": "a"}, "layer[0].param", ["'h' has no angle"]),
+        ({"gate": "rx", "param": "a", "share": "step"}, "layer[0].param", ["'share'"]),
+        ({"gate": "rx", "param": "a", "angle": 0.1}, "layer[0].param", ["'angle'"]),
+        ({"gate": "rx", "param": "9x"}, "layer[0].param", ["9x"]),
+    ],
+)
+def test_named_parameter_errors(step, path, words):
+    with pytest.raises(CircuitError) as info:
+        expand(parse_circuit({"qubits": 2, "layer": [step]}))
+    problems = info.value.problems
+    assert len(problems) == 1 and problems[0].path == path
+    for word in words:
+        assert word in problems[0].message
