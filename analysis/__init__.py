@@ -16,6 +16,7 @@ Examples
 from ._version import __version__
 from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
 from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
+from .compare import compare_markdown, compare_reports
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
@@ -32,6 +33,7 @@ from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar
 from .loading import load_circuit, parse_circuit_text
 from .observables import NAMED_COSTS, Observable, make_observable
 from .options import METRICS, AnalysisOptions, parse_options
+from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from .program import Operation, Program, expand, facts, placement
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
@@ -59,6 +61,8 @@ __all__ = [
     "Observable",
     "Operation",
     "OptionError",
+    "Policy",
+    "PolicyError",
     "Problem",
     "Program",
     "Step",
@@ -70,11 +74,14 @@ __all__ = [
     "analyze",
     "capacity",
     "circuit_schema",
+    "compare_markdown",
+    "compare_reports",
     "compile_program",
     "cost_values",
     "divergence_from_haar",
     "draw_angles",
     "entangling_capability",
+    "evaluate_policy",
     "expand",
     "expressibility",
     "facts",
@@ -85,6 +92,7 @@ __all__ = [
     "haar_meyer_wallach",
     "haar_second_moment",
     "load_circuit",
+    "load_policy",
     "load_reference",
     "lookup",
     "make_observable",
@@ -92,6 +100,7 @@ __all__ = [
     "parse_circuit",
     "parse_circuit_text",
     "parse_options",
+    "parse_policy",
     "placement",
     "plugin_bias",
     "quantum_fisher",

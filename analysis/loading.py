@@ -18,7 +18,7 @@ import yaml
 from .circuit import MAX_DESCRIPTION_BYTES, Circuit, _describe, parse_circuit
 from .errors import CircuitError, Problem
 
-__all__ = ["load_circuit", "parse_circuit_text"]
+__all__ = ["decode_text", "load_circuit", "parse_circuit_text"]
 
 
 _YAML_TAG = "tag:yaml.org,2002:"
@@ -177,23 +177,22 @@ def _utf8_length(text: str) -> int:
     return len(text.encode("utf-8", "surrogatepass"))
 
 
-def parse_circuit_text(
-    text: str | bytes, *, kind: str = "json", source: str | None = None
-) -> Circuit:
-    """Decode JSON or YAML text and validate it as a description.
+def decode_text(
+    text: str | bytes, *, kind: str = "json", source: str | None = None, what: str = "text"
+) -> Any:
+    """Decode JSON or YAML text (at most 1 MiB) strictly, without interpreting it.
 
-    Duplicate keys are rejected (JSON would silently keep the last one). YAML plain
-    scalars follow the YAML 1.2 core schema: only ``true``/``false`` are booleans (so the
-    key ``on`` is not read as ``True``), ``010`` is ten, ``1e-3`` is a number, and keys must
-    be strings. A leading UTF-8 byte order mark is ignored.
+    Raises
+    ------
+    CircuitError
+        For text that is too large, not UTF-8, or not valid JSON/YAML.
     """
     size = len(text) if isinstance(text, bytes) else _utf8_length(text)
     if size > MAX_DESCRIPTION_BYTES:
         raise CircuitError(
             [
                 Problem(
-                    "(root)",
-                    f"description is {size} bytes; the limit is {MAX_DESCRIPTION_BYTES} bytes",
+                    "(root)", f"{what} is {size} bytes; the limit is {MAX_DESCRIPTION_BYTES} bytes"
                 )
             ],
             source=source,
@@ -208,7 +207,21 @@ def parse_circuit_text(
             ) from None
     if kind not in ("json", "yaml"):
         raise ValueError(f"kind must be 'json' or 'yaml', got {kind!r}")
-    return parse_circuit(_decode(text, kind, source), source=source)
+    return _decode(text, kind, source)
+
+
+def parse_circuit_text(
+    text: str | bytes, *, kind: str = "json", source: str | None = None
+) -> Circuit:
+    """Decode JSON or YAML text and validate it as a description.
+
+    Duplicate keys are rejected (JSON would silently keep the last one). YAML plain
+    scalars follow the YAML 1.2 core schema: only ``true``/``false`` are booleans (so the
+    key ``on`` is not read as ``True``), ``010`` is ten, ``1e-3`` is a number, and keys must
+    be strings. A leading UTF-8 byte order mark is ignored.
+    """
+    data = decode_text(text, kind=kind, source=source, what="description")
+    return parse_circuit(data, source=source)
 
 
 def load_circuit(path: str | Path) -> Circuit:

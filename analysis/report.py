@@ -218,6 +218,7 @@ def analyze(
         "trainability": train,
         "capacity": cap,
         "sweep": sweep,
+        "policy": None,
     }
     report["cautions"] = cautions(report)
     timings["total"] = time.perf_counter() - start

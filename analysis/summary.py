@@ -31,8 +31,9 @@ def to_text(report: dict[str, Any]) -> str:
     if e:
         lines += [
             "Expressibility (KL divergence from Haar, nats; lower is more expressive)",
-            f"  KL       {e['kl']:.4f}   95% interval {_iv(e['interval'])}   "
-            f"bias of an exactly Haar circuit {e['bias']:.4f}",
+            f"  KL       {e['kl']:.4f}   bias-corrected {e['corrected']:.4f}, 95% interval "
+            f"{_iv(e['interval'])}",
+            f"           (an exactly Haar circuit would show {e['bias']:.4f} at this sample size)",
             f"  E[F^2]   {e['second_moment']:.4g}   95% interval "
             f"{e['second_moment_interval'][0]:.4g} .. {e['second_moment_interval'][1]:.4g}   "
             f"Haar {e['haar_second_moment']:.4g}",
@@ -116,6 +117,12 @@ def to_text(report: dict[str, Any]) -> str:
                 line += f" {row['meyer_wallach']:>7.4f} {_iv(row['meyer_wallach_interval'], 3):>16}"
             lines.append(line)
         lines.append("")
+    pol = report.get("policy")
+    if pol:
+        lines.append(f"Policy '{pol['name']}': {pol['status'].upper()}")
+        for r in pol["rules"]:
+            lines.append(f"  {r['status']:<4}  {r['metric']}: {r['message']}")
+        lines.append("")
     if report.get("cautions"):
         lines.append("Cautions")
         lines += [f"  - {c}" for c in report["cautions"]]
@@ -128,14 +135,18 @@ def to_text(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-def to_markdown(report: dict[str, Any]) -> str:
-    """Markdown summary of a report: a headline, a metrics table and the cautions."""
+def to_markdown(report: dict[str, Any], *, images: list[str] | None = None) -> str:
+    """Markdown summary of a report: headline, metrics table, policy, cautions, plots.
+
+    ``images`` are PNG file names written beside the summary; they are linked relatively.
+    """
     out = [f"## haarline: {report['circuit']['name']}", "", _headline(report) + ".", ""]
     rows = []
     e = report.get("expressibility")
     if e:
         rows.append(
-            f"| Expressibility (KL, nats) | {e['kl']:.4f} | {_iv(e['interval'])} | "
+            f"| Expressibility (KL, nats; bias-corrected {e['corrected']:.4f}) | {e['kl']:.4f} | "
+            f"{_iv(e['interval'])} | "
             f"0 (bias at {e['pairs']} pairs: {e['bias']:.4f}) |"
         )
         rows.append(
@@ -173,10 +184,24 @@ def to_markdown(report: dict[str, Any]) -> str:
         out += ["| metric | value | 95% interval | Haar |", "| --- | --- | --- | --- |", *rows, ""]
     if t:
         out += [f"**Trainability verdict:** {t['reason'][0].upper()}{t['reason'][1:]}.", ""]
+    pol = report.get("policy")
+    if pol:
+        out += [
+            f"**Policy '{pol['name']}': {pol['status']}**",
+            "",
+            "| rule | result | why |",
+            "| --- | --- | --- |",
+        ]
+        out += [f"| `{r['metric']}` | {r['status']} | {r['message']} |" for r in pol["rules"]]
+        out.append("")
     if report.get("cautions"):
         out.append("**Cautions**")
         out.append("")
         out += [f"- {c}" for c in report["cautions"]]
+        out.append("")
+    for name in images or []:
+        out.append(f"![{name.removesuffix('.png')}]({name})")
+    if images:
         out.append("")
     out.append(f"Seed {report['options']['seed']}, haarline {report['haarline_version']}.")
     return "\n".join(out) + "\n"

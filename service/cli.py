@@ -15,8 +15,10 @@ from collections.abc import Sequence
 from typing import Any
 
 import analysis
+from analysis.policy import check_metrics
 from analysis.references import REFERENCE_PREFIX
 
+from .outputs import write_analysis, write_comparison
 from .progress import TerminalProgress
 
 __all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_cost", "parse_size"]
@@ -166,23 +168,11 @@ def _emit(text: str) -> None:
     sys.stdout.write(text if text.endswith("\n") else text + "\n")
 
 
-def _cmd_analyze(args: argparse.Namespace) -> int:
-    circuit = load(args.file)
+def _options(args: argparse.Namespace) -> analysis.AnalysisOptions:
     raw: dict[str, Any] = {}
-    for field in (
-        "metrics",
-        "pairs",
-        "bins",
-        "samples",
-        "seed",
-        "cost",
-        "scan",
-        "scan_layers",
-        "depth_scan",
-        "grad_samples",
-        "capacity_points",
-        "gradients",
-    ):
+    for field in _FLAG_NAMES:
+        if field == "layers_sweep":
+            continue
         value = getattr(args, field)
         if value is not None:
             raw[field] = value
@@ -194,7 +184,23 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
                 [analysis.Problem("--layers-sweep", f"got {sweep[0]}; allowed range is 1..{top}")]
             )
         raw["layers_sweep"] = list(range(1, sweep[0] + 1)) if len(sweep) == 1 else sweep
-    options = analysis.parse_options(raw, names=_FLAG_NAMES)
+    return analysis.parse_options(raw, names=_FLAG_NAMES)
+
+
+def _policy(args: argparse.Namespace, options: analysis.AnalysisOptions) -> analysis.Policy | None:
+    if not args.policy:
+        return None
+    policy = analysis.load_policy(args.policy)
+    check_metrics(policy, list(options.metrics), source=args.policy)
+    return policy
+
+
+def _run_analysis(
+    circuit: analysis.Circuit,
+    options: analysis.AnalysisOptions,
+    policy: analysis.Policy | None,
+    args: argparse.Namespace,
+) -> dict[str, Any]:
     progress = TerminalProgress()
     try:
         report = analysis.analyze(
@@ -202,13 +208,53 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
         )
     finally:
         progress.close()
+    if policy is not None:
+        try:
+            report["policy"] = analysis.evaluate_policy(policy, report)
+        except analysis.PolicyError as exc:
+            raise analysis.PolicyError(exc.problems, source=args.policy) from None
+    return report
+
+
+def _cmd_analyze(args: argparse.Namespace) -> int:
+    circuit = load(args.file)
+    options = _options(args)
+    policy = _policy(args, options)
+    report = _run_analysis(circuit, options, policy, args)
+    images: list[str] = []
+    if args.out:
+        images = write_analysis(args.out, report, analysis.expand(circuit))
     if args.format == "json":
         _emit(json.dumps(report, indent=2, allow_nan=False))
     elif args.format == "markdown":
-        _emit(analysis.to_markdown(report))
+        _emit(analysis.to_markdown(report, images=images))
     else:
         _emit(analysis.to_text(report))
-    return EXIT_OK
+        if args.out:
+            sys.stderr.write(
+                f"haarline: wrote report.json, summary.md and {len(images)} plot(s) to {args.out}\n"
+            )
+    failed = report["policy"] is not None and report["policy"]["status"] == "fail"
+    return EXIT_POLICY if failed else EXIT_OK
+
+
+def _cmd_compare(args: argparse.Namespace) -> int:
+    if len(args.files) < 2:
+        raise UsageError([analysis.Problem("FILE", "compare needs at least two circuits")])
+    circuits = [load(spec) for spec in args.files]
+    options = _options(args)
+    policy = _policy(args, options)
+    reports = [_run_analysis(c, options, policy, args) for c in circuits]
+    result = analysis.compare_reports(reports, list(args.files))
+    images: list[str] = []
+    if args.out:
+        images = write_comparison(args.out, result)
+    if args.format == "json":
+        _emit(json.dumps(result, indent=2, allow_nan=False))
+    else:
+        _emit(analysis.compare_markdown(result, images=images))
+    failed = any(r["policy"] == "fail" for r in result["ranking"])
+    return EXIT_POLICY if failed else EXIT_OK
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
@@ -279,21 +325,8 @@ def _cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser (exposed for tests and the docs)."""
-    parser = argparse.ArgumentParser(
-        prog="haarline",
-        description="Score parameterized quantum circuits against the Haar baseline: "
-        "expressibility and entangling capability.",
-        epilog="FILE is a .json/.yaml description, ref:NAME for a bundled circuit "
-        "(see 'haarline references'), or - for JSON on stdin. "
-        "Exit codes: 0 ok, 1 policy failed, 2 bad input.",
-    )
-    parser.add_argument("--version", action="version", version=f"haarline {analysis.__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
-
-    p = sub.add_parser("analyze", help="compute the metrics of a circuit and print a report")
-    p.add_argument("file", metavar="FILE")
+def _analysis_flags(p: argparse.ArgumentParser) -> None:
+    """The options shared by ``analyze`` and ``compare``."""
     p.add_argument(
         "--metrics",
         type=_metric_list,
@@ -356,8 +389,44 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="SIZE",
         help="memory for state batches, e.g. 512MiB (default 1GiB); changes speed, not results",
     )
+    p.add_argument(
+        "--policy",
+        metavar="FILE",
+        help="JSON or YAML policy of thresholds; exit code 1 when a rule fails",
+    )
+    p.add_argument(
+        "--out",
+        metavar="DIR",
+        help="also write report.json, summary.md and the PNG plots into DIR",
+    )
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser (exposed for tests and the docs)."""
+    parser = argparse.ArgumentParser(
+        prog="haarline",
+        description="Score parameterized quantum circuits against the Haar baseline: "
+        "expressibility and entangling capability.",
+        epilog="FILE is a .json/.yaml description, ref:NAME for a bundled circuit "
+        "(see 'haarline references'), or - for JSON on stdin. "
+        "Exit codes: 0 ok, 1 policy failed, 2 bad input.",
+    )
+    parser.add_argument("--version", action="version", version=f"haarline {analysis.__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    p = sub.add_parser("analyze", help="compute the metrics of a circuit and print a report")
+    p.add_argument("file", metavar="FILE")
+    _analysis_flags(p)
     p.add_argument("--format", choices=["text", "json", "markdown"], default="text")
     p.set_defaults(func=_cmd_analyze)
+
+    p = sub.add_parser(
+        "compare", help="analyze several circuits with the same options and rank them"
+    )
+    p.add_argument("files", metavar="FILE", nargs="+")
+    _analysis_flags(p)
+    p.add_argument("--format", choices=["markdown", "json"], default="markdown")
+    p.set_defaults(func=_cmd_compare)
 
     p = sub.add_parser("check", help="validate a description and print its static facts")
     p.add_argument("file", metavar="FILE")

@@ -1,0 +1,61 @@
+"""Writing an analysis or a comparison to a directory (the ``--out DIR`` option)."""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import Any
+
+import analysis
+
+__all__ = ["write_analysis", "write_comparison"]
+
+
+def _target(directory: str) -> Path:
+    path = Path(directory)
+    try:
+        path.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise analysis.InputError(
+            [analysis.Problem("--out", f"cannot create {directory!r}: {exc.strerror}")]
+        ) from None
+    if not os.access(path, os.W_OK):
+        raise analysis.InputError([analysis.Problem("--out", f"{directory!r} is not writable")])
+    return path
+
+
+def _write(path: Path, data: bytes) -> None:
+    tmp = path.with_name(path.name + ".tmp")
+    tmp.write_bytes(data)
+    tmp.replace(path)  # never leave a half-written file under the final name
+
+
+def write_analysis(directory: str, report: dict[str, Any], program: analysis.Program) -> list[str]:
+    """Write ``report.json``, every supported PNG and ``summary.md``; return the PNG names."""
+    path = _target(directory)
+    pngs = _plots(report, program)
+    for name, data in pngs.items():
+        _write(path / name, data)
+    images = sorted(pngs)
+    _write(path / "report.json", json.dumps(report, indent=2, allow_nan=False).encode())
+    _write(path / "summary.md", analysis.to_markdown(report, images=images).encode())
+    return images
+
+
+def write_comparison(directory: str, result: dict[str, Any]) -> list[str]:
+    """Write ``comparison.json``, ``comparison.md`` and the comparison plot."""
+    path = _target(directory)
+    images: list[str] = []
+    plots = getattr(analysis, "comparison_png", None)
+    if plots is not None:
+        _write(path / "comparison.png", plots(result["reports"]))
+        images.append("comparison.png")
+    _write(path / "comparison.json", json.dumps(result, indent=2, allow_nan=False).encode())
+    _write(path / "comparison.md", analysis.compare_markdown(result, images=images).encode())
+    return images
+
+
+def _plots(report: dict[str, Any], program: analysis.Program) -> dict[str, bytes]:
+    plot_files = getattr(analysis, "plot_files", None)
+    return {} if plot_files is None else plot_files(report, program)
