@@ -17,6 +17,7 @@ from ._version import __version__
 from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
 from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .compare import compare_markdown, compare_reports
+from .cost import Estimate, estimate
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
@@ -53,6 +54,7 @@ __all__ = [
     "Circuit",
     "CircuitError",
     "Entanglement",
+    "Estimate",
     "Expressibility",
     "GateSpec",
     "HaarlineError",
@@ -81,6 +83,7 @@ __all__ = [
     "divergence_from_haar",
     "draw_angles",
     "entangling_capability",
+    "estimate",
     "evaluate_policy",
     "expand",
     "expressibility",

@@ -247,10 +247,14 @@ def _model_fields(loc: tuple[str | int, ...]) -> list[str]:
     return list(model.model_fields)
 
 
-def validation_problems(exc: ValidationError) -> list[Problem]:
-    """Translate a pydantic ``ValidationError`` into path-naming problems."""
+def validation_problems(exc: ValidationError | list[dict[str, Any]]) -> list[Problem]:
+    """Translate a pydantic ``ValidationError`` (or its error list) into path-naming problems.
+
+    Locations are relative to the :class:`Circuit` model.
+    """
     problems: list[Problem] = []
-    for err in exc.errors(include_url=False):
+    errors = exc if isinstance(exc, list) else exc.errors(include_url=False)
+    for err in errors:
         loc = tuple(err["loc"])
         kind = err["type"]
         value = err.get("input")

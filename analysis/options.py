@@ -18,6 +18,7 @@ __all__ = [
     "DEFAULT_SEED",
     "METRICS",
     "AnalysisOptions",
+    "option_problems",
     "parse_options",
 ]
 
@@ -180,37 +181,45 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
     try:
         return AnalysisOptions.model_validate(data)
     except ValidationError as exc:
-        problems = []
-        for err in exc.errors(include_url=False):
-            loc = tuple(err["loc"])
-            field = str(loc[0]) if loc else ""
-            path = names.get(field) or format_path(loc)
-            value = err.get("input")
-            kind = err["type"]
-            if kind in ("greater_than_equal", "less_than_equal") and field in _RANGES:
-                msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
-            elif kind == "literal_error" and field == "metrics":
-                msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
-            elif field == "gradients" and kind == "literal_error":
-                msg = f"got {_describe(value)}; expected adjoint or shift"
-            elif field == "scan_layers" and kind in ("literal_error", "int_type"):
-                msg = f"got {_describe(value)}; expected 'n' or a layer count"
-            elif kind == "too_long":
-                msg = (
-                    f"got {err['ctx'].get('actual_length')} values; at most "
-                    f"{err['ctx'].get('max_length')} allowed"
-                )
-            elif kind == "too_short":
-                msg = f"got an empty list; at least {err['ctx'].get('min_length')} needed"
-            elif kind == "extra_forbidden":
-                msg = f"unknown option; allowed: {', '.join(AnalysisOptions.model_fields)}"
-            elif kind == "int_type":
-                msg = f"expected an integer, got {_describe(value)}"
-            elif kind == "value_error":
-                msg = str(err["ctx"]["error"])
-            else:
-                msg = f"{err['msg']} (got {_describe(value)})"
-            problem = Problem(path, msg)
-            if problem not in problems:  # a union reports once per member
-                problems.append(problem)
-        raise OptionError(problems) from exc
+        raise OptionError(option_problems(exc.errors(include_url=False), names)) from exc
+
+
+def option_problems(
+    errors: list[dict[str, Any]], names: dict[str, str] | None = None
+) -> list[Problem]:
+    """Translate pydantic errors of :class:`AnalysisOptions` (locations relative to it)."""
+    names = names or {}
+    problems: list[Problem] = []
+    for err in errors:
+        loc = tuple(err["loc"])
+        field = str(loc[0]) if loc else ""
+        path = names.get(field) or format_path(loc)
+        value = err.get("input")
+        kind = err["type"]
+        if kind in ("greater_than_equal", "less_than_equal") and field in _RANGES:
+            msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
+        elif kind == "literal_error" and field == "metrics":
+            msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
+        elif field == "gradients" and kind == "literal_error":
+            msg = f"got {_describe(value)}; expected adjoint or shift"
+        elif field == "scan_layers" and kind in ("literal_error", "int_type"):
+            msg = f"got {_describe(value)}; expected 'n' or a layer count"
+        elif kind == "too_long":
+            msg = (
+                f"got {err['ctx'].get('actual_length')} values; at most "
+                f"{err['ctx'].get('max_length')} allowed"
+            )
+        elif kind == "too_short":
+            msg = f"got an empty list; at least {err['ctx'].get('min_length')} needed"
+        elif kind == "extra_forbidden":
+            msg = f"unknown option; allowed: {', '.join(AnalysisOptions.model_fields)}"
+        elif kind == "int_type":
+            msg = f"expected an integer, got {_describe(value)}"
+        elif kind == "value_error":
+            msg = str(err["ctx"]["error"])
+        else:
+            msg = f"{err['msg']} (got {_describe(value)})"
+        problem = Problem(path, msg)
+        if problem not in problems:  # a union reports once per member
+            problems.append(problem)
+    return problems

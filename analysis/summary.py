@@ -200,7 +200,7 @@ def to_markdown(report: dict[str, Any], *, images: list[str] | None = None) -> s
         out += [f"- {c}" for c in report["cautions"]]
         out.append("")
     for name in images or []:
-        out.append(f"![{name.removesuffix('.png')}]({name})")
+        out.append(f"![{name.rsplit('/', 1)[-1].removesuffix('.png')}]({name})")
     if images:
         out.append("")
     out.append(f"Seed {report['options']['seed']}, haarline {report['haarline_version']}.")

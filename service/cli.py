@@ -20,6 +20,8 @@ from analysis.references import REFERENCE_PREFIX
 
 from .outputs import write_analysis, write_comparison
 from .progress import TerminalProgress
+from .server import add_commands
+from .settings import SettingsError
 
 __all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_cost", "parse_size"]
 
@@ -441,6 +443,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("schema", help="print the JSON Schema of the description format")
     p.set_defaults(func=_cmd_schema)
+
+    add_commands(sub)
     return parser
 
 
@@ -459,6 +463,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             exc.source = _source_name(args.file)
         for line in str(exc).splitlines():
             sys.stderr.write(f"haarline: error: {line}\n")
+        return EXIT_INPUT
+    except SettingsError as exc:
+        sys.stderr.write(f"haarline: error: {exc}\n")
         return EXIT_INPUT
     except KeyboardInterrupt:
         sys.stderr.write("haarline: interrupted\n")

@@ -1,0 +1,95 @@
+"""Turning a request body into a stored request, after admission control.
+
+Resolves the circuit source (description, OpenQASM program or reference name), checks it
+at every size the options ask for, estimates cost and memory, and builds the canonical
+request whose hash identifies identical work.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from typing import Any
+
+import analysis
+
+from .problems import OverLimit
+from .schemas import AnalysisCreate, CircuitSource, CompareCreate
+from .settings import Settings
+from .worker import circuit_of
+
+__all__ = ["admit_analysis", "admit_compare", "request_hash"]
+
+
+def _resolve(source: CircuitSource, path: str) -> tuple[analysis.Circuit, dict[str, Any]]:
+    spec: dict[str, Any] = {
+        "circuit": source.circuit.model_dump(mode="json", exclude_none=True)
+        if source.circuit is not None
+        else None,
+        "qasm": source.qasm,
+        "reference": source.reference,
+    }
+    try:
+        circuit = circuit_of(spec)
+        analysis.expand(circuit)
+    except analysis.InputError as exc:
+        exc.body_path = path  # type: ignore[attr-defined]
+        raise
+    stored: dict[str, Any] = {"circuit": circuit.model_dump(mode="json", exclude_none=True)}
+    if source.reference:
+        stored["reference"] = source.reference
+    return circuit, stored
+
+
+def _check_limits(estimate: analysis.Estimate, settings: Settings, cap: float, route: str) -> None:
+    if estimate.cost > cap:
+        hint = (
+            "lower pairs, samples, grad_samples or the scan, or submit it as a job with "
+            "POST /v1/analyses"
+            if route == "score"
+            else "lower pairs, samples, grad_samples, the scan or the qubit count"
+        )
+        raise OverLimit("cost (amplitude-gate updates)", cap, estimate.cost, hint)
+    if estimate.memory > settings.max_memory_bytes:
+        raise OverLimit(
+            "memory (bytes)",
+            settings.max_memory_bytes,
+            estimate.memory,
+            "lower the qubit count or the capacity points",
+        )
+
+
+def request_hash(kind: str, request: dict[str, Any]) -> str:
+    """Canonical hash of (kind, circuit(s), options, seed, version)."""
+    body = {"kind": kind, "version": analysis.__version__, **request}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"), allow_nan=False)
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def admit_analysis(
+    body: AnalysisCreate, settings: Settings, *, route: str = "job"
+) -> tuple[dict[str, Any], analysis.Estimate]:
+    """Validate, estimate and canonicalize an analysis request."""
+    circuit, stored = _resolve(body, "(root)" if body.circuit is None else "circuit")
+    options = body.options
+    estimate = analysis.estimate(circuit, options, memory_budget=settings.memory_budget)
+    cap = settings.max_score_cost if route == "score" else settings.max_cost
+    _check_limits(estimate, settings, cap, route)
+    return {**stored, "options": options.model_dump(mode="json")}, estimate
+
+
+def admit_compare(
+    body: CompareCreate, settings: Settings
+) -> tuple[dict[str, Any], analysis.Estimate]:
+    """Validate, estimate and canonicalize a comparison request."""
+    circuits = []
+    total_cost, memory = 0.0, 0
+    for i, source in enumerate(body.circuits):
+        circuit, stored = _resolve(source, f"circuits[{i}]")
+        est = analysis.estimate(circuit, body.options, memory_budget=settings.memory_budget)
+        total_cost += est.cost
+        memory = max(memory, est.memory)
+        circuits.append(stored)
+    estimate = analysis.Estimate(cost=total_cost, memory=memory)
+    _check_limits(estimate, settings, settings.max_cost, "job")
+    return {"circuits": circuits, "options": body.options.model_dump(mode="json")}, estimate

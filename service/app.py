@@ -1,0 +1,53 @@
+"""The application factory: it only assembles settings, store, runner, routes and handlers."""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+
+from fastapi import FastAPI
+
+import analysis
+
+from .executor import Runner
+from .limits import BodyLimit
+from .problems import install_handlers
+from .routes import jobs, meta
+from .settings import Settings
+from .store import Store
+
+__all__ = ["create_app"]
+
+log = logging.getLogger("haarline.service")
+
+
+def create_app(settings: Settings | None = None, *, start_runner: bool = True) -> FastAPI:
+    """Build the service from settings (default: from ``HAARLINE_*`` variables)."""
+    settings = settings or Settings.from_env()
+    store = Store(settings.database)
+    store.initialize()
+    runner = Runner(settings, store)
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        if settings.dev_mode:
+            log.warning("DEVELOPMENT MODE: no API keys are checked; loopback only")
+        if start_runner:
+            runner.start()
+        yield
+        runner.stop()
+
+    app = FastAPI(
+        title="haarline",
+        version=analysis.__version__,
+        summary="Score parameterized quantum circuits: expressibility, entangling capability, "
+        "trainability and capacity.",
+        lifespan=lifespan,
+    )
+    app.state.settings, app.state.store, app.state.runner = settings, store, runner
+    install_handlers(app)
+    for router in (jobs.analyses, jobs.comparisons, meta.v1, meta.health):
+        app.include_router(router)
+    app.add_middleware(BodyLimit, limit=settings.max_body_bytes)
+    return app

@@ -1,0 +1,61 @@
+"""Dependencies of the routes, as ``Annotated`` aliases."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import Depends, HTTPException, Request
+from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
+
+from .executor import Runner
+from .keys import verify_key
+from .settings import Settings
+from .store import Store
+
+__all__ = ["CallerDep", "RunnerDep", "SettingsDep", "StoreDep"]
+
+DEV_OWNER = "dev"
+
+_bearer = HTTPBearer(auto_error=False, description="API key: `Authorization: Bearer hl_…`")
+
+
+def _settings(request: Request) -> Settings:
+    return request.app.state.settings  # type: ignore[no-any-return]
+
+
+def _store(request: Request) -> Store:
+    return request.app.state.store  # type: ignore[no-any-return]
+
+
+def _runner(request: Request) -> Runner:
+    return request.app.state.runner  # type: ignore[no-any-return]
+
+
+SettingsDep = Annotated[Settings, Depends(_settings)]
+StoreDep = Annotated[Store, Depends(_store)]
+RunnerDep = Annotated[Runner, Depends(_runner)]
+
+
+def _caller(
+    settings: SettingsDep,
+    store: StoreDep,
+    credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(_bearer)],
+) -> str:
+    if settings.dev_mode:
+        return DEV_OWNER
+    if credentials is None or credentials.scheme.lower() != "bearer":
+        raise HTTPException(
+            401,
+            "an API key is required: Authorization: Bearer hl_…",
+            headers={"WWW-Authenticate": "Bearer"},
+        )
+    key_id = verify_key(store, credentials.credentials)
+    if key_id is None:
+        raise HTTPException(
+            401, "the API key is not valid or was revoked", headers={"WWW-Authenticate": "Bearer"}
+        )
+    return key_id
+
+
+CallerDep = Annotated[str, Depends(_caller)]
+"""The id of the calling key (``dev`` in development mode)."""

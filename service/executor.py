@@ -1,0 +1,184 @@
+"""Runs queued jobs off the event loop: a local process pool, or a Dask cluster.
+
+A dispatcher thread moves queued jobs to ``running`` as workers free up and submits
+:func:`service.worker.execute_job` for each. A worker process that dies (killed, out of
+memory) fails its future: the job is queued again once, then failed with the reason, and
+the pool is rebuilt so the service keeps serving. On start-up, jobs that were running when
+the previous process died are queued again (:meth:`Store.requeue_interrupted`).
+"""
+
+from __future__ import annotations
+
+import logging
+import multiprocessing
+import threading
+from concurrent.futures import Future, ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
+from typing import Any
+
+from .settings import Settings
+from .store import Store, StoreUnavailable
+from .worker import execute_job, run_request
+
+__all__ = ["MAX_ATTEMPTS", "Runner"]
+
+log = logging.getLogger("haarline.executor")
+
+MAX_ATTEMPTS = 2
+"""Runs of one job before a dying worker makes it fail."""
+
+
+class Runner:
+    """Owns the compute pool and the dispatcher thread."""
+
+    def __init__(self, settings: Settings, store: Store):
+        self.settings = settings
+        self.store = store
+        self._lock = threading.Lock()
+        self._wake = threading.Event()
+        self._stop = threading.Event()
+        self._inflight: dict[str, Future[Any]] = {}
+        self._pool: ProcessPoolExecutor | None = None
+        self._dask: Any = None
+        self._thread: threading.Thread | None = None
+
+    # --- life cycle -------------------------------------------------------------------------
+
+    def start(self) -> None:
+        """Start the pool (or connect to Dask), requeue interrupted jobs, start dispatching."""
+        if self.settings.dask_scheduler:
+            from distributed import Client  # optional extra: pip install 'haarline[dask]'
+
+            self._dask = Client(self.settings.dask_scheduler, set_as_default=False)
+        else:
+            self._pool = self._new_pool()
+        self.store.requeue_interrupted()
+        self._thread = threading.Thread(target=self._loop, name="haarline-dispatch", daemon=True)
+        self._thread.start()
+        self._wake.set()
+
+    def stop(self) -> None:
+        """Stop dispatching and shut the pool down (running jobs are requeued next start)."""
+        self._stop.set()
+        self._wake.set()
+        if self._thread is not None:
+            self._thread.join(timeout=5)
+        if self._pool is not None:
+            self._pool.shutdown(wait=False, cancel_futures=True)
+        if self._dask is not None:
+            self._dask.close()
+
+    def alive(self) -> bool:
+        """Whether the dispatcher runs (for ``/readyz``)."""
+        return self._thread is not None and self._thread.is_alive()
+
+    def notify(self) -> None:
+        """Wake the dispatcher (a job was queued)."""
+        self._wake.set()
+
+    @property
+    def capacity(self) -> int:
+        """Jobs that may run at once."""
+        return self.settings.workers
+
+    # --- synchronous work for the score route ------------------------------------------------
+
+    def run_now(self, kind: str, request: dict[str, Any]) -> Future[Any]:
+        """Run a request in the pool without a stored job (small, synchronous work)."""
+        if self._dask is not None:
+            future = self._dask.submit(
+                run_request, kind, request, memory_budget=self.settings.memory_budget, pure=False
+            )
+            return _DaskFuture(future)
+        with self._lock:
+            pool = self._pool or self._new_pool()
+            self._pool = pool
+        return pool.submit(run_request, kind, request, memory_budget=self.settings.memory_budget)
+
+    # --- dispatching ------------------------------------------------------------------------
+
+    def _new_pool(self) -> ProcessPoolExecutor:
+        return ProcessPoolExecutor(
+            max_workers=self.settings.workers,
+            mp_context=multiprocessing.get_context("spawn"),
+        )
+
+    def _loop(self) -> None:
+        while not self._stop.is_set():
+            self._wake.wait(timeout=1.0)
+            self._wake.clear()
+            try:
+                self._dispatch()
+            except StoreUnavailable as exc:
+                log.warning("job store unavailable, retrying: %s", exc)
+            except Exception:  # keep dispatching whatever happens to one job
+                log.exception("dispatcher error")
+
+    def _dispatch(self) -> None:
+        with self._lock:
+            free = self.capacity - len(self._inflight)
+        if free <= 0:
+            return
+        for job_id in self.store.queued(free):
+            job = self.store.claim(job_id)
+            if job is None:
+                continue
+            future = self._submit(job_id)
+            with self._lock:
+                self._inflight[job_id] = future
+            future.add_done_callback(self._callback(job_id, job["attempts"] + 1))
+
+    def _callback(self, job_id: str, attempts: int) -> Any:
+        def done(future: Future[Any]) -> None:
+            self._done(job_id, attempts, future)
+
+        return done
+
+    def _submit(self, job_id: str) -> Future[Any]:
+        args = (str(self.store.path), job_id, self.settings.memory_budget)
+        if self._dask is not None:
+            return _DaskFuture(self._dask.submit(execute_job, *args, pure=False))
+        with self._lock:
+            assert self._pool is not None
+            return self._pool.submit(execute_job, *args)
+
+    def _done(self, job_id: str, attempts: int, future: Future[Any]) -> None:
+        with self._lock:
+            self._inflight.pop(job_id, None)
+        try:
+            exc = future.exception()
+        except Exception as err:  # cancelled future
+            exc = err
+        if exc is not None:
+            if isinstance(exc, BrokenProcessPool):
+                with self._lock:
+                    if self._pool is not None:
+                        self._pool.shutdown(wait=False, cancel_futures=True)
+                    self._pool = self._new_pool()
+                reason = "the worker process died (killed or out of memory)"
+            else:
+                reason = f"internal error: {type(exc).__name__}: {exc}"
+                log.error("job %s failed: %s", job_id, reason)
+            try:
+                if attempts < MAX_ATTEMPTS and isinstance(exc, BrokenProcessPool):
+                    self.store.mark(job_id, "queued", error=f"{reason}; retrying")
+                else:
+                    self.store.mark(job_id, "failed", error=reason)
+            except StoreUnavailable:
+                log.exception("could not record the failure of job %s", job_id)
+        self._wake.set()
+
+
+class _DaskFuture(Future):  # type: ignore[type-arg]
+    """Adapts a ``distributed.Future`` to :class:`concurrent.futures.Future`."""
+
+    def __init__(self, inner: Any):
+        super().__init__()
+        self._inner = inner
+        inner.add_done_callback(self._copy)
+
+    def _copy(self, inner: Any) -> None:
+        try:
+            self.set_result(inner.result())
+        except BaseException as exc:  # noqa: BLE001 - handed to the caller
+            self.set_exception(exc)

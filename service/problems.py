@@ -1,0 +1,181 @@
+"""Errors as RFC 9457 problem details (``application/problem+json``), in one place.
+
+=====================================  ======
+exception                              status
+=====================================  ======
+``CircuitError``, ``OptionError``,     422, with ``errors[].path`` (JSON path in the body)
+request validation
+``OverLimit`` (admission control)      422, with ``limit`` and ``estimate``
+``LimitError`` (memory budget)         422
+``StoreUnavailable``                   503, with ``Retry-After``
+``HTTPException``                      its own status
+anything else                          500 (logged; a bug)
+=====================================  ======
+"""
+
+from __future__ import annotations
+
+import logging
+from typing import Any
+
+from fastapi import FastAPI, HTTPException, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import JSONResponse
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+import analysis
+from analysis.circuit import validation_problems
+from analysis.errors import format_path
+from analysis.options import option_problems
+
+from .store import StoreUnavailable
+
+__all__ = ["PROBLEM_TYPE", "OverLimit", "install_handlers", "problem_response"]
+
+log = logging.getLogger("haarline.service")
+
+PROBLEM_TYPE = "https://haarline.invalid/problems/"
+_TITLES = {
+    400: "Bad request",
+    401: "Not authenticated",
+    403: "Forbidden",
+    404: "Not found",
+    405: "Method not allowed",
+    409: "Conflict",
+    413: "Request body too large",
+    415: "Unsupported media type",
+    422: "Invalid input",
+    429: "Too many jobs",
+    500: "Internal error",
+    503: "Service unavailable",
+}
+
+
+class OverLimit(Exception):
+    """Work whose estimated cost or memory exceeds a configured limit."""
+
+    def __init__(self, what: str, limit: float, estimate: float, hint: str):
+        self.what, self.limit, self.estimate, self.hint = what, limit, estimate, hint
+        super().__init__(f"estimated {what} {estimate:.3g} exceeds the limit {limit:.3g}; {hint}")
+
+
+def problem_response(
+    status: int,
+    detail: str,
+    *,
+    kind: str = "",
+    errors: list[dict[str, str]] | None = None,
+    headers: dict[str, str] | None = None,
+    instance: str | None = None,
+    **extra: Any,
+) -> JSONResponse:
+    """A problem+json response."""
+    body: dict[str, Any] = {
+        "type": PROBLEM_TYPE + kind if kind else "about:blank",
+        "title": _TITLES.get(status, "Error"),
+        "status": status,
+        "detail": detail,
+        "errors": errors or [],
+    }
+    if instance:
+        body["instance"] = instance
+    body.update({k: v for k, v in extra.items() if v is not None})
+    return JSONResponse(
+        body, status_code=status, headers=headers, media_type="application/problem+json"
+    )
+
+
+def _entries(problems: list[analysis.Problem], prefix: str = "") -> list[dict[str, str]]:
+    out = []
+    for p in problems:
+        path = p.path if not prefix else (prefix if p.path == "(root)" else f"{prefix}.{p.path}")
+        out.append({"path": path, "message": p.message})
+    return out
+
+
+def _request_problems(errors: list[dict[str, Any]]) -> list[dict[str, str]]:
+    """Field problems of a request body, translated with the models' own messages."""
+    out: list[dict[str, str]] = []
+    for err in errors:
+        loc = [x for x in err["loc"] if x != "body"]
+        # find the circuit or options sub-document (possibly inside circuits[i])
+        for i, part in enumerate(loc):
+            if part in ("circuit", "options") and i + 1 <= len(loc):
+                head, rest = loc[: i + 1], loc[i + 1 :]
+                sub = dict(err, loc=tuple(rest))
+                translated = (
+                    validation_problems([sub]) if part == "circuit" else option_problems([sub])
+                )
+                out += _entries(translated, format_path(tuple(head)))
+                break
+        else:
+            msg = str(err.get("msg", "invalid")).removeprefix("Value error, ")
+            out.append({"path": format_path(tuple(loc)), "message": msg})
+    return out
+
+
+def install_handlers(app: FastAPI) -> None:
+    """Map every exception to a problem response."""
+
+    @app.exception_handler(RequestValidationError)
+    async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
+        errors = _request_problems(list(exc.errors()))
+        detail = "; ".join(f"{e['path']}: {e['message']}" for e in errors[:5])
+        return problem_response(
+            422,
+            detail or "invalid request",
+            kind="invalid-input",
+            errors=errors,
+            instance=request.url.path,
+        )
+
+    @app.exception_handler(analysis.InputError)
+    async def _input(request: Request, exc: analysis.InputError) -> JSONResponse:
+        prefix = getattr(exc, "body_path", "")
+        errors = _entries(exc.problems, prefix)
+        detail = "; ".join(f"{e['path']}: {e['message']}" for e in errors[:5])
+        return problem_response(
+            422, detail, kind="invalid-input", errors=errors, instance=request.url.path
+        )
+
+    @app.exception_handler(analysis.LimitError)
+    async def _limit(request: Request, exc: analysis.LimitError) -> JSONResponse:
+        return problem_response(422, str(exc), kind="over-limit", instance=request.url.path)
+
+    @app.exception_handler(OverLimit)
+    async def _over(request: Request, exc: OverLimit) -> JSONResponse:
+        return problem_response(
+            422,
+            str(exc),
+            kind="over-limit",
+            limit=exc.limit,
+            estimate=exc.estimate,
+            instance=request.url.path,
+        )
+
+    @app.exception_handler(StoreUnavailable)
+    async def _store(request: Request, exc: StoreUnavailable) -> JSONResponse:
+        log.warning("store unavailable: %s", exc)
+        return problem_response(
+            503,
+            str(exc),
+            kind="store-unavailable",
+            headers={"Retry-After": "5"},
+            instance=request.url.path,
+        )
+
+    @app.exception_handler(StarletteHTTPException)
+    async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+        headers = dict(exc.headers) if exc.headers else None
+        return problem_response(
+            exc.status_code, str(exc.detail), headers=headers, instance=request.url.path
+        )
+
+    @app.exception_handler(Exception)
+    async def _bug(request: Request, exc: Exception) -> JSONResponse:
+        log.exception("unhandled error on %s", request.url.path)
+        return problem_response(
+            500, "internal error; it has been logged", instance=request.url.path
+        )
+
+    _ = HTTPException  # FastAPI's subclass is handled by the Starlette handler above

@@ -1,0 +1,1 @@
+"""The service's routers: jobs (analyses and comparisons), synchronous work, metadata."""

@@ -1,0 +1,125 @@
+"""Synchronous routes: score, check, schema, references, and health."""
+
+from __future__ import annotations
+
+import asyncio
+from typing import Any
+
+from fastapi import APIRouter, HTTPException
+from fastapi.responses import JSONResponse
+
+import analysis
+
+from ..admission import admit_analysis
+from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from ..schemas import AnalysisCreate, CheckCreate, ProblemDetail, ReferencePublic
+from ..store import StoreUnavailable
+from ..worker import circuit_of
+
+__all__ = ["health", "v1"]
+
+ERRORS: dict[int | str, dict[str, Any]] = {
+    code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
+    for code in (401, 413, 422, 503)
+}
+
+v1 = APIRouter(prefix="/v1", responses=ERRORS)
+health = APIRouter(tags=["health"])
+
+
+@v1.post(
+    "/score",
+    operation_id="scoreCircuit",
+    tags=["score"],
+    summary="Analyze a small circuit synchronously (under the score cost cap)",
+)
+async def score(
+    body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
+) -> Any:
+    request, _ = admit_analysis(body, settings, route="score")
+    future = runner.run_now("analysis", request)
+    report, _, _ = await asyncio.wrap_future(future)
+    return JSONResponse(report)
+
+
+@v1.post(
+    "/check",
+    operation_id="checkCircuit",
+    tags=["circuits"],
+    summary="Validate a description and return its static facts",
+)
+def check(body: CheckCreate, caller: CallerDep) -> Any:
+    spec = body.model_dump(mode="json", include={"circuit", "qasm", "reference"})
+    try:
+        circuit = circuit_of(spec)
+        program = analysis.expand(circuit, qubits=body.qubits, layers=body.layers)
+    except analysis.InputError as exc:
+        exc.body_path = "circuit" if body.circuit is not None else ""  # type: ignore[attr-defined]
+        raise
+    return analysis.facts(program)
+
+
+@v1.get(
+    "/schema",
+    operation_id="getCircuitSchema",
+    tags=["circuits"],
+    summary="JSON Schema of the circuit description, format 1",
+)
+def schema(caller: CallerDep) -> Any:
+    return analysis.circuit_schema()
+
+
+@v1.get(
+    "/references",
+    response_model=list[ReferencePublic],
+    operation_id="listReferences",
+    tags=["circuits"],
+    summary="The bundled reference circuits",
+)
+def references(caller: CallerDep) -> Any:
+    out = []
+    for name in analysis.reference_names():
+        c = analysis.load_reference(name)
+        out.append(
+            ReferencePublic(
+                name=name,
+                qubits=c.qubits,
+                layers=c.layers,
+                parameters=analysis.expand(c).parameters,
+                description=c.description or "",
+            )
+        )
+    return out
+
+
+@v1.get(
+    "/references/{name}",
+    operation_id="getReference",
+    tags=["circuits"],
+    summary="One bundled reference circuit (its description)",
+)
+def reference(name: str, caller: CallerDep) -> Any:
+    if name not in analysis.reference_names():
+        raise HTTPException(404, f"no reference circuit {name!r}; see /v1/references")
+    return analysis.load_reference(name).model_dump(mode="json", exclude_none=True)
+
+
+@health.get("/healthz", operation_id="health", summary="The process is up (no key needed)")
+def healthz() -> dict[str, str]:
+    return {"status": "ok"}
+
+
+@health.get(
+    "/readyz",
+    operation_id="ready",
+    summary="The job store and the dispatcher work (no key needed)",
+    responses={503: {"model": ProblemDetail}},
+)
+def readyz(store: StoreDep, runner: RunnerDep) -> Any:
+    try:
+        store.ping()
+    except StoreUnavailable as exc:
+        raise HTTPException(503, str(exc)) from None
+    if not runner.alive():
+        raise HTTPException(503, "the job dispatcher is not running")
+    return {"status": "ready"}

@@ -1,0 +1,164 @@
+"""Request and response bodies of the REST service, suffixed by role."""
+
+from __future__ import annotations
+
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from analysis import AnalysisOptions, Circuit
+
+__all__ = [
+    "AnalysisCreate",
+    "CheckCreate",
+    "CircuitSource",
+    "CompareCreate",
+    "EventPublic",
+    "JobLinks",
+    "JobPublic",
+    "ProblemDetail",
+    "ProblemEntry",
+    "ProgressPublic",
+    "ReferencePublic",
+    "job_public",
+]
+
+MAX_QASM_CHARS = 1_000_000
+
+
+class CircuitSource(BaseModel):
+    """Exactly one of: a format-1 description, an OpenQASM 3 program, or a reference name."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    circuit: Circuit | None = Field(default=None, description="A format-1 description.")
+    qasm: str | None = Field(
+        default=None, max_length=MAX_QASM_CHARS, description="An OpenQASM 3 program."
+    )
+    reference: str | None = Field(
+        default=None,
+        max_length=100,
+        description="Name of a bundled reference circuit (see GET /v1/references).",
+    )
+
+    @model_validator(mode="after")
+    def _exactly_one(self) -> CircuitSource:
+        given = [k for k in ("circuit", "qasm", "reference") if getattr(self, k) is not None]
+        if len(given) != 1:
+            raise ValueError(
+                "give exactly one of 'circuit', 'qasm' or 'reference'"
+                + (f" (got {', '.join(given)})" if given else "")
+            )
+        return self
+
+
+class AnalysisCreate(CircuitSource):
+    """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
+
+    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+
+
+class CompareCreate(BaseModel):
+    """Body of ``POST /v1/comparisons``."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    circuits: list[CircuitSource] = Field(min_length=2, max_length=20)
+    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+
+
+class CheckCreate(CircuitSource):
+    """Body of ``POST /v1/check``: a description, optionally at another size."""
+
+    qubits: int | None = Field(default=None, ge=1, le=24)
+    layers: int | None = Field(default=None, ge=1, le=10_000)
+
+
+class ProgressPublic(BaseModel):
+    """How far a job is."""
+
+    fraction: float = Field(ge=0, le=1)
+    stage: str
+
+
+class EventPublic(BaseModel):
+    """One state change of a job."""
+
+    state: str
+    at: float
+    detail: str | None = None
+
+
+class JobLinks(BaseModel):
+    """Where a job's outputs are."""
+
+    self: str
+    report: str
+    summary: str
+    plots: str
+
+
+class JobPublic(BaseModel):
+    """A job as its owner sees it."""
+
+    id: str
+    kind: Literal["analysis", "compare"]
+    state: Literal["queued", "running", "succeeded", "failed", "cancelled"]
+    progress: ProgressPublic
+    cached: bool = Field(description="Answered from the stored result of an identical request.")
+    error: str | None = None
+    attempts: int
+    created: float
+    updated: float
+    events: list[EventPublic] = Field(default_factory=list)
+    links: JobLinks
+
+
+class ReferencePublic(BaseModel):
+    """A bundled reference circuit."""
+
+    name: str
+    qubits: int
+    layers: int
+    parameters: int
+    description: str
+
+
+class ProblemEntry(BaseModel):
+    """One field problem."""
+
+    path: str
+    message: str
+
+
+class ProblemDetail(BaseModel):
+    """RFC 9457 problem details, with the field paths of validation problems."""
+
+    type: str = "about:blank"
+    title: str
+    status: int
+    detail: str
+    instance: str | None = None
+    errors: list[ProblemEntry] = Field(default_factory=list)
+    limit: float | None = None
+    estimate: float | None = None
+
+
+def job_public(job: dict[str, Any], base: str) -> JobPublic:
+    """Render a stored job for its owner, with links under ``base``."""
+    root = f"{base}/{job['id']}"
+    return JobPublic(
+        id=job["id"],
+        kind=job["kind"],
+        state=job["state"],
+        progress=ProgressPublic(fraction=job["fraction"], stage=job["stage"]),
+        cached=job["cached"],
+        error=job["error"] if job["state"] != "succeeded" else None,
+        attempts=job["attempts"],
+        created=job["created"],
+        updated=job["updated"],
+        events=[EventPublic(**e) for e in job.get("events", [])],
+        links=JobLinks(
+            self=root, report=f"{root}/report", summary=f"{root}/summary", plots=f"{root}/plots"
+        ),
+    )

@@ -1,0 +1,130 @@
+"""The unit of work that runs in a worker process (or on a Dask worker).
+
+:func:`execute_job` takes only the database path and the job id, reads the stored request,
+runs the analysis, and writes progress and the result back to the store itself. It needs
+nothing from the parent process, so the same function runs in a local process pool or on
+a Dask cluster that shares the data directory, and a job that was running when the
+service died can simply be run again: its seed makes the result identical.
+"""
+
+from __future__ import annotations
+
+import time
+from typing import Any
+
+import analysis
+
+from .store import Store
+
+__all__ = ["JobCancelled", "execute_job", "run_request"]
+
+PROGRESS_INTERVAL = 0.25
+"""Seconds between progress writes (and cancel checks)."""
+
+
+class JobCancelled(Exception):
+    """Raised inside the analysis when the job's cancel flag is seen."""
+
+
+def _stages(kind: str, request: dict[str, Any]) -> int:
+    """How many progress stages the analysis will report (for the overall fraction)."""
+    options = request.get("options", {})
+    metrics = options.get("metrics") or ["expressibility", "entanglement"]
+    per = sum(m in metrics for m in ("expressibility", "entanglement"))
+    count = per
+    if "trainability" in metrics:
+        count += len(options.get("scan") or [0, 0, 0, 0]) + len(options.get("depth_scan") or [])
+    count += per * len(options.get("layers_sweep") or [])
+    circuits = len(request.get("circuits", [None])) if kind == "compare" else 1
+    return max(1, count * circuits)
+
+
+def circuit_of(spec: dict[str, Any]) -> analysis.Circuit:
+    """The description from a request entry: ``circuit``, ``qasm`` or ``reference``."""
+    if spec.get("circuit") is not None:
+        return analysis.parse_circuit(spec["circuit"])
+    if spec.get("reference"):
+        return analysis.load_reference(spec["reference"])
+    if spec.get("qasm") is not None:
+        parse_qasm = getattr(analysis, "parse_qasm", None)
+        if parse_qasm is None:
+            raise analysis.CircuitError(
+                [analysis.Problem("qasm", "OpenQASM input is not available in this version")]
+            )
+        return parse_qasm(spec["qasm"], source="qasm")
+    raise analysis.CircuitError([analysis.Problem("(root)", "no circuit given")])
+
+
+def run_request(
+    kind: str,
+    request: dict[str, Any],
+    *,
+    memory_budget: int,
+    progress: Any = None,
+) -> tuple[dict[str, Any], str, dict[str, bytes]]:
+    """Run one stored request; return (report or comparison, Markdown, PNGs)."""
+    options = analysis.AnalysisOptions.model_validate(request.get("options", {}))
+    if kind == "compare":
+        reports, sources = [], []
+        for i, spec in enumerate(request["circuits"]):
+            circuit = circuit_of(spec)
+            reports.append(
+                analysis.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
+            )
+            sources.append(spec.get("reference") or f"circuits[{i}]")
+        result = analysis.compare_reports(reports, sources)
+        images: dict[str, bytes] = {}
+        plot = getattr(analysis, "comparison_png", None)
+        if plot is not None:
+            images["comparison.png"] = plot(reports)
+        links = [f"plots/{name}" for name in sorted(images)]
+        return result, analysis.compare_markdown(result, images=links), images
+    circuit = circuit_of(request)
+    report = analysis.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
+    plot_files = getattr(analysis, "plot_files", None)
+    images = plot_files(report, analysis.expand(circuit)) if plot_files is not None else {}
+    # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
+    links = [f"plots/{name}" for name in sorted(images)]
+    return report, analysis.to_markdown(report, images=links), images
+
+
+def execute_job(database: str, job_id: str, memory_budget: int) -> str:
+    """Run a claimed job to its end; return its final state."""
+    store = Store(database)
+    job = store.get_job(job_id)
+    if job is None or job["state"] != "running":
+        return "skipped"
+    kind, request = job["kind"], job["request"]
+    total = _stages(kind, request)
+    seen: list[str] = []
+    last = [0.0]
+
+    def progress(stage: str, done: int, count: int) -> None:
+        if not seen or seen[-1] != stage:
+            seen.append(stage)
+        now = time.monotonic()
+        if now - last[0] < PROGRESS_INTERVAL and done < count:
+            return
+        last[0] = now
+        frac = min(1.0, (len(seen) - 1 + (done / count if count else 1.0)) / total)
+        if store.set_progress(job_id, round(frac, 4), stage):
+            raise JobCancelled
+
+    try:
+        result, markdown, images = run_request(
+            kind, request, memory_budget=memory_budget, progress=progress
+        )
+    except JobCancelled:
+        store.mark(job_id, "cancelled", error="cancelled on request")
+        return "cancelled"
+    except (analysis.InputError, analysis.LimitError) as exc:
+        store.mark(job_id, "failed", error=str(exc))
+        return "failed"
+    except MemoryError:
+        store.mark(job_id, "failed", error="out of memory; lower the sample counts or qubits")
+        return "failed"
+    if store.get_job(job_id) and store.set_progress(job_id, 1.0, "storing"):
+        store.mark(job_id, "cancelled", error="cancelled on request")
+        return "cancelled"
+    store.finish(job_id, report=result, markdown=markdown, artifacts=images)
+    return "succeeded"
