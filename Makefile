@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 DEMO   := examples/ring-classifier.json
 
-.PHONY: run test lint bench clean install install-test
+.PHONY: run demo test lint openapi bench clean install install-test
 
 $(BIN)/python:
 	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "haarline needs Python 3.11 or newer")'
@@ -26,8 +26,12 @@ $(VENV)/.lint: pyproject.toml | $(BIN)/python
 install: $(VENV)/.core
 install-test: $(VENV)/.test
 
-## run: analyze the bundled demo circuit and print its summary
+## run: start the REST service on 127.0.0.1:8000 (development mode: loopback, no keys)
 run: $(VENV)/.core
+	$(BIN)/haarline serve --dev --data-dir data
+
+## demo: analyze the bundled demo circuit on the command line and print its summary
+demo: $(VENV)/.core
 	$(BIN)/haarline analyze $(DEMO) --metrics expressibility,entanglement,trainability,capacity
 
 ## test: the whole suite (what CI runs)
@@ -39,6 +43,10 @@ lint: $(VENV)/.lint
 	$(BIN)/ruff check analysis service tests
 	$(BIN)/ruff format --check analysis service tests
 	$(BIN)/mypy
+
+## openapi: re-export openapi-notes/openapi.json from the app
+openapi: $(VENV)/.core
+	$(BIN)/python -m service.openapi_export
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info

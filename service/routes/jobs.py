@@ -165,7 +165,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     @router.get(
         "/{job_id}/report",
         operation_id=f"get{title}Report",
-        summary="The report JSON (report_format 1)",
+        summary="The report JSON (report_format 1)"
+        if kind == "analysis"
+        else "The comparison JSON (compare_format 1): ranking and reports",
         response_class=JSONResponse,
     )
     def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
