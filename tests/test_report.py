@@ -182,6 +182,7 @@ def test_public_api_is_complete():
 
 
 _MODULE_ONLY = {
+    "option_problems",
     "decode_text",
     "check_metrics",
     "Rule",

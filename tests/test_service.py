@@ -132,7 +132,8 @@ def test_revoked_key_is_401(quiet):
 def test_keys_are_stored_only_as_hashes(quiet, tmp_path):
     _, key = issue_key(quiet.app.state.store, "dave")
     raw = (tmp_path / "data" / "haarline.sqlite3").read_bytes()
-    assert key.encode() not in raw and key.split("_")[2].encode() not in raw
+    secret = key[len("hl_") + 12 + 1 :]
+    assert key.encode() not in raw and secret.encode() not in raw
 
 
 @pytest.mark.parametrize(
@@ -283,3 +284,21 @@ def test_dev_mode_refuses_a_public_address(tmp_path):
 
     with pytest.raises(SettingsError, match="loopback"):
         Settings.from_env({}, data_dir=str(tmp_path), dev_mode=True, host="0.0.0.0")
+
+
+def test_keys_commands(tmp_path, capsys):
+    from service import cli
+    from service.keys import verify_key
+
+    data = str(tmp_path / "keys")
+    assert cli.main(["keys", "--data-dir", data, "add", "review-bot"]) == 0
+    key = capsys.readouterr().out.strip()
+    store = Store(tmp_path / "keys" / "haarline.sqlite3")
+    key_id = verify_key(store, key)
+    assert key_id is not None
+    assert cli.main(["keys", "--data-dir", data, "list"]) == 0
+    listing = capsys.readouterr().out
+    assert key_id in listing and "active" in listing and key not in listing
+    assert cli.main(["keys", "--data-dir", data, "revoke", key_id]) == 0
+    assert verify_key(store, key) is None
+    assert cli.main(["keys", "--data-dir", data, "revoke", key_id]) == 2
