@@ -17,7 +17,9 @@ from ._version import __version__
 from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
 from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .compare import compare_markdown, compare_reports
+from .comparison_plot import comparison_png, comparison_series
 from .cost import Estimate, estimate
+from .diagram import circuit_diagram_png, diagram_layout
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
@@ -34,11 +36,19 @@ from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar
 from .loading import load_circuit, parse_circuit_text
 from .observables import NAMED_COSTS, Observable, make_observable
 from .options import METRICS, AnalysisOptions, parse_options
+from .plots import (
+    fidelity_histogram_png,
+    fidelity_series,
+    meyer_wallach_png,
+    meyer_wallach_series,
+    plot_files,
+)
 from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from .program import Operation, Program, expand, facts, placement
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
 from .sampling import Stream, draw_angles
+from .scan_plots import sweep_png, sweep_series, variance_scan_png, variance_series
 from .summary import to_markdown, to_text
 from .trainability import Trainability, VariancePoint, trainability
 
@@ -75,11 +85,15 @@ __all__ = [
     "adjoint_gradients",
     "analyze",
     "capacity",
+    "circuit_diagram_png",
     "circuit_schema",
     "compare_markdown",
     "compare_reports",
+    "comparison_png",
+    "comparison_series",
     "compile_program",
     "cost_values",
+    "diagram_layout",
     "divergence_from_haar",
     "draw_angles",
     "entangling_capability",
@@ -89,6 +103,8 @@ __all__ = [
     "expressibility",
     "facts",
     "fidelities",
+    "fidelity_histogram_png",
+    "fidelity_series",
     "gate_matrix",
     "haar_bin_log_masses",
     "haar_bin_masses",
@@ -100,11 +116,14 @@ __all__ = [
     "lookup",
     "make_observable",
     "meyer_wallach",
+    "meyer_wallach_png",
+    "meyer_wallach_series",
     "parse_circuit",
     "parse_circuit_text",
     "parse_options",
     "parse_policy",
     "placement",
+    "plot_files",
     "plugin_bias",
     "quantum_fisher",
     "qubit_purities",
@@ -113,8 +132,12 @@ __all__ = [
     "run",
     "shift_gradients",
     "state_jacobian",
+    "sweep_png",
+    "sweep_series",
     "to_markdown",
     "to_text",
     "trainability",
+    "variance_scan_png",
+    "variance_series",
     "zero_states",
 ]

@@ -19,6 +19,7 @@ lives in :mod:`analysis.loading`.
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping, Sequence
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, StrictBool, StrictInt, ValidationError
@@ -247,13 +248,13 @@ def _model_fields(loc: tuple[str | int, ...]) -> list[str]:
     return list(model.model_fields)
 
 
-def validation_problems(exc: ValidationError | list[dict[str, Any]]) -> list[Problem]:
+def validation_problems(exc: ValidationError | Sequence[Mapping[str, Any]]) -> list[Problem]:
     """Translate a pydantic ``ValidationError`` (or its error list) into path-naming problems.
 
     Locations are relative to the :class:`Circuit` model.
     """
     problems: list[Problem] = []
-    errors = exc if isinstance(exc, list) else exc.errors(include_url=False)
+    errors = exc.errors(include_url=False) if isinstance(exc, ValidationError) else exc
     for err in errors:
         loc = tuple(err["loc"])
         kind = err["type"]
@@ -290,7 +291,7 @@ def validation_problems(exc: ValidationError | list[dict[str, Any]]) -> list[Pro
             word = "at least" if kind == "string_too_short" else "at most"
             bound = ctx.get("min_length") if kind == "string_too_short" else ctx.get("max_length")
             msg = (
-                f"got {_describe(value)} ({len(value)} characters); expected {word} "
+                f"got {_describe(value)} ({len(str(value))} characters); expected {word} "
                 f"{bound} character{'s' if bound != 1 else ''}"
             )
         elif kind == "string_unicode":

@@ -53,9 +53,13 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
 
     def batch_memory(qubits: int, copies: int = 1) -> int:
         rows = rows_per_chunk(qubits, memory_budget)
-        return WORK_FACTOR * copies * min(rows, max(1, CHUNK_AMPLITUDES >> qubits)) * (
-            1 << qubits
-        ) * _BYTES
+        return (
+            WORK_FACTOR
+            * copies
+            * min(rows, max(1, CHUNK_AMPLITUDES >> qubits))
+            * (1 << qubits)
+            * _BYTES
+        )
 
     metrics = set(options.metrics)
     if "expressibility" in metrics:
@@ -67,9 +71,11 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
     if "trainability" in metrics:
         scan = options.scan
         if scan is None:
-            scan = list(DEFAULT_SCAN) if uses_only_patterns(circuit) and isinstance(
-                options.cost, str
-            ) else [circuit.qubits]
+            scan = (
+                list(DEFAULT_SCAN)
+                if uses_only_patterns(circuit) and isinstance(options.cost, str)
+                else [circuit.qubits]
+            )
         sizes = []
         for q in scan:
             layers = (

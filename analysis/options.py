@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, ValidationError, field_validator
@@ -185,7 +186,7 @@ def parse_options(data: dict, *, names: dict[str, str] | None = None) -> Analysi
 
 
 def option_problems(
-    errors: list[dict[str, Any]], names: dict[str, str] | None = None
+    errors: Sequence[Mapping[str, Any]], names: dict[str, str] | None = None
 ) -> list[Problem]:
     """Translate pydantic errors of :class:`AnalysisOptions` (locations relative to it)."""
     names = names or {}

@@ -220,7 +220,8 @@ def _resolve(report: dict[str, Any], path: str) -> tuple[Any, Any]:
 
 def _interval_of(parent: Any, path: str) -> tuple[float, float] | None:
     name = path.split(".")[-1]
-    name = _SEGMENT.fullmatch(name).group(1) if _SEGMENT.fullmatch(name) else name
+    m = _SEGMENT.fullmatch(name)
+    name = m.group(1) if m else name
     if not isinstance(parent, dict):
         return None
     for key in (f"{name}_interval", "interval"):

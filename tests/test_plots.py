@@ -1,0 +1,450 @@
+"""Plots: the drawn series equal the report's numbers; PNGs decode, are 900 px wide and
+byte-identical for the same input; missing data raises ValueError naming the key.
+
+Following the house rule, plots are tested on the data they draw, not on pixels. The
+reference values below are derived in the tests: the exact Haar fidelity law
+P(F) = (N-1)(1-F)^(N-2) (Zyczkowski & Sommers, J. Phys. A 34, 7111, 2001) integrated
+over equal bins, and the Haar Meyer-Wallach mean (2^n - 2)/(2^n + 1) (Brennen, Quantum
+Inf. Comput. 3, 619, 2003).
+"""
+
+import ast
+import copy
+import io
+import math
+import struct
+from pathlib import Path
+
+import matplotlib
+import matplotlib.image
+import numpy as np
+import pytest
+
+import analysis
+from analysis import _plotdata, _plotstyle
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+PX_PER_METRE_150_DPI = round(150 / 0.0254)  # 5906, the pHYs value of a 150 dpi PNG
+
+
+# ----------------------------------------------------------------------------- fixtures
+
+
+@pytest.fixture(scope="module")
+def circuit():
+    return analysis.load_reference("ry-cz-ring")
+
+
+@pytest.fixture(scope="module")
+def program(circuit):
+    return analysis.expand(circuit)
+
+
+@pytest.fixture(scope="module")
+def report(circuit):
+    """Every metric, a qubit scan, a depth scan and a layer sweep, at small sample sizes."""
+    options = analysis.AnalysisOptions(
+        metrics=["expressibility", "entanglement", "trainability", "capacity"],
+        pairs=300,
+        bins=40,
+        samples=120,
+        grad_samples=12,
+        scan=[2, 3, 4],
+        depth_scan=[1, 2],
+        layers_sweep=[1, 2],
+        seed=5,
+    )
+    return analysis.analyze(circuit, options)
+
+
+@pytest.fixture(scope="module")
+def one_qubit_report():
+    c = analysis.parse_circuit(
+        {"name": "single", "qubits": 1, "layers": 2, "layer": [{"gate": "rx"}, {"gate": "rz"}]}
+    )
+    options = analysis.AnalysisOptions(pairs=200, bins=20, samples=50, layers_sweep=[1, 2])
+    return analysis.analyze(c, options)
+
+
+@pytest.fixture(scope="module")
+def files(report, program):
+    return analysis.plot_files(report, program)
+
+
+def png_chunks(png):
+    assert png[:8] == PNG_SIGNATURE
+    chunks, i = [], 8
+    while i < len(png):
+        (length,) = struct.unpack(">I", png[i : i + 4])
+        chunks.append((png[i + 4 : i + 8], png[i + 8 : i + 8 + length]))
+        i += 12 + length
+    return chunks
+
+
+def decoded(png):
+    return matplotlib.image.imread(io.BytesIO(png), format="png")
+
+
+# ------------------------------------------------------------------------------- series
+
+
+def test_fidelity_series_is_the_report_histogram(report):
+    s = analysis.fidelity_series(report)
+    expr = report["expressibility"]
+    assert s["name"] == "ry-cz-ring"
+    np.testing.assert_array_equal(s["circuit"], expr["histogram"])
+    np.testing.assert_array_equal(s["haar"], expr["haar"])
+    np.testing.assert_allclose(s["edges"], np.linspace(0, 1, 41))
+    assert (s["kl"], s["interval"], s["bias"]) == (
+        expr["kl"],
+        tuple(expr["interval"]),
+        expr["bias"],
+    )
+    assert s["pairs"] == 300 and s["bins"] == 40 and s["qubits"] == 4
+    assert s["floor"] == pytest.approx(0.5 / 300)
+    assert s["circuit"].sum() == pytest.approx(1.0)
+
+
+@pytest.mark.parametrize("qubits", [1, 4])
+def test_log_panel_follows_the_span_of_the_exact_haar_masses(report, one_qubit_report, qubits):
+    # Haar bin masses from the CDF 1 - (1-F)^(N-1): the first bin holds 1 - (1-1/K)^(N-1),
+    # the last (1/K)^(N-1); for one qubit (N = 2) every bin holds 1/K.
+    r = report if qubits == 4 else one_qubit_report
+    s = analysis.fidelity_series(r)
+    n_dim, k = 2**qubits, s["bins"]
+    first, last = 1 - (1 - 1 / k) ** (n_dim - 1), (1 / k) ** (n_dim - 1)
+    assert s["haar"][0] == pytest.approx(first) and s["haar"][-1] == pytest.approx(last)
+    assert s["log_panel"] == (math.log10(first / last) > analysis.plots.LOG_PANEL_DECADES)
+    assert s["log_panel"] == (qubits == 4)
+
+
+def test_meyer_wallach_series_is_the_report_distribution(report):
+    s = analysis.meyer_wallach_series(report)
+    ent = report["entanglement"]
+    np.testing.assert_array_equal(s["fractions"], ent["distribution"])
+    np.testing.assert_allclose(s["edges"], np.linspace(0, 1, 21))
+    assert s["mean"] == ent["meyer_wallach"] and s["interval"] == tuple(ent["interval"])
+    assert s["samples"] == 120 and s["std"] == ent["std"]
+    assert s["haar"] == pytest.approx((2**4 - 2) / (2**4 + 1))
+
+
+def test_variance_series_is_the_report_scan_and_its_fits(report):
+    s = analysis.variance_series(report)
+    train = report["trainability"]
+    for key, rows in (("points", train["points"]), ("layer_points", train["layer_points"])):
+        np.testing.assert_array_equal(s[key]["qubits"], [p["qubits"] for p in rows])
+        np.testing.assert_array_equal(s[key]["layers"], [p["layers"] for p in rows])
+        np.testing.assert_array_equal(s[key]["variance"], [p["variance"] for p in rows])
+        np.testing.assert_array_equal(s[key]["low"], [p["interval"][0] for p in rows])
+        np.testing.assert_array_equal(s[key]["high"], [p["interval"][1] for p in rows])
+    exp, power = s["fits"]["exponential"], s["fits"]["power"]
+    n = exp["qubits"]
+    assert n[0] == 2 and n[-1] == 4
+    fe, fp = train["fit"]["exponential"], train["fit"]["power"]
+    np.testing.assert_allclose(exp["variance"], np.exp(fe["intercept"]) * np.exp(fe["slope"] * n))
+    np.testing.assert_allclose(power["variance"], np.exp(fp["intercept"]) * n ** fp["slope"])
+    assert s["barren_plateau"] is train["barren_plateau"] and s["reason"] == train["reason"]
+    assert s["cost"] == "global cost" and s["samples"] == 12
+
+
+def test_variance_series_without_fit_or_layer_points(report):
+    r = copy.deepcopy(report)
+    r["trainability"]["fit"] = None
+    r["trainability"]["layer_points"] = []
+    s = analysis.variance_series(r)
+    assert s["fits"] == {} and s["layer_points"]["qubits"].size == 0
+
+
+def test_sweep_series_is_the_report_rows(report):
+    s = analysis.sweep_series(report)
+    rows = report["sweep"]
+    np.testing.assert_array_equal(s["layers"], [1, 2])
+    np.testing.assert_array_equal(s["kl"]["value"], [r["kl"] for r in rows])
+    np.testing.assert_array_equal(s["kl"]["low"], [r["kl_interval"][0] for r in rows])
+    np.testing.assert_array_equal(s["kl"]["bias"], [r["bias"] for r in rows])
+    mw = s["meyer_wallach"]
+    np.testing.assert_array_equal(mw["value"], [r["meyer_wallach"] for r in rows])
+    np.testing.assert_array_equal(mw["high"], [r["meyer_wallach_interval"][1] for r in rows])
+    assert mw["haar"] == pytest.approx(14 / 17)
+    assert (s["pairs"], s["samples"], s["qubits"]) == (300, 120, 4)
+
+
+def test_sweep_series_without_entanglement_uses_the_haar_formula(report):
+    r = copy.deepcopy(report)
+    r["entanglement"] = None
+    for row in r["sweep"]:
+        row.pop("kl"), row.pop("kl_interval")
+    s = analysis.sweep_series(r)
+    assert s["kl"] is None and s["meyer_wallach"]["haar"] == pytest.approx(14 / 17)
+
+
+def test_comparison_series_labels_repeats_apart(report, one_qubit_report):
+    other = copy.deepcopy(report)
+    other["circuit"]["layers"] = 5
+    entries = analysis.comparison_series([report, other, report, one_qubit_report])
+    assert [e["label"] for e in entries] == [
+        "ry-cz-ring (3 layers) #1",
+        "ry-cz-ring (5 layers)",
+        "ry-cz-ring (3 layers) #2",
+        "single",
+    ]
+    first = entries[0]
+    assert first["kl"] == report["expressibility"]["kl"]
+    assert first["meyer_wallach_interval"] == tuple(report["entanglement"]["interval"])
+    np.testing.assert_array_equal(
+        first["variance"]["variance"], [p["variance"] for p in report["trainability"]["points"]]
+    )
+    assert entries[3]["variance"] is None and entries[3]["kl"] is not None
+
+
+# ------------------------------------------------------------------------------ diagram
+
+
+def greedy_steps(program):
+    """Depth rule of analysis.program.facts, written out again: one step after the latest
+    gate on any of the gate's qubits."""
+    level, steps = [0] * program.qubits, []
+    for op in program.operations:
+        t = 1 + max(level[q] for q in op.qubits)
+        for q in op.qubits:
+            level[q] = t
+        steps.append(t)
+    return steps
+
+
+ZOO = {
+    "name": "zoo",
+    "qubits": 4,
+    "layers": 2,
+    "prepare": [{"gate": "h"}, {"gate": "rz", "on": [1], "angle": 0.5}],
+    "layer": [
+        {"gate": "rzz", "on": [[0, 2], [1, 3]]},
+        {"gate": "crx", "on": "chain"},
+        {"gate": "cy", "on": [[3, 0]]},
+        {"gate": "swap", "on": [[1, 2]]},
+        {"gate": "cx", "on": [[2, 0]]},
+        {"gate": "ryy", "on": [[2, 3]], "angle": 0.25},
+    ],
+    "finish": [{"gate": "ry", "on": [0, 3], "param": "beta"}],
+}
+
+
+@pytest.mark.parametrize(
+    "source", ["ry-cz-ring", "sim2019-05", "ry-cx-bricks", "zz-x-ring", "rx-product", "zoo"]
+)
+def test_diagram_layout_places_every_gate_in_its_greedy_step(source):
+    c = analysis.parse_circuit(ZOO) if source == "zoo" else analysis.load_reference(source)
+    program = analysis.expand(c)
+    lay = analysis.diagram_layout(program, max_columns=1000)
+    gates = lay["gates"]
+    assert [g["index"] for g in gates] == list(range(len(program.operations)))
+    assert [g["step"] for g in gates] == greedy_steps(program)
+    assert lay["depth"] == analysis.facts(program)["depth"]
+    assert lay["hidden_gates"] == 0 and lay["note"] == ""
+    for g, op in zip(gates, program.operations, strict=True):
+        assert g["qubits"] == op.qubits
+        assert lay["step_columns"][g["step"]] <= g["column"] < lay["columns"]
+        if op.param is not None:
+            assert g["angle"] == f"θ{op.param}"
+        elif op.angle is not None:
+            assert g["angle"] == f"{op.angle:.2f}"
+    # nothing drawn over anything: gates sharing a column cover disjoint wire ranges
+    by_column = {}
+    for g in gates:
+        span = set(range(min(g["qubits"]), max(g["qubits"]) + 1))
+        assert not by_column.get(g["column"], set()) & span
+        by_column.setdefault(g["column"], set()).update(span)
+    # a separator has only earlier parts on its left and later parts on its right
+    for b in lay["separators"]:
+        left = {g["part"] for g in gates if g["column"] < b}
+        right = {g["part"] for g in gates if g["column"] >= b}
+        assert max(left) < min(right)
+
+
+def test_diagram_layout_of_the_zoo_spreads_crossing_gates():
+    program = analysis.expand(analysis.parse_circuit(ZOO))
+    lay = analysis.diagram_layout(program)
+    assert lay["total_columns"] > lay["depth"]  # rzz (0,2) and (1,3) share a step
+    names = {(g["gate"], g["name"], g["angle"]) for g in lay["gates"]}
+    assert ("crx", "rx", "θ2") in names and ("cy", "y", "") in names
+    assert ("ryy", "ryy", "0.25") in names and ("rz", "rz", "0.50") in names
+
+
+def test_diagram_layout_cuts_wide_programs_at_a_layer_end():
+    program = analysis.expand(analysis.load_reference("rx-product"), layers=30)
+    lay = analysis.diagram_layout(program, max_columns=18)
+    assert lay["columns"] == 18 and lay["total_columns"] == 30
+    assert len(lay["gates"]) == 18 * 4 and lay["hidden_gates"] == 12 * 4
+    assert lay["hidden_layers"] == 12 and lay["hidden_steps"] == 12
+    assert lay["note"].startswith("… 12 more layers not drawn in full (layers 19–30")
+    assert [p["label"] for p in lay["parts"]][-1] == "layer 18"
+
+
+def test_diagram_layout_rejects_no_room():
+    with pytest.raises(ValueError, match="max_columns must be at least 1, got 0"):
+        analysis.diagram_layout(analysis.expand(analysis.parse_circuit(ZOO)), max_columns=0)
+
+
+# --------------------------------------------------------------------------------- PNGs
+
+
+def test_plot_files_has_every_plot_the_report_supports(files):
+    assert list(files) == [
+        "fidelity.png",
+        "entanglement.png",
+        "trainability.png",
+        "sweep.png",
+        "circuit.png",
+    ]
+
+
+@pytest.mark.parametrize(
+    "name", ["fidelity.png", "entanglement.png", "trainability.png", "sweep.png", "circuit.png"]
+)
+def test_each_png_decodes_at_900_px_and_150_dpi_without_metadata(files, name):
+    png = files[name]
+    image = decoded(png)
+    height, width, _ = image.shape
+    assert abs(width - 900) <= 3 and 300 <= height <= 1400
+    chunks = png_chunks(png)
+    assert [t for t, _ in chunks if t not in (b"IDAT",)] == [b"IHDR", b"pHYs", b"IEND"]
+    phys = dict(chunks)[b"pHYs"]
+    assert struct.unpack(">IIB", phys) == (PX_PER_METRE_150_DPI, PX_PER_METRE_150_DPI, 1)
+
+
+@pytest.mark.parametrize(
+    ("name", "draw"),
+    [
+        ("fidelity.png", analysis.fidelity_histogram_png),
+        ("trainability.png", analysis.variance_scan_png),
+    ],
+)
+def test_same_report_gives_the_same_bytes(files, report, name, draw):
+    # a fresh copy of the report, in a fresh figure: the bytes depend on the data only
+    # (the entanglement plot is checked the same way under changed rcParams below)
+    assert draw(copy.deepcopy(report)) == files[name]
+
+
+def test_same_program_gives_the_same_bytes(files, circuit):
+    assert analysis.circuit_diagram_png(analysis.expand(circuit)) == files["circuit.png"]
+
+
+def test_comparison_png_is_deterministic_and_decodes(report, one_qubit_report):
+    first = analysis.comparison_png([report, one_qubit_report])
+    assert analysis.comparison_png([report, one_qubit_report]) == first
+    assert abs(decoded(first).shape[1] - 900) <= 3
+
+
+def test_single_panel_fidelity_for_one_qubit(one_qubit_report):
+    assert abs(decoded(analysis.fidelity_histogram_png(one_qubit_report)).shape[1] - 900) <= 3
+
+
+def test_user_rc_settings_change_nothing_and_are_restored(files, report):
+    with matplotlib.rc_context({"font.size": 19.0, "axes.facecolor": "#ff0000"}):
+        png = analysis.meyer_wallach_png(report)
+        assert matplotlib.rcParams["font.size"] == 19.0
+    assert png == files["entanglement.png"]
+    assert matplotlib.rcParams["font.size"] == matplotlib.rcParamsDefault["font.size"]
+
+
+# ------------------------------------------------------------------------ missing data
+
+
+def without(report, *path):
+    r = copy.deepcopy(report)
+    node = r
+    for key in path[:-1]:
+        node = node[key]
+    node[path[-1]] = None
+    return r
+
+
+@pytest.mark.parametrize(
+    ("draw", "path", "message"),
+    [
+        (analysis.fidelity_histogram_png, ("expressibility",), "'expressibility'"),
+        (analysis.fidelity_series, ("expressibility", "haar"), "'expressibility.haar'"),
+        (analysis.fidelity_series, ("circuit", "name"), "'circuit.name'"),
+        (analysis.meyer_wallach_png, ("entanglement",), "'entanglement'"),
+        (
+            analysis.meyer_wallach_series,
+            ("entanglement", "distribution"),
+            "'entanglement.distribution'",
+        ),
+        (analysis.variance_scan_png, ("trainability",), "'trainability'"),
+        (analysis.variance_series, ("trainability", "points"), "'trainability.points'"),
+        (analysis.sweep_png, ("sweep",), "'sweep'"),
+    ],
+)
+def test_missing_data_names_the_report_key(report, draw, path, message):
+    with pytest.raises(ValueError, match=message):
+        draw(without(report, *path))
+
+
+def test_missing_metric_says_how_to_get_it(report):
+    with pytest.raises(ValueError, match="analyze with the expressibility metric"):
+        analysis.fidelity_series(without(report, "expressibility"))
+
+
+def test_bad_data_is_described(report):
+    r = copy.deepcopy(report)
+    r["expressibility"]["haar"] = r["expressibility"]["haar"][:-1]
+    with pytest.raises(ValueError, match="differ in length"):
+        analysis.fidelity_series(r)
+    r["expressibility"]["haar"] = ["a"]
+    with pytest.raises(ValueError, match="'expressibility.haar': expected a list of numbers"):
+        analysis.fidelity_series(r)
+    r = copy.deepcopy(report)
+    r["sweep"] = []
+    with pytest.raises(ValueError, match="'sweep' is empty"):
+        analysis.sweep_series(r)
+
+
+def test_comparison_needs_something_to_compare(report):
+    with pytest.raises(ValueError, match="at least one report"):
+        analysis.comparison_series([])
+    bare = copy.deepcopy(report)
+    bare["expressibility"] = bare["trainability"] = None
+    with pytest.raises(ValueError, match="nothing to compare"):
+        analysis.comparison_png([bare])
+
+
+def test_plot_files_skips_what_is_absent(report, program):
+    bare = copy.deepcopy(report)
+    for key in ("expressibility", "entanglement", "trainability", "sweep"):
+        bare[key] = None
+    assert analysis.plot_files(bare) == {}
+
+
+def test_public_names_are_exported():
+    for module in (_plotstyle, _plotdata):
+        for name in module.__all__:
+            assert hasattr(module, name)
+    for module in (analysis.plots, analysis.scan_plots, analysis.comparison_plot, analysis.diagram):
+        for name in module.__all__:
+            if not name.isupper():
+                assert name in analysis.__all__, name
+
+
+@pytest.mark.parametrize(
+    "module",
+    [
+        analysis.plots,
+        analysis.scan_plots,
+        analysis.comparison_plot,
+        analysis.diagram,
+        analysis._plotstyle,
+        analysis._plotdata,
+    ],
+)
+def test_plot_modules_import_matplotlib_only_when_drawing(module):
+    # `import analysis` must stay fast for the CLI: matplotlib is imported inside the
+    # drawing functions (or for type checking only), never at module level
+    tree = ast.parse(Path(module.__file__).read_text())
+    for node in tree.body:
+        names = []
+        if isinstance(node, ast.Import):
+            names = [a.name for a in node.names]
+        elif isinstance(node, ast.ImportFrom):
+            names = [node.module or ""]
+        assert not any(n.split(".")[0] in ("matplotlib", "cycler") for n in names), names
