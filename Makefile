@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 DEMO   := examples/ring-classifier.json
 
-.PHONY: run demo test lint openapi bench clean install install-test
+.PHONY: run demo test browser lint openapi bench clean install install-test
 
 $(BIN)/python:
 	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "haarline needs Python 3.11 or newer")'
@@ -34,9 +34,16 @@ run: $(VENV)/.core
 demo: $(VENV)/.core
 	$(BIN)/haarline analyze $(DEMO) --metrics expressibility,entanglement,trainability,capacity
 
-## test: the whole suite (what CI runs)
-test: $(VENV)/.test
+## test: the whole suite (what CI runs); installs Chromium for the browser test where it can
+test: $(VENV)/.test browser
 	$(BIN)/python -m pytest -q
+
+browser:
+	@command -v chromium >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1 \
+	  && { DEBIAN_FRONTEND=noninteractive apt-get install -y -q chromium >/dev/null 2>&1 \
+	       || { apt-get update -q >/dev/null 2>&1 && DEBIAN_FRONTEND=noninteractive apt-get install -y -q chromium >/dev/null 2>&1; }; } \
+	  && echo "installed Debian chromium for the browser test"; } \
+	  || echo "Chromium is not available: the browser test will be skipped"
 
 ## lint: style, docstrings and types (CI runs it after the tests)
 lint: $(VENV)/.lint

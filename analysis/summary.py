@@ -135,12 +135,17 @@ def to_text(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-def to_markdown(report: dict[str, Any], *, images: list[str] | None = None) -> str:
+def to_markdown(
+    report: dict[str, Any], *, images: list[str] | None = None, page: str | None = None
+) -> str:
     """Markdown summary of a report: headline, metrics table, policy, cautions, plots.
 
     ``images`` are PNG file names written beside the summary; they are linked relatively.
+    ``page`` is the address of the full report page, linked at the top when known.
     """
     out = [f"## haarline: {report['circuit']['name']}", "", _headline(report) + ".", ""]
+    if page:
+        out += [f"Full report page: [{page}]({page})", ""]
     rows = []
     e = report.get("expressibility")
     if e:

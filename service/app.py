@@ -13,7 +13,7 @@ import analysis
 from .executor import Runner
 from .limits import BodyLimit
 from .problems import install_handlers
-from .routes import jobs, meta
+from .routes import jobs, meta, pages
 from .settings import Settings
 from .store import Store
 
@@ -47,7 +47,7 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
     )
     app.state.settings, app.state.store, app.state.runner = settings, store, runner
     install_handlers(app)
-    for router in (jobs.analyses, jobs.comparisons, meta.v1, meta.health):
+    for router in (jobs.analyses, jobs.comparisons, pages.router, meta.v1, meta.health):
         app.include_router(router)
     app.add_middleware(BodyLimit, limit=settings.max_body_bytes)
     return app

@@ -225,7 +225,14 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     report = _run_analysis(circuit, options, policy, args)
     images: list[str] = []
     if args.out:
-        images = write_analysis(args.out, report, analysis.expand(circuit))
+        source = args.file if args.file not in ("-",) else "circuit.json"
+        images = write_analysis(
+            args.out,
+            report,
+            analysis.expand(circuit),
+            circuit=circuit,
+            source=source,
+        )
     if args.format == "json":
         _emit(json.dumps(report, indent=2, allow_nan=False))
     elif args.format == "markdown":

@@ -9,6 +9,8 @@ from typing import Any
 
 import analysis
 
+from .page import comparison_page, report_page
+
 __all__ = ["write_analysis", "write_comparison"]
 
 
@@ -31,15 +33,30 @@ def _write(path: Path, data: bytes) -> None:
     tmp.replace(path)  # never leave a half-written file under the final name
 
 
-def write_analysis(directory: str, report: dict[str, Any], program: analysis.Program) -> list[str]:
-    """Write ``report.json``, every supported PNG and ``summary.md``; return the PNG names."""
+def write_analysis(
+    directory: str,
+    report: dict[str, Any],
+    program: analysis.Program,
+    *,
+    circuit: analysis.Circuit | None = None,
+    source: str = "circuit.json",
+) -> list[str]:
+    """Write ``report.json``, every PNG, ``summary.md`` and ``report.html``; return PNG names."""
     path = _target(directory)
     pngs = _plots(report, program)
     for name, data in pngs.items():
         _write(path / name, data)
     images = sorted(pngs)
     _write(path / "report.json", json.dumps(report, indent=2, allow_nan=False).encode())
-    _write(path / "summary.md", analysis.to_markdown(report, images=images).encode())
+    _write(
+        path / "summary.md",
+        analysis.to_markdown(report, images=images, page="report.html").encode(),
+    )
+    description = circuit.model_dump(mode="json", exclude_none=True) if circuit else None
+    _write(
+        path / "report.html",
+        report_page(report, pngs, description=description, source=source).encode(),
+    )
     return images
 
 
@@ -53,6 +70,8 @@ def write_comparison(directory: str, result: dict[str, Any]) -> list[str]:
         images.append("comparison.png")
     _write(path / "comparison.json", json.dumps(result, indent=2, allow_nan=False).encode())
     _write(path / "comparison.md", analysis.compare_markdown(result, images=images).encode())
+    pngs = {name: (path / name).read_bytes() for name in images}
+    _write(path / "comparison.html", comparison_page(result, pngs).encode())
     return images
 
 

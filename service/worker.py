@@ -85,7 +85,7 @@ def run_request(
     images = plot_files(report, analysis.expand(circuit)) if plot_files is not None else {}
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
-    return report, analysis.to_markdown(report, images=links), images
+    return report, analysis.to_markdown(report, images=links, page="page"), images
 
 
 def execute_job(database: str, job_id: str, memory_budget: int) -> str:

@@ -1,0 +1,167 @@
+"""Report pages: contents, status awareness, keys and signed share links."""
+
+import html
+import re
+import time
+
+import pytest
+from fastapi.testclient import TestClient
+
+from service import cli
+from service.app import create_app
+from service.keys import issue_key
+from service.page import job_page, reproduce_command
+from service.settings import Settings
+from service.tokens import TokenError, check_token, make_token
+
+SMALL = {
+    "pairs": 300,
+    "samples": 100,
+    "seed": 5,
+    "metrics": ["expressibility", "entanglement", "capacity"],
+}
+
+
+@pytest.fixture
+def client(tmp_path, monkeypatch):
+    monkeypatch.setenv("HAARLINE_PAGE_SECRET", "test-secret")
+    app = create_app(Settings.from_env({}, data_dir=str(tmp_path / "d"), workers=1))
+    with TestClient(app) as c:
+        _, key = issue_key(c.app.state.store, "alice")
+        _, other = issue_key(c.app.state.store, "bob")
+        c.key = {"Authorization": f"Bearer {key}"}
+        c.other = {"Authorization": f"Bearer {other}"}
+        yield c
+
+
+def finished(client, body):
+    url = client.post("/v1/analyses", json=body, headers=client.key).headers["Location"]
+    deadline = time.time() + 60
+    while client.get(url, headers=client.key).json()["state"] not in ("succeeded", "failed"):
+        assert time.time() < deadline
+        time.sleep(0.1)
+    return url
+
+
+def cell(page: str, metric: str) -> str:
+    m = re.search(rf'data-metric="{re.escape(metric)}">([^<]*)<', page)
+    assert m, metric
+    return html.unescape(m.group(1))
+
+
+def test_page_shows_the_report_numbers_and_inlines_the_plots(client):
+    url = finished(client, {"reference": "ry-cz-ring", "options": SMALL})
+    report = client.get(f"{url}/report", headers=client.key).json()
+    r = client.get(f"{url}/page", headers=client.key)
+    assert r.status_code == 200 and r.headers["content-type"].startswith("text/html")
+    page = r.text
+    assert cell(page, "expressibility.kl") == f"{report['expressibility']['kl']:.4f}"
+    assert (
+        cell(page, "entanglement.meyer_wallach") == f"{report['entanglement']['meyer_wallach']:.4f}"
+    )
+    assert cell(page, "capacity.qfi_rank").startswith(str(report["capacity"]["qfi_rank"]))
+    names = client.get(f"{url}/plots", headers=client.key).json()
+    assert page.count('src="data:image/png;base64,') == len(names) > 0
+    assert "http://" not in page.split("<footer>")[0].replace("http://www.w3.org", "")
+    assert "<script" not in page  # no JavaScript at all
+    assert "--seed 5" in page and "ry-cz-ring" in page
+    assert "Content-Security-Policy" in r.headers
+
+
+def test_share_link_opens_only_that_page(client):
+    url = finished(client, {"reference": "rx-product", "options": SMALL})
+    other_url = finished(client, {"reference": "ry-cz-ring", "options": SMALL})
+    share = client.post(f"{url}/share", headers=client.key, json={"ttl_seconds": 600}).json()
+    assert share["url"].startswith("http://127.0.0.1:8000/v1/analyses/")
+    token = share["url"].split("token=")[1]
+    path = url.split("http://testserver")[-1]
+    assert client.get(f"{path}/page", params={"token": token}).status_code == 200
+    # the same token on another job, tampered, or on other routes
+    assert client.get(f"{other_url}/page", params={"token": token}).status_code == 403
+    bad = token[:-2] + ("AA" if not token.endswith("AA") else "BB")
+    assert client.get(f"{path}/page", params={"token": bad}).status_code == 403
+    assert client.get(f"{path}/report", params={"token": token}).status_code == 401
+    assert client.get(f"{path}/plots", params={"token": token}).status_code == 401
+
+
+def test_expired_token_is_403(client):
+    url = finished(client, {"reference": "rx-product", "options": SMALL})
+    job_id = url.rsplit("/", 1)[1]
+    token, _ = make_token(b"test-secret", job_id, 60, now=time.time() - 3600)
+    r = client.get(f"{url}/page", params={"token": token})
+    assert r.status_code == 403 and "expired" in r.json()["detail"]
+
+
+def test_page_without_key_or_token_is_401_and_other_keys_get_404(client):
+    url = finished(client, {"reference": "rx-product", "options": SMALL})
+    assert client.get(f"{url}/page").status_code == 401
+    assert client.get(f"{url}/page", headers=client.other).status_code == 404
+    assert client.post(f"{url}/share", headers=client.other).status_code == 404
+
+
+def test_status_aware_pages():
+    running = job_page(
+        {"id": "a" * 32, "state": "running", "fraction": 0.4, "stage": "expressibility"}
+    )
+    assert 'http-equiv="refresh"' in running and "40%" in running
+    failed = job_page(
+        {
+            "id": "b" * 32,
+            "state": "failed",
+            "error": "out of memory",
+            "request": {"options": {"pairs": 9}},
+        }
+    )
+    assert "out of memory" in failed and "&quot;pairs&quot;: 9" in failed
+    assert "refresh" not in failed
+    cancelled = job_page({"id": "c" * 32, "state": "cancelled"})
+    assert "cancelled" in cancelled and "refresh" not in cancelled
+
+
+def test_token_checks():
+    token, _ = make_token(b"k", "j" * 32, 100, now=1000)
+    check_token(b"k", token, "j" * 32, now=1050)
+    for args in [
+        (b"k", token, "x" * 32, 1050),
+        (b"other", token, "j" * 32, 1050),
+        (b"k", token, "j" * 32, 2000),
+        (b"k", "junk", "j" * 32, 1050),
+    ]:
+        with pytest.raises(TokenError):
+            check_token(args[0], args[1], args[2], now=args[3])
+
+
+def test_reproduce_command_round_trips_the_options(tmp_path, capsys):
+    import json
+    import shlex
+
+    out = tmp_path / "o"
+    assert (
+        cli.main(
+            [
+                "analyze",
+                "ref:ry-cz-ring",
+                "--pairs",
+                "300",
+                "--samples",
+                "100",
+                "--seed",
+                "4",
+                "--out",
+                str(out),
+                "--format",
+                "json",
+            ]
+        )
+        == 0
+    )
+    report = json.loads(capsys.readouterr().out)
+    command = shlex.split(reproduce_command(report, "ref:ry-cz-ring"))
+    assert command[:2] == ["haarline", "analyze"]
+    assert cli.main(command[1:] + ["--format", "json"]) == 0
+    again = json.loads(capsys.readouterr().out)
+    strip = lambda r: {k: v for k, v in r.items() if k != "timings"}  # noqa: E731
+    assert strip(again) == strip(report)
+    page = (out / "report.html").read_text()
+    assert cell(page, "expressibility.kl") == f"{report['expressibility']['kl']:.4f}"
+    assert "[report.html](report.html)" in (out / "summary.md").read_text()
