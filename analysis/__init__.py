@@ -45,6 +45,8 @@ from .plots import (
 )
 from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from .program import Operation, Program, expand, facts, placement
+from .qasm import parse_qasm
+from .qasm_export import to_qasm
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
 from .sampling import Stream, draw_angles
@@ -122,6 +124,7 @@ __all__ = [
     "parse_circuit_text",
     "parse_options",
     "parse_policy",
+    "parse_qasm",
     "placement",
     "plot_files",
     "plugin_bias",
@@ -135,6 +138,7 @@ __all__ = [
     "sweep_png",
     "sweep_series",
     "to_markdown",
+    "to_qasm",
     "to_text",
     "trainability",
     "variance_scan_png",

@@ -158,7 +158,30 @@ def load(spec: str) -> analysis.Circuit:
                 source="<stdin>",
             )
         return analysis.parse_circuit_text(data, source="<stdin>")
+    if spec.lower().endswith(".qasm"):
+        return _load_qasm(spec)
     return analysis.load_circuit(spec)
+
+
+def _load_qasm(path: str) -> analysis.Circuit:
+    """Read an OpenQASM 3 program file (see :mod:`analysis.qasm` for the subset)."""
+    limit = analysis.qasm.MAX_QASM_BYTES
+    try:
+        with open(path, "rb") as fh:
+            data = fh.read(limit + 1)
+    except FileNotFoundError:
+        raise analysis.CircuitError(
+            [analysis.Problem("(root)", "no such file")], source=path
+        ) from None
+    except OSError as exc:
+        raise analysis.CircuitError(
+            [analysis.Problem("(root)", exc.strerror or "cannot read the file")], source=path
+        ) from None
+    if len(data) > limit:
+        raise analysis.CircuitError(
+            [analysis.Problem("(root)", f"the program is larger than {limit} bytes")], source=path
+        )
+    return analysis.parse_qasm(data, source=path)
 
 
 def _source_name(spec: str) -> str:
@@ -329,6 +352,23 @@ def _cmd_references(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _cmd_export(args: argparse.Namespace) -> int:
+    circuit = load(args.file)
+    program = analysis.expand(circuit, qubits=args.qubits, layers=args.layers)
+    text = analysis.to_qasm(program)
+    if args.output:
+        try:
+            with open(args.output, "w", encoding="utf-8") as fh:
+                fh.write(text)
+        except OSError as exc:
+            raise UsageError(
+                [analysis.Problem("--output", f"cannot write {args.output!r}: {exc.strerror}")]
+            ) from None
+    else:
+        sys.stdout.write(text)
+    return EXIT_OK
+
+
 def _cmd_schema(args: argparse.Namespace) -> int:
     _emit(json.dumps(analysis.circuit_schema(), indent=2))
     return EXIT_OK
@@ -447,6 +487,14 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("references", help="list the bundled reference circuits")
     p.add_argument("--format", choices=["text", "json"], default="text")
     p.set_defaults(func=_cmd_references)
+
+    p = sub.add_parser("export", help="write a description as an equivalent OpenQASM 3 program")
+    p.add_argument("file", metavar="FILE")
+    p.add_argument("--to", choices=["qasm"], default="qasm", help="output format (qasm)")
+    p.add_argument("--qubits", type=int, help="export at another qubit count")
+    p.add_argument("--layers", type=int, help="export at another layer count")
+    p.add_argument("--output", "-o", metavar="PATH", help="write here instead of stdout")
+    p.set_defaults(func=_cmd_export)
 
     p = sub.add_parser("schema", help="print the JSON Schema of the description format")
     p.set_defaults(func=_cmd_schema)
