@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import logging
 import multiprocessing
+import os
 import threading
 from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -46,6 +47,7 @@ class Runner:
 
     def start(self) -> None:
         """Start the pool (or connect to Dask), requeue interrupted jobs, start dispatching."""
+        self._stop.clear()  # a lifespan may start the same app again after a stop
         if self.settings.dask_scheduler:
             from distributed import Client  # optional extra: pip install 'haarline[dask]'
 
@@ -98,10 +100,15 @@ class Runner:
     # --- dispatching ------------------------------------------------------------------------
 
     def _new_pool(self) -> ProcessPoolExecutor:
-        return ProcessPoolExecutor(
+        pool = ProcessPoolExecutor(
             max_workers=self.settings.workers,
             mp_context=multiprocessing.get_context("spawn"),
         )
+        # start every worker now, so the first job (and its cancel) does not wait for a
+        # process to start and import numpy, scipy and pydantic
+        for _ in range(self.settings.workers):
+            pool.submit(_warm)
+        return pool
 
     def _loop(self) -> None:
         while not self._stop.is_set():
@@ -167,6 +174,13 @@ class Runner:
             except StoreUnavailable:
                 log.exception("could not record the failure of job %s", job_id)
         self._wake.set()
+
+
+def _warm() -> int:
+    """Run once in each new worker process: import the numerical core."""
+    import analysis  # noqa: F401
+
+    return os.getpid()
 
 
 class _DaskFuture(Future):  # type: ignore[type-arg]

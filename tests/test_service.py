@@ -232,7 +232,10 @@ def test_cancel_a_running_job_stops_it(client):
     job = client.post("/v1/analyses", json=body).json()
     url = f"/v1/analyses/{job['id']}"
     deadline = time.time() + 30
-    while client.get(url).json()["state"] != "running" and time.time() < deadline:
+    # wait until the worker is computing (it reports its first stage), then cancel
+    while (
+        client.get(url).json()["progress"]["stage"] != "expressibility" and time.time() < deadline
+    ):
         time.sleep(0.05)
     time.sleep(0.5)
     asked = time.time()
