@@ -23,9 +23,9 @@ __all__ = [
     "parse_options",
 ]
 
-Metric = Literal["expressibility", "entanglement", "trainability", "capacity"]
+Metric = Literal["expressibility", "entanglement", "trainability", "capacity", "lie"]
 
-METRICS = ("expressibility", "entanglement", "trainability", "capacity")
+METRICS = ("expressibility", "entanglement", "trainability", "capacity", "lie")
 """Metrics available in this version, in report order."""
 
 DEFAULT_METRICS: tuple[Metric, ...] = ("expressibility", "entanglement")

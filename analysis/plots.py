@@ -347,6 +347,11 @@ def plot_files(report: Report, program: Program | None = None) -> dict[str, byte
     rows = report.get("sweep") or []
     if any(r.get("kl") is not None or r.get("meyer_wallach") is not None for r in rows):
         out["sweep.png"] = sweep_png(report)
+    lie = report.get("lie") or {}
+    if sum(1 for p in lie.get("points", []) if p.get("dimension")) >= 1:
+        from .lie_plot import algebra_dimension_png
+
+        out["algebra.png"] = algebra_dimension_png(report)
     if program is not None:
         out["circuit.png"] = circuit_diagram_png(program)
     return out

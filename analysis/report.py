@@ -21,6 +21,8 @@ from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET
 from .entanglement import Entanglement, entangling_capability
 from .expressibility import Expressibility, expressibility
+from .lie import lie_diagnosis
+from .lie_variance import deep_loss_variance
 from .options import DEFAULT_SCAN, AnalysisOptions
 from .program import Program, expand, facts
 from .trainability import trainability, uses_only_patterns
@@ -28,6 +30,10 @@ from .trainability import trainability, uses_only_patterns
 __all__ = ["REPORT_FORMAT", "analyze", "cautions"]
 
 REPORT_FORMAT = 1
+
+LIE_SAMPLE_QUBITS = 4
+"""Largest qubit count at which the deep-circuit loss variance is sampled beside the
+Lie-algebraic prediction (the deep circuit needs about 8 × dim g parameters)."""
 
 
 def _metrics(
@@ -100,6 +106,21 @@ def cautions(report: dict[str, Any]) -> list[str]:
                 )
         if tr.get("scan_note"):
             out.append(tr["scan_note"])
+    lie = report.get("lie")
+    if lie:
+        for p in lie["points"]:
+            if not p["complete"]:
+                out.append(
+                    f"Lie algebra at {p['qubits']} qubits: the closure stopped at a cap; the "
+                    f"dimension is at least {p['dimension']}."
+                )
+            s = p.get("sampled")
+            if s is not None and s.get("settled") is False:
+                out.append(
+                    f"At {p['qubits']} qubits the sampled deep-circuit loss variance had not "
+                    "settled between half and full depth; compare it with the prediction "
+                    "with care."
+                )
     cap = report.get("capacity")
     if cap and cap["points"] < 3:
         out.append(
@@ -183,6 +204,38 @@ def analyze(
         t = time.perf_counter()
         cap = capacity(program, points=options.capacity_points, seed=options.seed).to_dict()
         timings["capacity"] = time.perf_counter() - t
+    lie = None
+    if "lie" in options.metrics:
+        t = time.perf_counter()
+        diagnosis = lie_diagnosis(
+            circuit,
+            cost=options.cost,
+            scan=options.scan,
+            layers=options.scan_layers,
+            progress=progress,
+        )
+        lie = diagnosis.to_dict()
+        # beside each prediction, the sampled loss variance of a deep circuit (small n only)
+        for point in lie["points"]:
+            pred = point.get("prediction") or {}
+            point["sampled"] = None
+            if (
+                pred.get("applies")
+                and point.get("complete")
+                and point["qubits"] <= LIE_SAMPLE_QUBITS
+            ):
+                sampled = deep_loss_variance(
+                    circuit,
+                    point["qubits"],
+                    point["dimension"],
+                    options.cost,
+                    samples=max(options.grad_samples, 500),
+                    seed=options.seed,
+                    memory_budget=memory_budget,
+                    progress=progress,
+                )
+                point["sampled"] = sampled.to_dict()
+        timings["lie"] = time.perf_counter() - t
     sweep = None
     if options.layers_sweep:
         t = time.perf_counter()
@@ -217,6 +270,7 @@ def analyze(
         "entanglement": ent.to_dict() if ent else None,
         "trainability": train,
         "capacity": cap,
+        "lie": lie,
         "sweep": sweep,
         "policy": None,
     }

@@ -33,6 +33,8 @@ class Stream(IntEnum):
     BOOTSTRAP = 2
     GRADIENTS = 3
     CAPACITY = 4
+    LOSS = 5
+    IDEALS = 6
 
 
 def _key(stream: int | tuple[int, ...]) -> tuple[int, ...]:

@@ -98,6 +98,29 @@ def to_text(report: dict[str, Any]) -> str:
             more = len(c["redundant_parameters"]) - 8
             lines.append(f"  redundant: {shown}" + (f" and {more} more" if more > 0 else ""))
         lines.append("")
+    lie = report.get("lie")
+    if lie:
+        lines.append("Dynamical Lie algebra (of the generators; predicts deep circuits at any n)")
+        lines.append(
+            f"  {'qubits':>6} {'dim':>8} {'of 4^n-1':>9}  {'predicted Var[C]':>16}  "
+            f"{'sampled Var[C] (95% interval)':>30}"
+        )
+        for p in lie["points"]:
+            dim = f"{p['dimension']}" + ("" if p["complete"] else "+")
+            pred = p.get("prediction") or {}
+            predicted = f"{pred['variance']:.4g}" if pred.get("applies") else "-"
+            s = p.get("sampled")
+            sampled = (
+                f"{s['variance']:.4g} ({s['interval'][0]:.3g} .. {s['interval'][1]:.3g})"
+                if s
+                else "-"
+            )
+            lines.append(
+                f"  {p['qubits']:>6} {dim:>8} {p['maximum']:>9}  {predicted:>16}  {sampled:>30}"
+            )
+        if lie.get("summary"):
+            lines.append(f"  {lie['summary']}")
+        lines.append("")
     sweep = report.get("sweep")
     if sweep:
         lines.append("Layer sweep")
@@ -179,6 +202,13 @@ def to_markdown(
             rows.append(
                 f"| Variance decay per qubit (nats) | {-e['slope']:.3f} | {lo:.3f} .. {hi:.3f} | |"
             )
+    lie = report.get("lie")
+    if lie and lie["points"]:
+        last = lie["points"][-1]
+        rows.append(
+            f"| DLA dimension at n = {last['qubits']} | {last['dimension']}"
+            f"{'' if last['complete'] else ' (at least)'} | | 4^n - 1 = {last['maximum']} |"
+        )
     c = report.get("capacity")
     if c:
         rows.append(

@@ -36,6 +36,7 @@ def test_keys_are_stable():
         "entanglement",
         "trainability",
         "capacity",
+        "lie",
         "sweep",
         "policy",
         "cautions",
