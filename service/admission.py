@@ -29,11 +29,15 @@ def _resolve(source: CircuitSource, path: str) -> tuple[analysis.Circuit, dict[s
         "qasm": source.qasm,
         "reference": source.reference,
     }
+    field = "circuit" if source.circuit is not None else (
+        "reference" if source.reference is not None else "qasm"
+    )
     try:
         circuit = circuit_of(spec)
         analysis.expand(circuit)
     except analysis.InputError as exc:
-        exc.body_path = path  # type: ignore[attr-defined]
+        # name the field that held the circuit: circuit.layer[0]…, reference, qasm
+        exc.body_path = field if path == "(root)" else f"{path}.{field}"  # type: ignore[attr-defined]
         raise
     stored: dict[str, Any] = {"circuit": circuit.model_dump(mode="json", exclude_none=True)}
     if source.reference:
@@ -70,7 +74,7 @@ def admit_analysis(
     body: AnalysisCreate, settings: Settings, *, route: str = "job"
 ) -> tuple[dict[str, Any], analysis.Estimate]:
     """Validate, estimate and canonicalize an analysis request."""
-    circuit, stored = _resolve(body, "(root)" if body.circuit is None else "circuit")
+    circuit, stored = _resolve(body, "(root)")
     options = body.options
     estimate = analysis.estimate(circuit, options, memory_budget=settings.memory_budget)
     cap = settings.max_score_cost if route == "score" else settings.max_cost

@@ -148,7 +148,7 @@ def test_keys_are_stored_only_as_hashes(quiet, tmp_path):
         ({"reference": "ry-cz-ring", "options": {"pairs": 1}}, "options.pairs"),
         ({"reference": "ry-cz-ring", "options": {"metrics": ["speed"]}}, "options.metrics[0]"),
         ({"reference": "ry-cz-ring", "extra": 1}, "extra"),
-        ({"reference": "nope"}, "(root)"),
+        ({"reference": "nope"}, "reference"),
         ({}, "(root)"),
     ],
 )
