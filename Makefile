@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 DEMO   := examples/ring-classifier.json
 
-.PHONY: run demo test browser lint openapi bench clean install install-test
+.PHONY: run demo test browser lint openapi bench clean install install-test fuzz load faults
 
 $(BIN)/python:
 	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "haarline needs Python 3.11 or newer")'
@@ -44,6 +44,20 @@ browser:
 	       || { apt-get update -q >/dev/null 2>&1 && DEBIAN_FRONTEND=noninteractive apt-get install -y -q chromium >/dev/null 2>&1; }; } \
 	  && echo "installed Debian chromium for the browser test"; } \
 	  || echo "Chromium is not available: the browser test will be skipped"
+
+## fuzz: schemathesis on every operation of the OpenAPI document, large budget (~10 min)
+fuzz: $(VENV)/.test
+	HAARLINE_FUZZ_EXAMPLES=$${FUZZ_EXAMPLES:-100} HAARLINE_FUZZ_COVERAGE=1 \
+	HAARLINE_FUZZ_STATS=$${TMPDIR:-/tmp}/haarline-fuzz.json $(BIN)/python -m pytest -q tests/test_fuzz.py
+	@cat $${TMPDIR:-/tmp}/haarline-fuzz.json
+
+## load: 20 concurrent clients submit 400 small jobs to a loopback server (a few minutes)
+load: $(VENV)/.test
+	$(BIN)/python tests/load.py --clients 20 --jobs 400
+
+## faults: SIGKILL the server 10 times mid-job and restart; zero lost, identical results
+faults: $(VENV)/.test
+	$(BIN)/python tests/faults.py --cycles 10
 
 ## lint: style, docstrings and types (CI runs it after the tests)
 lint: $(VENV)/.lint

@@ -29,8 +29,10 @@ def _resolve(source: CircuitSource, path: str) -> tuple[analysis.Circuit, dict[s
         "qasm": source.qasm,
         "reference": source.reference,
     }
-    field = "circuit" if source.circuit is not None else (
-        "reference" if source.reference is not None else "qasm"
+    field = (
+        "circuit"
+        if source.circuit is not None
+        else ("reference" if source.reference is not None else "qasm")
     )
     try:
         circuit = circuit_of(spec)

@@ -49,5 +49,5 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
     install_handlers(app)
     for router in (jobs.analyses, jobs.comparisons, pages.router, meta.v1, meta.health):
         app.include_router(router)
-    app.add_middleware(BodyLimit, limit=settings.max_body_bytes)
+    app.add_middleware(BodyLimit, limit=settings.max_body_bytes, timeout=settings.read_timeout)
     return app

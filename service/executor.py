@@ -3,7 +3,9 @@
 A dispatcher thread moves queued jobs to ``running`` as workers free up and submits
 :func:`service.worker.execute_job` for each. A worker process that dies (killed, out of
 memory) fails its future: the job is queued again once, then failed with the reason, and
-the pool is rebuilt so the service keeps serving. On start-up, jobs that were running when
+the pool is rebuilt so the service keeps serving. A job interrupted because the store
+could not be written (locked, full disk) is queued again; an outcome the store refuses to
+record is written on a later round. On start-up, jobs that were running when
 the previous process died are queued again (:meth:`Store.requeue_interrupted`).
 """
 
@@ -39,6 +41,7 @@ class Runner:
         self._wake = threading.Event()
         self._stop = threading.Event()
         self._inflight: dict[str, Future[Any]] = {}
+        self._unrecorded: dict[str, tuple[str, str]] = {}
         self._pool: ProcessPoolExecutor | None = None
         self._dask: Any = None
         self._thread: threading.Thread | None = None
@@ -122,6 +125,7 @@ class Runner:
                 log.exception("dispatcher error")
 
     def _dispatch(self) -> None:
+        self._record_pending()
         with self._lock:
             free = self.capacity - len(self._inflight)
         if free <= 0:
@@ -157,23 +161,42 @@ class Runner:
         except Exception as err:  # cancelled future
             exc = err
         if exc is not None:
+            again = False
             if isinstance(exc, BrokenProcessPool):
                 with self._lock:
                     if self._pool is not None:
                         self._pool.shutdown(wait=False, cancel_futures=True)
                     self._pool = self._new_pool()
                 reason = "the worker process died (killed or out of memory)"
+                again = attempts < MAX_ATTEMPTS
+            elif isinstance(exc, StoreUnavailable):
+                # the store, not the job, failed (locked, full disk): run it again later
+                reason, again = f"the job store was unavailable ({exc})", True
+                log.warning("job %s interrupted: %s", job_id, reason)
             else:
                 reason = f"internal error: {type(exc).__name__}: {exc}"
                 log.error("job %s failed: %s", job_id, reason)
             try:
-                if attempts < MAX_ATTEMPTS and isinstance(exc, BrokenProcessPool):
+                if again:
                     self.store.mark(job_id, "queued", error=f"{reason}; retrying")
                 else:
                     self.store.mark(job_id, "failed", error=reason)
             except StoreUnavailable:
-                log.exception("could not record the failure of job %s", job_id)
+                log.warning("could not record the outcome of job %s; will retry", job_id)
+                with self._lock:
+                    self._unrecorded[job_id] = (
+                        ("queued", f"{reason}; retrying") if again else ("failed", reason)
+                    )
         self._wake.set()
+
+    def _record_pending(self) -> None:
+        """Write outcomes that the store refused earlier (else the job looks running)."""
+        with self._lock:
+            pending = dict(self._unrecorded)
+        for job_id, (state, reason) in pending.items():
+            self.store.mark(job_id, state, error=reason)  # StoreUnavailable: next round
+            with self._lock:
+                self._unrecorded.pop(job_id, None)
 
 
 def _warm() -> int:

@@ -1,7 +1,14 @@
-"""An ASGI middleware that rejects request bodies above a size limit with 413."""
+"""An ASGI middleware that bounds request bodies: 413 when too large, 408 when too slow.
+
+The body is read in full before the route sees it (FastAPI buffers it anyway), so a
+client that trickles its body, or announces a ``Content-Length`` and stops, is cut off
+``timeout`` seconds after the request's headers arrived, and a body over ``limit`` bytes
+is refused without being stored. The route then reads the buffered body as usual.
+"""
 
 from __future__ import annotations
 
+import asyncio
 import json
 from typing import Any
 
@@ -9,14 +16,15 @@ __all__ = ["BodyLimit"]
 
 
 class BodyLimit:
-    """Reject bodies over ``limit`` bytes, by ``Content-Length`` or while streaming."""
+    """Refuse bodies over ``limit`` bytes (413) or slower than ``timeout`` seconds (408)."""
 
-    def __init__(self, app: Any, limit: int):
+    def __init__(self, app: Any, limit: int, timeout: float = 30.0):
         self.app = app
         self.limit = limit
+        self.timeout = timeout
 
     async def __call__(self, scope: dict[str, Any], receive: Any, send: Any) -> None:
-        """Pass the request on, or answer 413."""
+        """Read the body within the limits and pass the request on, or answer 413 or 408."""
         if scope["type"] != "http":
             await self.app(scope, receive, send)
             return
@@ -28,54 +36,72 @@ class BodyLimit:
             except ValueError:
                 too_big = False
             if too_big:
-                await self._reject(send)
+                await self._reject(send, 413)
                 return
-        seen = 0
-        started = False
-
-        async def limited_receive() -> dict[str, Any]:
-            nonlocal seen
-            message = await receive()
-            if message["type"] == "http.request":
-                seen += len(message.get("body", b""))
-                if seen > self.limit:
-                    raise _TooLarge
-            return message
-
-        async def tracking_send(message: dict[str, Any]) -> None:
-            nonlocal started
-            if message["type"] == "http.response.start":
-                started = True
-            await send(message)
-
         try:
-            await self.app(scope, limited_receive, tracking_send)
-        except _TooLarge:
-            if not started:
-                await self._reject(send)
+            body = await asyncio.wait_for(self._read(receive), self.timeout)
+        except TimeoutError:
+            await self._reject(send, 408)
+            return
+        if body is None:
+            await self._reject(send, 413)
+            return
+        if body is _GONE:
+            return  # the client went away; nobody to answer
+        delivered = False
 
-    async def _reject(self, send: Any) -> None:
+        async def replay() -> dict[str, Any]:
+            nonlocal delivered
+            if not delivered:
+                delivered = True
+                return {"type": "http.request", "body": body, "more_body": False}
+            return await receive()  # e.g. waiting for a disconnect: not bounded
+
+        await self.app(scope, replay, send)
+
+    async def _read(self, receive: Any) -> Any:
+        chunks: list[bytes] = []
+        seen = 0
+        while True:
+            message = await receive()
+            if message["type"] == "http.disconnect":
+                return _GONE
+            chunk = message.get("body", b"")
+            seen += len(chunk)
+            if seen > self.limit:
+                return None
+            chunks.append(chunk)
+            if not message.get("more_body", False):
+                return b"".join(chunks)
+
+    async def _reject(self, send: Any, status: int) -> None:
+        if status == 408:
+            kind, title = "body-too-slow", "Request timeout"
+            detail = f"the request body did not arrive within {self.timeout:g} seconds"
+        else:
+            kind, title = "body-too-large", "Request body too large"
+            detail = f"the request body exceeds the limit of {self.limit} bytes"
         body = json.dumps(
             {
-                "type": "https://haarline.invalid/problems/body-too-large",
-                "title": "Request body too large",
-                "status": 413,
-                "detail": f"the request body exceeds the limit of {self.limit} bytes",
+                "type": f"https://haarline.invalid/problems/{kind}",
+                "title": title,
+                "status": status,
+                "detail": detail,
                 "errors": [],
             }
         ).encode()
         await send(
             {
                 "type": "http.response.start",
-                "status": 413,
+                "status": status,
                 "headers": [
                     (b"content-type", b"application/problem+json"),
                     (b"content-length", str(len(body)).encode()),
+                    (b"connection", b"close"),  # the rest of the body is not read
                 ],
             }
         )
         await send({"type": "http.response.body", "body": body})
 
 
-class _TooLarge(Exception):
-    pass
+_GONE = object()

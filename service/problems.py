@@ -4,7 +4,7 @@
 exception                              status
 =====================================  ======
 ``CircuitError``, ``OptionError``,     422, with ``errors[].path`` (JSON path in the body)
-request validation
+request validation, undecodable body
 ``OverLimit`` (admission control)      422, with ``limit`` and ``estimate``
 ``LimitError`` (memory budget)         422
 ``StoreUnavailable``                   503, with ``Retry-After``
@@ -22,6 +22,7 @@ from fastapi import FastAPI, HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 from starlette.exceptions import HTTPException as StarletteHTTPException
+from starlette.routing import Match
 
 import analysis
 from analysis.circuit import validation_problems
@@ -41,6 +42,7 @@ _TITLES = {
     403: "Forbidden",
     404: "Not found",
     405: "Method not allowed",
+    408: "Request timeout",
     409: "Conflict",
     413: "Request body too large",
     415: "Unsupported media type",
@@ -114,6 +116,24 @@ def _request_problems(errors: list[dict[str, Any]]) -> list[dict[str, str]]:
     return out
 
 
+def _allowed_methods(request: Request) -> str:
+    """Every method some route serves at this path (a 405 from one route names only its own)."""
+    methods: set[str] = set()
+    for route in request.app.router.routes:
+        match, _ = route.matches(request.scope)
+        if match != Match.NONE:
+            methods |= set(getattr(route, "methods", None) or ())
+    return ", ".join(sorted(methods))
+
+
+def _unparsable(cause: BaseException) -> str:
+    if isinstance(cause, UnicodeDecodeError):
+        return f"the body is not UTF-8 text ({cause.reason} at byte {cause.start})"
+    if isinstance(cause, RecursionError):
+        return "the body nests arrays and objects too deeply to be read"
+    return "the body could not be read as JSON"
+
+
 def install_handlers(app: FastAPI) -> None:
     """Map every exception to a problem response."""
 
@@ -166,7 +186,20 @@ def install_handlers(app: FastAPI) -> None:
 
     @app.exception_handler(StarletteHTTPException)
     async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+        if exc.status_code == 400 and exc.__cause__ is not None:
+            # FastAPI could not even decode the body (chained: the decoding error): the
+            # same 422 as malformed JSON, with the reason, rather than a bare 400
+            message = _unparsable(exc.__cause__)
+            return problem_response(
+                422,
+                f"(root): {message}",
+                kind="invalid-input",
+                errors=[{"path": "(root)", "message": message}],
+                instance=request.url.path,
+            )
         headers = dict(exc.headers) if exc.headers else None
+        if exc.status_code == 405:
+            headers = {**(headers or {}), "Allow": _allowed_methods(request)}
         return problem_response(
             exc.status_code, str(exc.detail), headers=headers, instance=request.url.path
         )

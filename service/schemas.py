@@ -24,9 +24,42 @@ __all__ = [
 ]
 
 MAX_QASM_CHARS = 1_000_000
+MAX_NESTING = 32
+"""Deepest nesting of arrays and objects a request body may have (a description needs ~8)."""
 
 
-class CircuitSource(BaseModel):
+def _nesting(value: Any) -> int:
+    """Depth of nested lists and dicts, counted without recursion."""
+    deepest, todo = 0, [(value, 1)]
+    while todo:
+        item, depth = todo.pop()
+        if isinstance(item, dict | list):
+            deepest = max(deepest, depth)
+            if depth > MAX_NESTING:
+                break
+            children = item.values() if isinstance(item, dict) else item
+            todo.extend((child, depth + 1) for child in children)
+    return deepest
+
+
+class _Body(BaseModel):
+    """A request body: refuses absurd nesting before any field is looked at.
+
+    Fields typed ``Any`` (a step's ``on``, the cost) accept any JSON, and serializing a value
+    nested hundreds of levels deep fails inside pydantic; such a body is a 422 here instead.
+    """
+
+    @model_validator(mode="before")
+    @classmethod
+    def _shallow(cls, data: Any) -> Any:
+        if _nesting(data) > MAX_NESTING:
+            raise ValueError(
+                f"the body nests arrays and objects more than {MAX_NESTING} levels deep"
+            )
+        return data
+
+
+class CircuitSource(_Body):
     """Exactly one of: a format-1 description, an OpenQASM 3 program, or a reference name."""
 
     model_config = ConfigDict(extra="forbid")
@@ -58,7 +91,7 @@ class AnalysisCreate(CircuitSource):
     options: AnalysisOptions = Field(default_factory=AnalysisOptions)
 
 
-class CompareCreate(BaseModel):
+class CompareCreate(_Body):
     """Body of ``POST /v1/comparisons``."""
 
     model_config = ConfigDict(extra="forbid")

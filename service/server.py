@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 import datetime as dt
+import logging
+import re
 import sys
 from typing import Any
 
@@ -16,10 +18,26 @@ def _settings(args: argparse.Namespace, **extra: Any) -> Any:
     return Settings.from_env(data_dir=getattr(args, "data_dir", None), **extra)
 
 
+class RedactTokens(logging.Filter):
+    """Hide share tokens (``?token=…``) in access-log lines; they open a report page."""
+
+    _TOKEN = re.compile(r"([?&]token=)[^&\s\"]+")
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        """Rewrite the record's arguments with tokens replaced by ``REDACTED``."""
+        if record.args:
+            record.args = tuple(
+                self._TOKEN.sub(r"\1REDACTED", a) if isinstance(a, str) else a
+                for a in (record.args if isinstance(record.args, tuple) else (record.args,))
+            )
+        return True
+
+
 def _cmd_serve(args: argparse.Namespace) -> int:
     import uvicorn
 
     from .app import create_app
+    from .protocol import guarded_protocol
 
     settings = _settings(
         args,
@@ -45,7 +63,14 @@ def _cmd_serve(args: argparse.Namespace) -> int:
     out.write(f"  data directory: {settings.data_dir.resolve()}\n\n")
     out.flush()
     app = create_app(settings)
-    uvicorn.run(app, host=settings.host, port=settings.port, log_level=args.log_level)
+    logging.getLogger("uvicorn.access").addFilter(RedactTokens())
+    uvicorn.run(
+        app,
+        host=settings.host,
+        port=settings.port,
+        log_level=args.log_level,
+        http=guarded_protocol(settings.read_timeout),  # uvicorn has no header deadline
+    )
     return 0
 
 

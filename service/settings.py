@@ -10,6 +10,8 @@ variable                           meaning (default)
 ``HAARLINE_DASK_SCHEDULER``        address of a Dask scheduler; when set, work runs there
 ``HAARLINE_DEV_MODE``              ``1``: no API keys, loopback only, said loudly (``0``)
 ``HAARLINE_MAX_BODY_BYTES``        largest request body (``1048576``)
+``HAARLINE_READ_TIMEOUT``          seconds a client may take to send a request's headers,
+                                   and again its body (``30``); slower ones are cut off
 ``HAARLINE_MAX_COST``              largest estimated cost of one job, in amplitude-gate
                                    updates (``2e11``)
 ``HAARLINE_MAX_SCORE_COST``        the same for the synchronous score route (``2e8``)
@@ -64,6 +66,7 @@ class Settings(BaseModel):
     dask_scheduler: str | None = None
     dev_mode: bool = False
     max_body_bytes: int = Field(default=1_048_576, ge=1024)
+    read_timeout: float = Field(default=30.0, gt=0, le=3600)
     max_cost: float = Field(default=2e11, gt=0)
     max_score_cost: float = Field(default=2e8, gt=0)
     max_memory_bytes: int = Field(default=2 << 30, gt=0)

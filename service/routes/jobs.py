@@ -20,7 +20,7 @@ __all__ = ["analyses", "comparisons"]
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
 ERRORS: dict[int | str, dict[str, Any]] = {
     code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-    for code in (401, 404, 409, 413, 422, 429, 503)
+    for code in (401, 404, 408, 409, 413, 422, 429, 503)
 }
 
 IdempotencyKey = Annotated[

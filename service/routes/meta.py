@@ -13,15 +13,12 @@ import analysis
 from ..admission import admit_analysis
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
 from ..schemas import AnalysisCreate, CheckCreate, ProblemDetail, ReferencePublic
-from ..store import StoreUnavailable
 from ..worker import circuit_of
 
 __all__ = ["health", "v1"]
 
-ERRORS: dict[int | str, dict[str, Any]] = {
-    code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-    for code in (401, 413, 422, 503)
-}
+PROBLEM: dict[str, Any] = {"model": ProblemDetail, "content": {"application/problem+json": {}}}
+ERRORS: dict[int | str, dict[str, Any]] = {code: PROBLEM for code in (401, 408, 413, 422, 503)}
 
 v1 = APIRouter(prefix="/v1", responses=ERRORS)
 health = APIRouter(tags=["health"])
@@ -97,6 +94,7 @@ def references(caller: CallerDep) -> Any:
     operation_id="getReference",
     tags=["circuits"],
     summary="One bundled reference circuit (its description)",
+    responses={404: PROBLEM},
 )
 def reference(name: str, caller: CallerDep) -> Any:
     if name not in analysis.reference_names():
@@ -113,13 +111,10 @@ def healthz() -> dict[str, str]:
     "/readyz",
     operation_id="ready",
     summary="The job store and the dispatcher work (no key needed)",
-    responses={503: {"model": ProblemDetail}},
+    responses={503: PROBLEM},
 )
 def readyz(store: StoreDep, runner: RunnerDep) -> Any:
-    try:
-        store.ping()
-    except StoreUnavailable as exc:
-        raise HTTPException(503, str(exc)) from None
+    store.ping()  # StoreUnavailable: the store-unavailable 503, with Retry-After
     if not runner.alive():
         raise HTTPException(503, "the job dispatcher is not running")
     return {"status": "ready"}

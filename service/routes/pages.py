@@ -88,6 +88,8 @@ def _page_route(collection: str) -> None:
         response_class=HTMLResponse,
         operation_id=f"get{noun}Page",
         summary="The self-contained HTML report page (key or share token)",
+        # the key is optional here: a share token in the query opens the page too
+        openapi_extra={"security": [{"HTTPBearer": []}, {}]},
         responses={200: {"content": {"text/html": {}}}},
     )
     def page(
