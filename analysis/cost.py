@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from .circuit import Circuit
 from .engine import CHUNK_AMPLITUDES, WORK_FACTOR, rows_per_chunk
+from .expressibility import BOOTSTRAP_RESAMPLES
 from .options import DEFAULT_SCAN, AnalysisOptions
 from .program import expand
 from .trainability import uses_only_patterns
@@ -64,7 +65,9 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
     metrics = set(options.metrics)
     if "expressibility" in metrics:
         cost += 2.0 * options.pairs * g * dim
-        memory = max(memory, batch_memory(n))
+        # the bootstrap holds resamples x bins counts, plus float copies while taking the KL
+        bootstrap = BOOTSTRAP_RESAMPLES * options.bins * 8 * 4
+        memory = max(memory, batch_memory(n), bootstrap)
     if "entanglement" in metrics:
         cost += options.samples * (g + n) * dim
         memory = max(memory, batch_memory(n))

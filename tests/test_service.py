@@ -305,3 +305,9 @@ def test_keys_commands(tmp_path, capsys):
     assert cli.main(["keys", "--data-dir", data, "revoke", key_id]) == 0
     assert verify_key(store, key) is None
     assert cli.main(["keys", "--data-dir", data, "revoke", key_id]) == 2
+
+
+def test_huge_bin_counts_are_refused_by_the_memory_estimate(quiet):
+    # 1000 bootstrap resamples x 100000 bins is gigabytes: admission says so up front
+    r = quiet.post("/v1/analyses", json={"reference": "rx-product", "options": {"bins": 100_000}})
+    assert r.status_code == 422 and "memory" in r.json()["detail"]
