@@ -72,7 +72,6 @@ text (the parser reads roughly 2000 lines a second).
 
 from __future__ import annotations
 
-import math
 import re
 from collections import ChainMap
 from collections.abc import Callable, Iterable
@@ -84,6 +83,7 @@ import numpy as np
 from openqasm3 import ast
 
 from ._qasm_syntax import (
+    _CONSTANTS,
     Scope,
     _angle,
     _Fail,
@@ -117,14 +117,6 @@ STANDARD_GATES: dict[str, str] = {
 }
 """OpenQASM standard gate names and the haarline gate each becomes (see module notes)."""
 
-_CONSTANTS = {
-    "pi": math.pi,
-    "π": math.pi,
-    "tau": math.tau,
-    "τ": math.tau,
-    "euler": math.e,
-    "ℇ": math.e,
-}
 _PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")
 _CIRCUIT_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9 ._+#()-]{0,79}")
 _NAME_COMMENT = re.compile(r"^[ \t]*//[ \t]*circuit:[ \t]*(.*?)[ \t]*$", re.M)
