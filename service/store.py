@@ -238,12 +238,15 @@ class Store:
             ]
         return job
 
-    def list_jobs(self, owner: str, *, limit: int = 50, offset: int = 0) -> list[dict[str, Any]]:
-        """An owner's jobs, newest first."""
+    def list_jobs(
+        self, owner: str, *, kind: str | None = None, limit: int = 50, offset: int = 0
+    ) -> list[dict[str, Any]]:
+        """An owner's jobs (of one kind, when given), newest first."""
         with self._connect() as conn:
             rows = conn.execute(
-                "SELECT * FROM jobs WHERE owner = ? ORDER BY created DESC LIMIT ? OFFSET ?",
-                (owner, limit, offset),
+                "SELECT * FROM jobs WHERE owner = ? AND (? IS NULL OR kind = ?) "
+                "ORDER BY created DESC LIMIT ? OFFSET ?",
+                (owner, kind, kind, limit, offset),
             ).fetchall()
         return [_job(r) for r in rows]
 

@@ -138,7 +138,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         limit: Annotated[int, Query(ge=1, le=200)] = 50,
         offset: Annotated[int, Query(ge=0)] = 0,
     ) -> Any:
-        jobs = store.list_jobs(caller, limit=limit, offset=offset)
+        jobs = store.list_jobs(caller, kind=kind, limit=limit, offset=offset)
         return [job_public(j, base) for j in jobs if j["kind"] == kind]
 
     @router.get(
