@@ -316,8 +316,10 @@ def test_huge_bin_counts_are_refused_by_the_memory_estimate(quiet):
 def test_listing_pages_by_kind(quiet):
     for seed in (1, 2, 3):
         quiet.post("/v1/analyses", json={"reference": "rx-product", "options": {"seed": seed}})
-    quiet.post("/v1/comparisons", json={"circuits": [{"reference": "rx-product"},
-                                                     {"reference": "ry-cz-ring"}]})
+    quiet.post(
+        "/v1/comparisons",
+        json={"circuits": [{"reference": "rx-product"}, {"reference": "ry-cz-ring"}]},
+    )
     page = quiet.get("/v1/analyses", params={"limit": 2}).json()
     assert len(page) == 2 and all(j["kind"] == "analysis" for j in page)
     assert len(quiet.get("/v1/analyses", params={"limit": 2, "offset": 2}).json()) == 1
