@@ -71,3 +71,12 @@ openapi: $(VENV)/.core
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info
+
+## bench: the benchmark suite of issue 6 (about 10 minutes); prints a table and writes bench/results.json
+bench: $(VENV)/.core
+	$(BIN)/python bench/run.py --out bench/results.json
+
+.PHONY: bench-smoke
+## bench-smoke: the same script at tiny sizes (seconds; the test suite runs it too)
+bench-smoke: $(VENV)/.core
+	$(BIN)/python bench/run.py --smoke --out bench/smoke.json

@@ -16,7 +16,7 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy import special  # scipy.stats would add a second to start-up
 
-from ._batching import Progress, chunked_states
+from ._batching import Progress, sample_map
 from .engine import DEFAULT_MEMORY_BUDGET
 from .haar import haar_meyer_wallach
 from .program import Program
@@ -125,8 +125,12 @@ def entangling_capability(
     memory_budget: int = DEFAULT_MEMORY_BUDGET,
     dtype: type = np.complex128,
     progress: Progress | None = None,
+    workers: int = 1,
 ) -> Entanglement:
     """Mean Meyer-Wallach value of a program over ``samples`` random parameter vectors.
+
+    ``dtype`` is the engine precision (``complex128`` or ``complex64``); ``workers``
+    processes share the samples, with bit-identical results.
 
     Notes
     -----
@@ -146,8 +150,8 @@ def entangling_capability(
     >>> round(entangling_capability(product, samples=50).meyer_wallach, 12)
     0.0
     """
-    values = np.empty(samples, dtype=float)
-    for start, states in chunked_states(
+    values = sample_map(
+        _chunk_meyer_wallach,
         program,
         count=samples,
         copies=1,
@@ -155,8 +159,13 @@ def entangling_capability(
         stream=Stream.ENTANGLEMENT,
         memory_budget=memory_budget,
         dtype=dtype,
+        workers=workers,
         progress=progress,
         stage="entanglement",
-    ):
-        values[start : start + len(states)] = meyer_wallach(states[:, 0], program.qubits)
+    )
     return summarize_meyer_wallach(values, program.qubits)
+
+
+def _chunk_meyer_wallach(states: NDArray, qubits: int) -> NDArray[np.float64]:
+    """Meyer-Wallach values of a chunk of states ``(rows, 1, 2**n)``."""
+    return meyer_wallach(states[:, 0], qubits)

@@ -38,16 +38,22 @@ def _plan(program: Program | Plan) -> Plan:
 
 
 def cost_values(
-    program: Program | Plan, thetas: NDArray[np.float64], observable: Observable
+    program: Program | Plan,
+    thetas: NDArray[np.float64],
+    observable: Observable,
+    *,
+    dtype: type = np.complex128,
 ) -> NDArray[np.float64]:
     """C(θ) for every row of ``thetas`` (shape ``(B, P)``), shape ``(B,)``."""
-    return observable.expectation(run(_plan(program), thetas))
+    return observable.expectation(run(_plan(program), thetas, dtype=dtype))
 
 
 def adjoint_gradients(
     program: Program | Plan,
     thetas: NDArray[np.float64],
     observable: Observable,
+    *,
+    dtype: type = np.complex128,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Costs and all partial derivatives by adjoint differentiation.
 
@@ -59,6 +65,8 @@ def adjoint_gradients(
         Parameter vectors.
     observable : Observable
         The cost operator ``H`` (on the same number of qubits).
+    dtype : numpy complex dtype
+        Engine precision, ``complex128`` (default) or ``complex64``.
 
     Returns
     -------
@@ -67,6 +75,8 @@ def adjoint_gradients(
 
     Notes
     -----
+    The forward pass runs the fused schedule (:func:`analysis.engine.run`); the backward
+    pass needs every gate on its own and un-applies the plan's steps one by one.
     Memory: three batches of states. Time: about four forward passes plus one generator
     application and one inner product per parameterized gate.
 
@@ -88,7 +98,7 @@ def adjoint_gradients(
     plan = _plan(program)
     thetas = np.asarray(thetas, dtype=float)
     n = plan.qubits
-    phi = run(plan, thetas)
+    phi = run(plan, thetas, dtype=dtype)
     lam = observable.apply(phi)
     costs = np.einsum("ij,ij->i", phi.conj(), lam).real
     grads = np.zeros_like(thetas)
@@ -104,9 +114,11 @@ def adjoint_gradients(
     return costs, grads
 
 
-def _run_shifted(plan: Plan, thetas: NDArray[np.float64], index: int, delta: float) -> NDArray:
+def _run_shifted(
+    plan: Plan, thetas: NDArray[np.float64], index: int, delta: float, dtype: type
+) -> NDArray:
     """Run the plan with step ``index``'s angle shifted by ``delta``."""
-    states = np.zeros((thetas.shape[0], 1 << plan.qubits), dtype=complex)
+    states: NDArray = np.zeros((thetas.shape[0], 1 << plan.qubits), dtype=dtype)
     states[:, 0] = 1.0
     for k, step in enumerate(plan.steps):
         angles = thetas[:, step.param] if step.param is not None else None
@@ -120,6 +132,8 @@ def shift_gradients(
     program: Program | Plan,
     thetas: NDArray[np.float64],
     observable: Observable,
+    *,
+    dtype: type = np.complex128,
 ) -> NDArray[np.float64]:
     """All partial derivatives by the parameter-shift rules (two- or four-term).
 
@@ -138,7 +152,7 @@ def shift_gradients(
     grads = np.zeros_like(thetas)
 
     def c(index: int, delta: float) -> NDArray[np.float64]:
-        return observable.expectation(_run_shifted(plan, thetas, index, delta))
+        return observable.expectation(_run_shifted(plan, thetas, index, delta, dtype))
 
     for k, step in enumerate(plan.steps):
         if step.param is None:

@@ -101,6 +101,11 @@ class AnalysisOptions(BaseModel):
         description="Gradient method: adjoint differentiation, or the parameter-shift rules "
         "(slower; a cross-check).",
     )
+    precision: Literal["double", "single"] = Field(
+        default="double",
+        description="Engine precision: complex128 ('double') or complex64 ('single', faster; "
+        "its accuracy against double is measured in bench/results.json).",
+    )
     capacity_points: StrictInt = Field(
         default=4, ge=1, le=1000, description="Random points behind the QFI rank."
     )
@@ -201,6 +206,8 @@ def option_problems(
             msg = f"got {_describe(value)}; allowed range is {_RANGES[field]}"
         elif kind == "literal_error" and field == "metrics":
             msg = f"got {_describe(value)}; expected one of: {', '.join(METRICS)}"
+        elif field == "precision" and kind == "literal_error":
+            msg = f"got {_describe(value)}; expected double or single"
         elif field == "gradients" and kind == "literal_error":
             msg = f"got {_describe(value)}; expected adjoint or shift"
         elif field == "scan_layers" and kind in ("literal_error", "int_type"):

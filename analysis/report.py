@@ -36,12 +36,17 @@ LIE_SAMPLE_QUBITS = 4
 Lie-algebraic prediction (the deep circuit needs about 8 × dim g parameters)."""
 
 
+def _dtype(options: AnalysisOptions) -> type:
+    return np.complex64 if options.precision == "single" else np.complex128
+
+
 def _metrics(
     program: Program,
     options: AnalysisOptions,
     memory_budget: int,
     progress: Progress | None,
     timings: dict[str, float],
+    workers: int = 1,
 ) -> tuple[Expressibility | None, Entanglement | None]:
     expr = ent = None
     if "expressibility" in options.metrics:
@@ -53,6 +58,8 @@ def _metrics(
             seed=options.seed,
             memory_budget=memory_budget,
             progress=progress,
+            dtype=_dtype(options),
+            workers=workers,
         )
         timings["expressibility"] = timings.get("expressibility", 0.0) + time.perf_counter() - t
     if "entanglement" in options.metrics:
@@ -63,6 +70,8 @@ def _metrics(
             seed=options.seed,
             memory_budget=memory_budget,
             progress=progress,
+            dtype=_dtype(options),
+            workers=workers,
         )
         timings["entanglement"] = timings.get("entanglement", 0.0) + time.perf_counter() - t
     return expr, ent
@@ -144,6 +153,7 @@ def analyze(
     *,
     memory_budget: int = DEFAULT_MEMORY_BUDGET,
     progress: Progress | None = None,
+    workers: int = 1,
 ) -> dict[str, Any]:
     """Analyze a description and return the report dict.
 
@@ -155,6 +165,9 @@ def analyze(
         Defaults: expressibility and entanglement, 5000 pairs, 75 bins, 2000 samples, seed 1.
     memory_budget : int
         Bytes for state batches; affects speed only.
+    workers : int
+        Processes that share the sampled work (blocks of samples); the numbers are
+        identical for any count.
     progress : callable, optional
         ``progress(stage, done, total)``.
 
@@ -167,7 +180,7 @@ def analyze(
     start = time.perf_counter()
     timings: dict[str, float] = {}
     program = expand(circuit)
-    expr, ent = _metrics(program, options, memory_budget, progress, timings)
+    expr, ent = _metrics(program, options, memory_budget, progress, timings, workers)
     train = None
     if "trainability" in options.metrics:
         t = time.perf_counter()
@@ -195,6 +208,8 @@ def analyze(
             memory_budget=memory_budget,
             progress=progress,
             method=options.gradients,
+            dtype=_dtype(options),
+            workers=workers,
         )
         train = result.to_dict()
         train["scan_note"] = note
@@ -242,7 +257,7 @@ def analyze(
         sweep = []
         for layers in options.layers_sweep:
             p = expand(circuit, layers=layers)
-            e, m = _metrics(p, options, memory_budget, progress, {})
+            e, m = _metrics(p, options, memory_budget, progress, {}, workers)
             f = facts(p)
             row: dict[str, Any] = {
                 "layers": layers,
@@ -265,7 +280,7 @@ def analyze(
         "report_format": REPORT_FORMAT,
         "haarline_version": __version__,
         "circuit": facts(program),
-        "options": {**options.model_dump(), "precision": "double"},
+        "options": options.model_dump(),
         "expressibility": expr.to_dict() if expr else None,
         "entanglement": ent.to_dict() if ent else None,
         "trainability": train,

@@ -23,7 +23,7 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy import special
 
-from ._batching import Progress
+from ._batching import Progress, block_map, blocks_for, check_workers, worker_count
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
 from .errors import CircuitError, OptionError, Problem
@@ -79,6 +79,43 @@ class VariancePoint:
         return out
 
 
+def _gradient_block(
+    program: Program,
+    cost: Any,
+    start: int,
+    count: int,
+    seed: int,
+    memory_budget: int,
+    method: str,
+    dtype: type,
+    progress: Progress | None = None,
+    stage: str = "",
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Costs and gradients of samples ``start .. start+count-1`` (also run in workers)."""
+    observable = make_observable(cost, program.qubits)
+    plan = compile_program(program)
+    stream = (Stream.GRADIENTS, program.qubits, program.layers)
+    # adjoint differentiation holds three state batches
+    rows = max(1, rows_per_chunk(program.qubits, memory_budget, dtype) // 2)
+    costs = np.empty(count)
+    grads = np.empty((count, program.parameters))
+    done = 0
+    while done < count:
+        k = min(rows, count - done)
+        thetas = draw_angles(seed, stream, start + done, k, program.parameters)
+        if method == "adjoint":
+            c, g = adjoint_gradients(plan, thetas, observable, dtype=dtype)
+        else:
+            c = cost_values(plan, thetas, observable, dtype=dtype)
+            g = shift_gradients(plan, thetas, observable, dtype=dtype)
+        costs[done : done + k] = c
+        grads[done : done + k] = g
+        done += k
+        if progress is not None:
+            progress(stage, done, count)
+    return costs, grads
+
+
 def gradient_samples(
     program: Program,
     cost: Any,
@@ -89,33 +126,39 @@ def gradient_samples(
     progress: Progress | None = None,
     stage: str = "gradients",
     method: str = "adjoint",
+    dtype: type = np.complex128,
+    workers: int = 1,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Costs ``(S,)`` and gradients ``(S, P)`` at ``samples`` random parameter vectors.
 
     Sample ``k`` at ``(n, L)`` uses row ``k`` of stream ``(GRADIENTS, n, L)``, so points of a
-    scan are independent and the numbers never depend on chunking.
+    scan are independent and the numbers never depend on chunking. ``workers`` processes
+    share the samples (blocks of 64, each with ``memory_budget / workers``); the numbers
+    are bit-identical to one worker's. ``dtype`` is the engine precision.
     """
-    observable = make_observable(cost, program.qubits)
-    plan = compile_program(program)
-    stream = (Stream.GRADIENTS, program.qubits, program.layers)
-    # adjoint differentiation holds three state batches
-    rows = max(1, rows_per_chunk(program.qubits, memory_budget) // 2)
-    costs = np.empty(samples)
-    grads = np.empty((samples, program.parameters))
-    done = 0
-    while done < samples:
-        k = min(rows, samples - done)
-        thetas = draw_angles(seed, stream, done, k, program.parameters)
-        if method == "adjoint":
-            c, g = adjoint_gradients(plan, thetas, observable)
-        else:
-            c, g = cost_values(plan, thetas, observable), shift_gradients(plan, thetas, observable)
-        costs[done : done + k] = c
-        grads[done : done + k] = g
-        done += k
+    # adjoint differentiation costs about five circuit runs per sample
+    workers = worker_count(check_workers(workers), program, samples, 5)
+    make_observable(cost, program.qubits)  # bad costs fail here, not in a worker
+    if workers == 1:
         if progress is not None:
-            progress(stage, done, samples)
-    return costs, grads
+            progress(stage, 0, samples)
+        return _gradient_block(
+            program, cost, 0, samples, seed, memory_budget, method, dtype, progress, stage
+        )
+    blocks = blocks_for(samples, workers)
+    budget = memory_budget // workers
+    parts = block_map(
+        _gradient_block,
+        [(program, cost, s, c, seed, budget, method, dtype) for s, c in blocks],
+        workers=workers,
+        progress=progress,
+        stage=stage,
+        sizes=[c for _, c in blocks],
+    )
+    return (
+        np.concatenate([c for c, _ in parts]),
+        np.concatenate([g for _, g in parts]),
+    )
 
 
 def summarize_gradients(
@@ -329,6 +372,8 @@ def trainability(
     memory_budget: int = DEFAULT_MEMORY_BUDGET,
     progress: Progress | None = None,
     method: str = "adjoint",
+    dtype: type = np.complex128,
+    workers: int = 1,
 ) -> Trainability:
     """Gradient-variance scan over qubit counts (and, optionally, over layer counts).
 
@@ -348,6 +393,16 @@ def trainability(
         Parameter vectors per point (default 200).
     seed : int
         Seed.
+    memory_budget : int
+        Bytes for state batches; changes speed, never the numbers.
+    progress : callable, optional
+        ``progress(stage, done, total)``.
+    method : str
+        ``"adjoint"`` (default) or ``"shift"``.
+    dtype : numpy complex dtype
+        Engine precision, ``complex128`` (default) or ``complex64``.
+    workers : int
+        Worker processes sharing each point's samples (default 1); same numbers.
 
     Returns
     -------
@@ -398,6 +453,8 @@ def trainability(
                 progress=progress,
                 stage=f"gradients n={n} L={layers}",
                 method=method,
+                dtype=dtype,
+                workers=workers,
             )
             target.append(summarize_gradients(n, layers, c, g))
     fits = fit_decay(points)

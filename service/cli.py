@@ -43,6 +43,7 @@ _FLAG_NAMES = {
     "grad_samples": "--grad-samples",
     "capacity_points": "--capacity-points",
     "gradients": "--gradients",
+    "precision": "--precision",
 }
 
 _TERM = re.compile(r"\s*([+-])?\s*(?:((?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*\*?\s*)?([IXYZ]+)\s*")
@@ -130,6 +131,16 @@ def _int_list(text: str) -> list[int]:
     if not values:
         raise argparse.ArgumentTypeError("expected at least one integer")
     return values
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a positive integer, got {text!r}") from None
+    if not 1 <= value <= 256:
+        raise argparse.ArgumentTypeError(f"expected 1..256, got {value}")
+    return value
 
 
 def _metric_list(text: str) -> list[str]:
@@ -229,7 +240,11 @@ def _run_analysis(
     progress = TerminalProgress()
     try:
         report = analysis.analyze(
-            circuit, options, memory_budget=args.memory_budget, progress=progress
+            circuit,
+            options,
+            memory_budget=args.memory_budget,
+            progress=progress,
+            workers=args.workers,
         )
     finally:
         progress.close()
@@ -419,6 +434,17 @@ def _analysis_flags(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--grad-samples", type=int, help="parameter vectors per scan point (default 200)"
+    )
+    p.add_argument(
+        "--precision",
+        choices=["double", "single"],
+        help="engine precision: double (complex128, default) or single (complex64, faster)",
+    )
+    p.add_argument(
+        "--workers",
+        type=_positive_int,
+        default=1,
+        help="processes sharing the sampling (default 1); the numbers do not depend on it",
     )
     p.add_argument(
         "--gradients",

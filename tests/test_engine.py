@@ -117,3 +117,131 @@ def test_shape_errors():
 def test_memory_budget_too_small_for_one_state():
     with pytest.raises(LimitError, match="memory budget"):
         rows_per_chunk(20, 1 << 20)
+
+
+# -- the fused, tiled engine ----------------------------------------------------------------
+# The per-gate path (run_steps) is the one checked against the dense reference above; the
+# fused schedule must agree with it to rounding, whatever the segment size and tile size.
+
+from analysis._fusion import build_schedule  # noqa: E402
+from analysis._tiles import execute  # noqa: E402
+from analysis.engine import compile_program, run_steps, zero_states  # noqa: E402
+
+
+def _fused(plan, thetas, *, capacity=None, tile=1 << 17, dtype=np.complex128):
+    states = zero_states(thetas.shape[0], plan.qubits, dtype)
+    execute(plan, build_schedule(plan, capacity=capacity), thetas, states, tile=tile)
+    return states
+
+
+@pytest.mark.parametrize("n", [3, 5, 7])
+@pytest.mark.parametrize("capacity", [2, 3, 4])
+@pytest.mark.parametrize("tile", [16, 64, 1 << 17])
+def test_segmented_schedule_matches_gate_by_gate(n, capacity, tile):
+    rng = np.random.default_rng(77 * n + capacity)
+    plan = compile_program(expand(parse_circuit(random_description(rng, n, steps=14))))
+    thetas = rng.uniform(0, 2 * np.pi, size=(5, plan.parameters))
+    want = run_steps(plan, thetas, zero_states(5, n))
+    got = _fused(plan, thetas, capacity=capacity, tile=tile)
+    np.testing.assert_allclose(got, want, atol=1e-12, rtol=0)
+
+
+@pytest.mark.parametrize("n", [13, 14])
+def test_large_circuits_match_gate_by_gate(n):
+    # more than 12 qubits: several segments, each applied to tiles of one sample's state
+    rng = np.random.default_rng(n)
+    plan = compile_program(expand(parse_circuit(random_description(rng, n, steps=12))))
+    thetas = rng.uniform(0, 2 * np.pi, size=(2, plan.parameters))
+    np.testing.assert_allclose(
+        run(plan, thetas), run_steps(plan, thetas, zero_states(2, n)), atol=1e-12, rtol=0
+    )
+
+
+def test_rotations_at_pi_do_not_overflow():
+    # every ry at θ = π has cos(θ/2) ≈ 6e-17: the running factor must be rescaled in time
+    circuit = parse_circuit(
+        {
+            "qubits": 3,
+            "layers": 60,
+            "layer": [
+                {"gate": "ry"},
+                {"gate": "cz", "on": "ring"},
+                {"gate": "rx"},
+                {"gate": "cx", "on": "chain"},
+            ],
+        }
+    )
+    plan = compile_program(expand(circuit))
+    thetas = np.full((3, plan.parameters), np.pi)
+    thetas[1] = np.random.default_rng(0).uniform(0, 2 * np.pi, plan.parameters)
+    got = run(plan, thetas)
+    assert np.all(np.isfinite(got))
+    np.testing.assert_allclose(got, run_steps(plan, thetas, zero_states(3, 3)), atol=1e-10)
+
+
+@pytest.mark.parametrize("n", [4, 13])
+def test_rows_never_depend_on_the_batch(n):
+    # bit for bit: a row of a big batch equals the same row run alone or in another batch
+    rng = np.random.default_rng(3 + n)
+    plan = compile_program(expand(parse_circuit(random_description(rng, n, steps=16))))
+    rows = 300 if n == 4 else 3
+    thetas = rng.uniform(0, 2 * np.pi, size=(rows, plan.parameters))
+    whole = run(plan, thetas)
+    for lo, hi in [(0, 1), (1, 3), (rows - 2, rows)]:
+        np.testing.assert_array_equal(run(plan, thetas[lo:hi]), whole[lo:hi])
+    small_tiles = _fused(plan, thetas, tile=1 << 9)
+    np.testing.assert_array_equal(small_tiles, whole)
+
+
+RING = parse_circuit(
+    {
+        "qubits": 10,
+        "layers": 3,
+        "layer": [{"gate": "rx"}, {"gate": "rz"}, {"gate": "crz", "on": "ring"}],
+    }
+)
+
+
+def test_metrics_with_two_workers_are_bit_identical():
+    from analysis import entangling_capability, fidelities
+    from analysis._batching import worker_count
+    from analysis.trainability import gradient_samples
+
+    program = expand(RING)
+    # big enough that the work really goes to the pool
+    assert worker_count(2, program, 200, 1) == 2
+    one = fidelities(program, pairs=300, seed=5)
+    two = fidelities(program, pairs=300, seed=5, workers=2)
+    small = fidelities(program, pairs=300, seed=5, memory_budget=3 * 16 * 1024 * 7)
+    np.testing.assert_array_equal(one, two)
+    np.testing.assert_array_equal(one, small)
+    a = entangling_capability(program, samples=200, seed=5)
+    b = entangling_capability(program, samples=200, seed=5, workers=2)
+    assert a == b
+    c1, g1 = gradient_samples(program, "local", samples=150, seed=5)
+    c2, g2 = gradient_samples(program, "local", samples=150, seed=5, workers=2)
+    c3, g3 = gradient_samples(
+        program, "local", samples=150, seed=5, memory_budget=3 * 16 * 1024 * 5
+    )
+    np.testing.assert_array_equal(g1, g2)
+    np.testing.assert_array_equal(c1, c2)
+    np.testing.assert_array_equal(g1, g3)
+
+
+def test_bad_worker_count_is_an_option_error():
+    from analysis import OptionError, fidelities
+
+    with pytest.raises(OptionError, match="workers"):
+        fidelities(expand(RING), pairs=10, seed=1, workers=0)
+
+
+def test_single_precision_through_the_metrics():
+    from analysis import entangling_capability, expressibility
+
+    program = expand(RING)
+    double = expressibility(program, pairs=500, seed=2)
+    single = expressibility(program, pairs=500, seed=2, dtype=np.complex64)
+    assert single.kl == pytest.approx(double.kl, abs=1e-3)
+    q2 = entangling_capability(program, samples=200, seed=2).meyer_wallach
+    q1 = entangling_capability(program, samples=200, seed=2, dtype=np.complex64).meyer_wallach
+    assert q1 == pytest.approx(q2, abs=1e-5)

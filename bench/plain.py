@@ -1,0 +1,112 @@
+"""A deliberately plain statevector simulator: the baseline of the naive ratio.
+
+This is the way a first notebook does it: one state at a time, every gate turned into a
+full ``2**n x 2**n`` matrix with ``np.kron`` and multiplied onto the state vector. The
+gate matrices are written out here from their textbook definitions (rotations
+``exp(-iθG/2) = cos(θ/2) I - i sin(θ/2) G``), independently of ``analysis.gates``.
+Qubit 0 is the leftmost ``np.kron`` factor, the project's convention.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+I2 = np.eye(2, dtype=complex)
+X = np.array([[0, 1], [1, 0]], dtype=complex)
+Y = np.array([[0, -1j], [1j, 0]], dtype=complex)
+Z = np.array([[1, 0], [0, -1]], dtype=complex)
+H = np.array([[1, 1], [1, -1]], dtype=complex) / np.sqrt(2)
+S = np.diag([1, 1j])
+T = np.diag([1, np.exp(1j * np.pi / 4)])
+FIXED = {
+    "i": I2,
+    "h": H,
+    "x": X,
+    "y": Y,
+    "z": Z,
+    "s": S,
+    "sdg": S.conj(),
+    "t": T,
+    "tdg": T.conj(),
+    "sx": H @ S @ H,
+}
+PAULI = {"X": X, "Y": Y, "Z": Z}
+
+
+def rotation(paulis: str, theta: float) -> np.ndarray:
+    """``exp(-iθG/2)`` for a Pauli string ``G`` (``G² = I``)."""
+    g = PAULI[paulis[0]]
+    for letter in paulis[1:]:
+        g = np.kron(g, PAULI[letter])
+    return np.cos(theta / 2) * np.eye(len(g)) - 1j * np.sin(theta / 2) * g
+
+
+def controlled(u: np.ndarray) -> np.ndarray:
+    out = np.eye(4, dtype=complex)
+    out[2:, 2:] = u
+    return out
+
+
+def gate(name: str, theta: float | None) -> np.ndarray:
+    """Textbook matrix of a gate, in the basis ``|b_first b_second>``."""
+    if name in FIXED:
+        return FIXED[name]
+    if name in ("rx", "ry", "rz"):
+        return rotation(name[1].upper(), theta)
+    if name in ("rxx", "ryy", "rzz"):
+        return rotation(name[1].upper() * 2, theta)
+    if name in ("cx", "cnot", "cy", "cz"):
+        return controlled(PAULI[name[-1].upper()])
+    if name in ("crx", "cry", "crz"):
+        return controlled(rotation(name[2].upper(), theta))
+    if name == "swap":
+        return np.eye(4, dtype=complex)[[0, 2, 1, 3]]
+    raise KeyError(name)
+
+
+def full_matrix(m: np.ndarray, qubits: tuple[int, ...], n: int) -> np.ndarray:
+    """The ``2**n x 2**n`` matrix of a one- or two-qubit gate, built with ``np.kron``."""
+    if len(qubits) == 1:
+        factors = [I2] * n
+        factors[qubits[0]] = m
+        out = factors[0]
+        for f in factors[1:]:
+            out = np.kron(out, f)
+        return out
+    out = np.zeros((2**n, 2**n), dtype=complex)
+    for r in range(4):
+        for c in range(4):
+            if m[r, c] == 0:
+                continue
+            factors = [I2] * n
+            for pos, q in enumerate(qubits):
+                e = np.zeros((2, 2), dtype=complex)
+                e[(r >> (1 - pos)) & 1, (c >> (1 - pos)) & 1] = 1.0
+                factors[q] = e
+            term = factors[0]
+            for f in factors[1:]:
+                term = np.kron(term, f)
+            out += m[r, c] * term
+    return out
+
+
+def state(program, theta: np.ndarray) -> np.ndarray:  # noqa: ANN001
+    """One state: every operation's dense matrix applied to |0...0>."""
+    n = program.qubits
+    psi = np.zeros(2**n, dtype=complex)
+    psi[0] = 1.0
+    for op in program.operations:
+        angle = op.angle if op.param is None else theta[op.param]
+        psi = full_matrix(gate(op.gate, angle), op.qubits, n) @ psi
+    return psi
+
+
+def fidelities(program, pairs: np.ndarray) -> np.ndarray:  # noqa: ANN001
+    """``|<ψ(θ)|ψ(φ)>|²`` for rows ``[θ, φ]`` of ``pairs`` (shape ``(K, 2P)``)."""
+    p = program.parameters
+    out = np.empty(len(pairs))
+    for k, row in enumerate(pairs):
+        a = state(program, row[:p])
+        b = state(program, row[p:])
+        out[k] = abs(np.vdot(a, b)) ** 2
+    return out

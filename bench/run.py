@@ -1,0 +1,546 @@
+"""haarline's benchmark suite: the figures of issue 6, measured in one run on this machine.
+
+Each figure is a ratio or a wall time, written with its inputs and the baseline it is
+divided by.
+
+    python bench/run.py                      # the full suite (make bench), ~10 minutes
+    python bench/run.py --smoke --out X.json # tiny sizes, a few seconds (the test suite)
+
+Figures (medians of repeated runs):
+
+* ``bandwidth``: logical gate applications x batch x 2^n x 32 bytes per second of the
+  engine, divided by this machine's in-place streaming rate (``np.multiply(a, c, out=a)``
+  on a complex128 array larger than the caches: 16 bytes read and 16 written per
+  element), measured right before each point;
+* ``naive``: per-pair cost of expressibility with a deliberately plain simulator
+  (``bench/plain.py``: one state at a time, dense ``np.kron`` matrices) divided by ours;
+* ``adjoint``: all-parameter gradients by parameter shift divided by adjoint
+  differentiation, for 10..200 parameters;
+* ``references``: wall time of expressibility (5000 pairs) and Meyer-Wallach (2000
+  samples) for the nineteen ``sim2019-*`` circuits at layers 1..5, with 1 and 2 workers;
+* ``scan``: wall time of a gradient-variance scan n = 2..14 (step 2), layers = n, 200
+  samples, ``zz`` cost;
+* ``memory``: peak resident memory of an n = 20 expressibility run against the budget.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import platform
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+import plain  # noqa: E402
+
+import analysis  # noqa: E402
+from analysis import engine  # noqa: E402
+from analysis.gradients import adjoint_gradients, shift_gradients  # noqa: E402
+from analysis.observables import make_observable  # noqa: E402
+from analysis.sampling import Stream, draw_angles  # noqa: E402
+from analysis.trainability import trainability  # noqa: E402
+
+BENCH_FORMAT = 1
+
+FULL = {
+    "repeats": 3,
+    "stream_bytes": 1 << 28,  # 256 MiB, well beyond the 32 MiB of L3
+    "bandwidth_qubits": list(range(12, 23)),
+    "bandwidth_circuit": "ry-cz-ring",
+    "bandwidth_layers": 4,
+    "bandwidth_amplitudes": 1 << 20,  # batch = max(1, 2**20 / 2**n)
+    "naive_qubits": [2, 3, 4, 5, 6, 7, 8],
+    "naive_circuit": "ry-cz-ring",
+    "naive_pairs": {2: 40, 3: 40, 4: 30, 5: 20, 6: 8, 7: 4, 8: 2},
+    "engine_pairs": 5000,
+    "adjoint_circuit": "ry-cz-ring",
+    "adjoint_qubits": 10,
+    "adjoint_parameters": [10, 20, 50, 100, 200],
+    "adjoint_batch": 8,
+    "references_layers": [1, 2, 3, 4, 5],
+    "references_pairs": 5000,
+    "references_samples": 2000,
+    "references_workers": [1, 2],
+    "scan_qubits": [2, 4, 6, 8, 10, 12, 14],
+    "scan_samples": 200,
+    "scan_cost": "zz",
+    "scan_circuit": "ry-cz-ring",
+    "memory_qubits": 20,
+    "memory_circuit": "ry-cz-ring",
+    "memory_pairs": 12,
+    "memory_budgets": [engine.DEFAULT_MEMORY_BUDGET, 128 << 20],
+}
+
+SMOKE = {
+    **FULL,
+    "repeats": 1,
+    "stream_bytes": 1 << 23,
+    "bandwidth_qubits": [6, 9],
+    "bandwidth_layers": 1,
+    "bandwidth_amplitudes": 1 << 12,
+    "naive_qubits": [2, 3],
+    "naive_pairs": {2: 2, 3: 2},
+    "engine_pairs": 64,
+    "adjoint_qubits": 3,
+    "adjoint_parameters": [3, 6],
+    "adjoint_batch": 2,
+    "references_layers": [1],
+    "references_pairs": 50,
+    "references_samples": 20,
+    "references_workers": [1],
+    "references_names": ["sim2019-01", "sim2019-13"],
+    "scan_qubits": [2, 4],
+    "scan_samples": 10,
+    "memory_qubits": 6,
+    "memory_pairs": 4,
+    "memory_budgets": [256 << 20],
+}
+
+TARGETS = {
+    "bandwidth": "ratio >= 1.0 for n >= 18",
+    "naive": "ratio >= 100 at n = 4 and >= 2000 at n = 8",
+    "adjoint": "ratio >= 25 at 100 parameters",
+    "references": "<= 10 s with 2 workers",
+    "scan": "<= 60 s",
+    "memory": "peak resident memory <= 1.25 x budget",
+}
+
+
+def log(message: str) -> None:
+    print(message, file=sys.stderr, flush=True)
+
+
+def timed(fn, repeats: int) -> tuple[float, list[float]]:  # noqa: ANN001
+    """Median wall time of ``repeats`` calls, and every sample."""
+    samples = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        fn()
+        samples.append(time.perf_counter() - t)
+    return statistics.median(samples), samples
+
+
+def logical_gates(program) -> int:  # noqa: ANN001
+    return sum(1 for op in program.operations if op.gate != "i")
+
+
+def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    rows = []
+    circuit = analysis.load_reference(cfg["bandwidth_circuit"])
+    for n in cfg["bandwidth_qubits"]:
+        program = analysis.expand(circuit, qubits=n, layers=cfg["bandwidth_layers"])
+        plan = engine.compile_program(program)
+        batch = max(1, cfg["bandwidth_amplitudes"] >> n)
+        thetas = draw_angles(0, Stream.EXPRESSIBILITY, 0, batch, program.parameters)
+        states = engine.zero_states(batch, n)
+
+        def once(states=states, plan=plan, thetas=thetas) -> None:  # noqa: ANN001
+            states.fill(0)
+            states[:, 0] = 1.0
+            engine.run(plan, thetas, states=states)
+
+        once()  # builds and caches the schedule
+        # stream and engine alternate, and each ratio pairs neighbouring measurements,
+        # so that load from other processes drifting during the run cancels out
+        a = np.ones(cfg["stream_bytes"] // 16, dtype=np.complex128)
+        c = np.complex128(1.0 + 1e-12j)
+        np.multiply(a, c, out=a)
+        gates = logical_gates(program)
+        work = gates * batch * (1 << n) * 32
+        engine_times, stream_times, ratios = [], [], []
+        for _ in range(max(3, cfg["repeats"] + 2)):
+            t = time.perf_counter()
+            np.multiply(a, c, out=a)
+            stream_times.append(time.perf_counter() - t)
+            t = time.perf_counter()
+            once()
+            engine_times.append(time.perf_counter() - t)
+            ratios.append((work / engine_times[-1]) / (2 * a.nbytes / stream_times[-1]))
+        del a
+        median = statistics.median(engine_times)
+        base = {
+            "method": "np.multiply(a, c, out=a), complex128, 32 bytes per element (read + write)",
+            "array_bytes": cfg["stream_bytes"],
+            "bytes_per_second": 2 * cfg["stream_bytes"] / statistics.median(stream_times),
+            "seconds": statistics.median(stream_times),
+            "samples": stream_times,
+        }
+        ratio = statistics.median(ratios)
+        rows.append(
+            {
+                "qubits": n,
+                "circuit": cfg["bandwidth_circuit"],
+                "layers": cfg["bandwidth_layers"],
+                "logical_gates": gates,
+                "kernels": sum(len(s.kernels) for s in engine.schedule(plan).segments),
+                "segments": len(engine.schedule(plan).segments),
+                "batch": batch,
+                "seconds": median,
+                "samples": engine_times,
+                "bytes_per_second": work / median,
+                "baseline": {"name": "streaming rate", **base},
+                "ratio": ratio,
+                "ratio_samples": ratios,
+            }
+        )
+        log(f"bandwidth n={n}: {ratio:.2f} x streaming rate ({median:.3f} s)")
+    return rows
+
+
+def bench_naive(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    rows = []
+    circuit = analysis.load_reference(cfg["naive_circuit"])
+    for n in cfg["naive_qubits"]:
+        program = analysis.expand(circuit, qubits=n)
+        k = cfg["naive_pairs"][n]
+        pairs = draw_angles(1, Stream.EXPRESSIBILITY, 0, k, 2 * program.parameters)
+        plain_fids = plain.fidelities(program, pairs)
+        ours = analysis.fidelities(program, pairs=k, seed=1)
+        agree = float(np.max(np.abs(plain_fids - ours)))
+        naive, naive_samples = timed(
+            lambda p=program, x=pairs: plain.fidelities(p, x), cfg["repeats"]
+        )
+        m = cfg["engine_pairs"]
+        fast, fast_samples = timed(
+            lambda p=program, m=m: analysis.expressibility(p, pairs=m, seed=1), cfg["repeats"]
+        )
+        ratio = (naive / k) / (fast / m)
+        rows.append(
+            {
+                "qubits": n,
+                "circuit": cfg["naive_circuit"],
+                "layers": program.layers,
+                "logical_gates": logical_gates(program),
+                "engine_pairs": m,
+                "engine_seconds_per_pair": fast / m,
+                "engine_samples": fast_samples,
+                "baseline": {
+                    "name": "plain per-sample dense np.kron simulator (bench/plain.py)",
+                    "pairs": k,
+                    "seconds_per_pair": naive / k,
+                    "samples": naive_samples,
+                    "max_fidelity_difference": agree,
+                },
+                "ratio": ratio,
+            }
+        )
+        log(f"naive n={n}: {ratio:.0f}x (plain {naive / k * 1e3:.2f} ms/pair)")
+    return rows
+
+
+def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    rows = []
+    circuit = analysis.load_reference(cfg["adjoint_circuit"])
+    n = cfg["adjoint_qubits"]
+    observable = make_observable("zz", n) if n >= 2 else make_observable("global", n)
+    for p in cfg["adjoint_parameters"]:
+        layers = max(1, p // n)
+        program = analysis.expand(circuit, qubits=n, layers=layers)
+        plan = engine.compile_program(program)
+        thetas = draw_angles(2, Stream.GRADIENTS, 0, cfg["adjoint_batch"], program.parameters)
+        _, adj = adjoint_gradients(plan, thetas, observable)
+        shift = shift_gradients(plan, thetas, observable)
+        agree = float(np.max(np.abs(adj - shift)))
+        t_adj, s_adj = timed(
+            lambda plan=plan, thetas=thetas: adjoint_gradients(plan, thetas, observable),
+            cfg["repeats"],
+        )
+        t_shift, s_shift = timed(
+            lambda plan=plan, thetas=thetas: shift_gradients(plan, thetas, observable),
+            cfg["repeats"],
+        )
+        rows.append(
+            {
+                "parameters": program.parameters,
+                "qubits": n,
+                "layers": layers,
+                "circuit": cfg["adjoint_circuit"],
+                "cost": observable.label,
+                "batch": cfg["adjoint_batch"],
+                "seconds": t_adj,
+                "samples": s_adj,
+                "baseline": {
+                    "name": "parameter shift (analysis.gradients.shift_gradients)",
+                    "seconds": t_shift,
+                    "samples": s_shift,
+                    "max_gradient_difference": agree,
+                },
+                "ratio": t_shift / t_adj,
+            }
+        )
+        log(f"adjoint P={program.parameters}: {t_shift / t_adj:.1f}x")
+    return rows
+
+
+def reference_table(cfg: dict[str, Any], workers: int) -> None:
+    names = cfg.get("references_names") or [
+        r for r in analysis.reference_names() if r.startswith("sim2019-")
+    ]
+    for name in names:
+        circuit = analysis.load_reference(name)
+        for layers in cfg["references_layers"]:
+            program = analysis.expand(circuit, layers=layers)
+            analysis.expressibility(program, pairs=cfg["references_pairs"], seed=1, workers=workers)
+            analysis.entangling_capability(
+                program, samples=cfg["references_samples"], seed=1, workers=workers
+            )
+
+
+def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
+    names = cfg.get("references_names") or [
+        r for r in analysis.reference_names() if r.startswith("sim2019-")
+    ]
+    out: dict[str, Any] = {
+        "circuits": len(names),
+        "layers": cfg["references_layers"],
+        "pairs": cfg["references_pairs"],
+        "samples": cfg["references_samples"],
+        "baseline": None,
+        "unit": "seconds",
+        "runs": [],
+    }
+    for workers in cfg["references_workers"]:
+        start = None
+        if workers > 1:  # start the pool once, outside the timing (work big enough for it)
+            t = time.perf_counter()
+            program = analysis.expand(analysis.load_reference("ry-cz-ring"), qubits=10)
+            analysis.fidelities(program, pairs=512, seed=1, workers=workers)
+            start = time.perf_counter() - t
+        median, samples = timed(lambda w=workers: reference_table(cfg, w), cfg["repeats"])
+        out["runs"].append(
+            {"workers": workers, "seconds": median, "samples": samples, "pool_start_seconds": start}
+        )
+        log(f"references, {workers} worker(s): {median:.2f} s")
+    return out
+
+
+def bench_scan(cfg: dict[str, Any]) -> dict[str, Any]:
+    circuit = analysis.load_reference(cfg["scan_circuit"])
+
+    def once() -> None:
+        trainability(
+            circuit,
+            cost=cfg["scan_cost"],
+            scan=cfg["scan_qubits"],
+            scan_layers="n",
+            samples=cfg["scan_samples"],
+            seed=1,
+        )
+
+    median, samples = timed(once, cfg["repeats"])
+    log(f"scan: {median:.2f} s")
+    return {
+        "circuit": cfg["scan_circuit"],
+        "qubits": cfg["scan_qubits"],
+        "layers": "n",
+        "samples": cfg["scan_samples"],
+        "cost": cfg["scan_cost"],
+        "gradients": "adjoint",
+        "workers": 1,
+        "seconds": median,
+        "run_samples": samples,
+        "baseline": None,
+        "unit": "seconds",
+    }
+
+
+MEMORY_CHILD = """
+import json, resource, sys
+import analysis
+n, pairs, budget, name = int(sys.argv[1]), int(sys.argv[2]), int(sys.argv[3]), sys.argv[4]
+program = analysis.expand(analysis.load_reference(name), qubits=n)
+def status(field):  # this process's own figures (ru_maxrss would include the parent's)
+    with open("/proc/self/status") as f:
+        for line in f:
+            if line.startswith(field + ":"):
+                return int(line.split()[1]) * 1024
+before = status("VmRSS")
+analysis.expressibility(program, pairs=pairs, seed=1, memory_budget=budget)
+print(json.dumps({"rss_before": before, "peak_rss": status("VmHWM"), "layers": program.layers}))
+"""
+
+
+def bench_memory(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    rows = []
+    n = cfg["memory_qubits"]
+    for budget in cfg["memory_budgets"]:
+        t = time.perf_counter()
+        result = subprocess.run(
+            [
+                sys.executable,
+                "-c",
+                MEMORY_CHILD,
+                str(n),
+                str(cfg["memory_pairs"]),
+                str(budget),
+                cfg["memory_circuit"],
+            ],
+            check=True,
+            capture_output=True,
+            text=True,
+            env={**os.environ, "PYTHONPATH": str(HERE.parent)},
+        )
+        seconds = time.perf_counter() - t
+        child = json.loads(result.stdout.strip().splitlines()[-1])
+        grown = child["peak_rss"] - child["rss_before"]
+        rows.append(
+            {
+                "qubits": n,
+                "circuit": cfg["memory_circuit"],
+                "layers": child["layers"],
+                "pairs": cfg["memory_pairs"],
+                "state_bytes": 16 << n,
+                "peak_rss_bytes": child["peak_rss"],
+                "rss_before_run_bytes": child["rss_before"],
+                "run_bytes": grown,
+                "seconds": seconds,
+                "baseline": {"name": "memory budget", "bytes": budget},
+                "ratio": child["peak_rss"] / budget,
+                "run_ratio": grown / budget,
+            }
+        )
+        log(
+            f"memory n={n}, budget {budget >> 20} MiB: peak {child['peak_rss'] / 2**20:.0f} MiB,"
+            f" the run itself {grown / 2**20:.0f} MiB"
+        )
+    return rows
+
+
+def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
+    out = []
+
+    def add(name: str, value: Any, met: bool | None) -> None:
+        out.append({"figure": name, "target": TARGETS[name], "value": value, "met": met})
+
+    bw = [r for r in figures["bandwidth"] if r["qubits"] >= 18]
+    add(
+        "bandwidth",
+        {r["qubits"]: round(r["ratio"], 3) for r in bw} or None,
+        all(r["ratio"] >= 1.0 for r in bw) if bw else None,
+    )
+    nv = {r["qubits"]: r["ratio"] for r in figures["naive"]}
+    add(
+        "naive",
+        {k: round(v) for k, v in nv.items() if k in (4, 8)} or None,
+        (nv[4] >= 100 and nv[8] >= 2000) if 4 in nv and 8 in nv else None,
+    )
+    ad = {r["parameters"]: r["ratio"] for r in figures["adjoint"]}
+    add("adjoint", round(ad[100], 1) if 100 in ad else None, ad[100] >= 25 if 100 in ad else None)
+    two = [r for r in figures["references"]["runs"] if r["workers"] == 2]
+    add(
+        "references",
+        round(two[0]["seconds"], 2) if two else None,
+        two[0]["seconds"] <= 10 if two else None,
+    )
+    full_scan = figures["scan"]["qubits"] == list(range(2, 15, 2))
+    add(
+        "scan",
+        round(figures["scan"]["seconds"], 2),
+        figures["scan"]["seconds"] <= 60 if full_scan else None,
+    )
+    mem = figures["memory"]
+    add("memory", [round(r["ratio"], 3) for r in mem], all(r["ratio"] <= 1.25 for r in mem))
+    return out
+
+
+def table(results: dict[str, Any]) -> str:
+    f = results["figures"]
+    lines = ["| figure | inputs | value | baseline |", "| --- | --- | --- | --- |"]
+    for r in f["bandwidth"]:
+        lines.append(
+            f"| bandwidth ratio | n = {r['qubits']}, {r['circuit']} x{r['layers']}, "
+            f"{r['logical_gates']} gates, batch {r['batch']} | {r['ratio']:.2f} | "
+            f"{r['baseline']['bytes_per_second'] / 1e9:.1f} GB/s streaming |"
+        )
+    for r in f["naive"]:
+        lines.append(
+            f"| naive ratio | n = {r['qubits']}, {r['circuit']} x{r['layers']} | "
+            f"{r['ratio']:.0f}x | {r['baseline']['seconds_per_pair'] * 1e3:.2f} ms/pair plain |"
+        )
+    for r in f["adjoint"]:
+        lines.append(
+            f"| adjoint ratio | P = {r['parameters']}, n = {r['qubits']}, batch {r['batch']} | "
+            f"{r['ratio']:.1f}x | {r['baseline']['seconds']:.3f} s parameter shift |"
+        )
+    ref = f["references"]
+    for r in ref["runs"]:
+        lines.append(
+            f"| reference table | {ref['circuits']} circuits x layers "
+            f"{ref['layers'][0]}..{ref['layers'][-1]}, {ref['pairs']} pairs + {ref['samples']} "
+            f"samples, {r['workers']} worker(s) | {r['seconds']:.2f} s | - |"
+        )
+    s = f["scan"]
+    lines.append(
+        f"| scan | n = {s['qubits'][0]}..{s['qubits'][-1]}, layers = n, {s['samples']} samples, "
+        f"{s['cost']} | {s['seconds']:.2f} s | - |"
+    )
+    for r in f["memory"]:
+        lines.append(
+            f"| memory | n = {r['qubits']}, {r['pairs']} pairs | "
+            f"{r['run_bytes'] / 2**20:.0f} MiB run, {r['peak_rss_bytes'] / 2**20:.0f} MiB peak | "
+            f"budget {r['baseline']['bytes'] / 2**20:.0f} MiB |"
+        )
+    lines.append("")
+    lines.append("| target | value | met |")
+    lines.append("| --- | --- | --- |")
+    for t in results["targets"]:
+        lines.append(f"| {t['figure']}: {t['target']} | {t['value']} | {t['met']} |")
+    return "\n".join(lines)
+
+
+SECTIONS = ("bandwidth", "naive", "adjoint", "references", "scan", "memory")
+
+
+def main(argv: list[str] | None = None) -> dict[str, Any]:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--smoke", action="store_true", help="tiny sizes (seconds)")
+    parser.add_argument("--out", default=str(HERE / "results.json"), help="JSON output")
+    args = parser.parse_args(argv)
+    cfg = SMOKE if args.smoke else FULL
+    started = time.time()
+    t0 = time.perf_counter()
+    figures = {
+        "bandwidth": bench_bandwidth(cfg),
+        "naive": bench_naive(cfg),
+        "adjoint": bench_adjoint(cfg),
+        "references": bench_references(cfg),
+        "scan": bench_scan(cfg),
+        "memory": bench_memory(cfg),
+    }
+    results: dict[str, Any] = {
+        "bench_format": BENCH_FORMAT,
+        "mode": "smoke" if args.smoke else "full",
+        "haarline_version": analysis.__version__,
+        "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(started)),
+        "machine": {
+            "cpus": os.cpu_count(),
+            "processor": platform.processor() or platform.machine(),
+            "python": platform.python_version(),
+            "numpy": np.__version__,
+            "load_average_at_start": list(os.getloadavg()),
+        },
+        "repeats": cfg["repeats"],
+        "statistic": "median",
+        "figures": figures,
+    }
+    results["targets"] = check_targets(figures)
+    results["machine"]["load_average_at_end"] = list(os.getloadavg())
+    results["wall_seconds"] = time.perf_counter() - t0
+    Path(args.out).write_text(json.dumps(results, indent=1) + "\n")
+    print(table(results))
+    print(f"\nwrote {args.out} in {results['wall_seconds']:.0f} s")
+    return results
+
+
+if __name__ == "__main__":
+    main()

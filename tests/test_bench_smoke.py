@@ -1,0 +1,34 @@
+"""The benchmark script at tiny sizes, so that it never rots (CI times nothing)."""
+
+import importlib.util
+import json
+from pathlib import Path
+
+BENCH = Path(__file__).resolve().parent.parent / "bench" / "run.py"
+
+
+def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
+    spec = importlib.util.spec_from_file_location("haarline_bench", BENCH)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    out = tmp_path / "results.json"
+    module.main(["--smoke", "--out", str(out)])
+    results = json.loads(out.read_text())
+    assert results["bench_format"] == 1 and results["mode"] == "smoke"
+    figures = results["figures"]
+    assert set(figures) == {"bandwidth", "naive", "adjoint", "references", "scan", "memory"}
+    for name in ("bandwidth", "naive", "adjoint", "memory"):
+        assert figures[name], name
+        for row in figures[name]:
+            assert row["ratio"] > 0 and "baseline" in row, name
+    for row in figures["bandwidth"]:
+        base = row["baseline"]
+        assert base["bytes_per_second"] > 0 and base["array_bytes"] > 0
+        assert row["ratio"] > 0 and len(row["ratio_samples"]) >= 3
+    # the plain baseline computes the same fidelities, and both gradient methods agree
+    assert all(r["baseline"]["max_fidelity_difference"] < 1e-10 for r in figures["naive"])
+    assert all(r["baseline"]["max_gradient_difference"] < 1e-10 for r in figures["adjoint"])
+    assert [r["workers"] for r in figures["references"]["runs"]] == [1]
+    assert {t["figure"] for t in results["targets"]} == set(figures)
+    printed = capsys.readouterr().out
+    assert "| bandwidth ratio |" in printed and "| target | value | met |" in printed
