@@ -507,6 +507,7 @@ def main(argv: list[str] | None = None) -> dict[str, Any]:
     parser.add_argument("--out", default=str(HERE / "results.json"), help="JSON output")
     args = parser.parse_args(argv)
     cfg = SMOKE if args.smoke else FULL
+    load_at_start = list(os.getloadavg())
     started = time.time()
     t0 = time.perf_counter()
     figures = {
@@ -527,7 +528,7 @@ def main(argv: list[str] | None = None) -> dict[str, Any]:
             "processor": platform.processor() or platform.machine(),
             "python": platform.python_version(),
             "numpy": np.__version__,
-            "load_average_at_start": list(os.getloadavg()),
+            "load_average_at_start": load_at_start,
         },
         "repeats": cfg["repeats"],
         "statistic": "median",
