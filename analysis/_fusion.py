@@ -31,8 +31,6 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
-from .gates import lookup
-
 __all__ = [
     "SEGMENT_QUBITS",
     "TAIL_QUBITS",
@@ -420,7 +418,3 @@ def build_schedule(plan, *, capacity: int | None = None) -> Schedule:  # noqa: A
         kernels = _kernels(steps, order, local, phases=len(local) < n)
         segments.append(Segment(local, tuple(kernels)))
     return Schedule(n, tuple(segments))
-
-
-def _target_spec(step):  # noqa: ANN001, ANN202
-    return lookup(step.spec.target) if step.spec.target is not None else step.spec

@@ -150,8 +150,8 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
     m = float(pairs)
     total = 0.0
     for qj, lqj in zip(q, log_q, strict=True):
-        if qj <= 0.0:
-            continue
+        if qj <= 0.0 or qj >= 1.0:
+            continue  # an empty or a certain bin: p̂ = q exactly, so it adds no bias
         mean = m * qj
         sd = np.sqrt(mean * (1.0 - qj))
         lo = max(1, int(np.floor(mean - 12 * sd - 12)))

@@ -192,3 +192,9 @@ def test_one_qubit_rotations_reach_product_of_one_qubit_haar_states():
 def test_second_moment_of_fixed_circuit_is_one():
     e = expressibility(program({"qubits": 2, "layer": [{"gate": "h"}]}), pairs=50)
     assert math.isclose(e.second_moment, 1.0, rel_tol=1e-12)
+
+
+def test_plugin_bias_when_one_bin_holds_all_the_haar_mass():
+    # at 12 qubits and 2 bins the first bin's Haar mass rounds to exactly 1.0; such a bin
+    # contributes no bias and must not warn (pytest runs with warnings as errors)
+    assert plugin_bias(12, 2, 100) == pytest.approx(0.0, abs=1e-12)
