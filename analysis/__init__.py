@@ -18,7 +18,7 @@ from .algebra import Algebra, generate_algebra, independent_count
 from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
 from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .compare import compare_markdown, compare_reports
-from .comparison_plot import comparison_png, comparison_series
+from .comparison_plot import comparison_files, comparison_png, comparison_series
 from .cost import Estimate, estimate
 from .diagram import circuit_diagram_png, diagram_layout
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
@@ -130,6 +130,7 @@ __all__ = [
     "circuit_schema",
     "compare_markdown",
     "compare_reports",
+    "comparison_files",
     "comparison_png",
     "comparison_series",
     "compile_program",

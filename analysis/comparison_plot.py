@@ -22,7 +22,7 @@ if TYPE_CHECKING:
     from matplotlib.figure import Figure
     from matplotlib.transforms import Bbox
 
-__all__ = ["comparison_png", "comparison_series"]
+__all__ = ["comparison_files", "comparison_png", "comparison_series"]
 
 Report = Mapping[str, Any]
 
@@ -149,7 +149,7 @@ def comparison_png(reports: Sequence[Report]) -> bytes:
     entries = comparison_series(reports)
     scatter = [e for e in entries if e["kl"] is not None and e["meyer_wallach"] is not None]
     curves = [e for e in entries if e["variance"] is not None]
-    if not scatter and not curves:
+    if not _drawable(entries):
         raise ValueError(
             "no report has both 'expressibility' and 'entanglement', nor "
             "'trainability.points'; nothing to compare"
@@ -286,3 +286,24 @@ def _overlap(a: Bbox, b: Bbox) -> float:
     w = min(a.x1, b.x1) - max(a.x0, b.x0)
     h = min(a.y1, b.y1) - max(a.y0, b.y0)
     return float(w * h) if w > 0 and h > 0 else 0.0
+
+
+def _drawable(entries: Sequence[dict[str, Any]]) -> bool:
+    return any(
+        (e["kl"] is not None and e["meyer_wallach"] is not None) or e["variance"] is not None
+        for e in entries
+    )
+
+
+def comparison_files(reports: Sequence[Report]) -> dict[str, bytes]:
+    """``{"comparison.png": …}`` when the reports support the plot, else ``{}``.
+
+    Examples
+    --------
+    >>> c = {"name": "a", "qubits": 2, "layers": 1, "parameters": 2}
+    >>> comparison_files([{"circuit": c, "capacity": {"qfi_rank": 2}}])
+    {}
+    """
+    if not reports or not _drawable(comparison_series(reports)):
+        return {}
+    return {"comparison.png": comparison_png(reports)}

@@ -14,9 +14,9 @@ from dataclasses import dataclass
 from .circuit import Circuit
 from .engine import CHUNK_AMPLITUDES, WORK_FACTOR, rows_per_chunk
 from .expressibility import BOOTSTRAP_RESAMPLES
-from .options import DEFAULT_SCAN, AnalysisOptions
+from .options import AnalysisOptions
 from .program import expand
-from .trainability import uses_only_patterns
+from .trainability import default_scan, layers_at
 
 __all__ = ["Estimate", "estimate"]
 
@@ -72,21 +72,8 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
         cost += options.samples * (g + n) * dim
         memory = max(memory, batch_memory(n))
     if "trainability" in metrics:
-        scan = options.scan
-        if scan is None:
-            scan = (
-                list(DEFAULT_SCAN)
-                if uses_only_patterns(circuit) and isinstance(options.cost, str)
-                else [circuit.qubits]
-            )
-        sizes = []
-        for q in scan:
-            layers = (
-                circuit.layers
-                if options.scan_layers is None
-                else (q if options.scan_layers == "n" else int(options.scan_layers))
-            )
-            sizes.append((q, layers))
+        scan = options.scan or default_scan(circuit, options.cost)
+        sizes = [(q, layers_at(options.scan_layers, q, circuit)) for q in scan]
         sizes += [(circuit.qubits, layers) for layers in options.depth_scan or []]
         per_gate = 4.0 if options.gradients == "adjoint" else None
         for q, layers in sizes:

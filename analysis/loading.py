@@ -18,7 +18,7 @@ import yaml
 from .circuit import MAX_DESCRIPTION_BYTES, Circuit, _describe, parse_circuit
 from .errors import CircuitError, Problem
 
-__all__ = ["decode_text", "load_circuit", "parse_circuit_text"]
+__all__ = ["decode_text", "load_circuit", "parse_circuit_text", "read_file"]
 
 
 _YAML_TAG = "tag:yaml.org,2002:"
@@ -224,23 +224,22 @@ def parse_circuit_text(
     return parse_circuit(data, source=source)
 
 
-def load_circuit(path: str | Path) -> Circuit:
-    """Read a description from a ``.json``, ``.yaml`` or ``.yml`` file.
+def read_file(path: str | Path, *, limit: int = MAX_DESCRIPTION_BYTES) -> bytes:
+    """Read at most ``limit`` bytes of a file, or raise a ``CircuitError`` that says why.
 
-    Raises
-    ------
-    CircuitError
-        If the file is missing, too large, not valid JSON/YAML, or not a valid description.
+    The read is bounded even for special files that report no size.
     """
     path = Path(path)
     source = str(path)
-    too_big = f"; the limit is {MAX_DESCRIPTION_BYTES} bytes"
     try:
         size = path.stat().st_size
-        if path.is_file() and size > MAX_DESCRIPTION_BYTES:
-            raise CircuitError([Problem("(root)", f"file is {size} bytes{too_big}")], source=source)
-        with path.open("rb") as handle:  # bounded read: special files may not report a size
-            raw = handle.read(MAX_DESCRIPTION_BYTES + 1)
+        if path.is_file() and size > limit:
+            raise CircuitError(
+                [Problem("(root)", f"file is {size} bytes; the limit is {limit} bytes")],
+                source=source,
+            )
+        with path.open("rb") as handle:
+            raw = handle.read(limit + 1)
     except FileNotFoundError:
         raise CircuitError([Problem("(root)", "no such file")], source=source) from None
     except IsADirectoryError:
@@ -254,10 +253,28 @@ def load_circuit(path: str | Path) -> Circuit:
         raise CircuitError(
             [Problem("(root)", f"cannot read the file: {why}")], source=source
         ) from None
-    if len(raw) > MAX_DESCRIPTION_BYTES:
+    if len(raw) > limit:
         raise CircuitError(
-            [Problem("(root)", f"file is larger than the limit of {MAX_DESCRIPTION_BYTES} bytes")],
+            [Problem("(root)", f"file is larger than the limit of {limit} bytes")],
             source=source,
         )
-    kind = "yaml" if path.suffix.lower() in (".yaml", ".yml") else "json"
-    return parse_circuit_text(raw, kind=kind, source=source)
+    return raw
+
+
+def load_circuit(path: str | Path) -> Circuit:
+    """Read a description from a ``.json``, ``.yaml``/``.yml`` or OpenQASM ``.qasm`` file.
+
+    Raises
+    ------
+    CircuitError
+        If the file is missing, too large, not valid JSON/YAML/OpenQASM, or not a valid
+        description.
+    """
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix == ".qasm":
+        from .qasm import MAX_QASM_BYTES, parse_qasm
+
+        return parse_qasm(read_file(path, limit=MAX_QASM_BYTES), source=str(path))
+    kind = "yaml" if suffix in (".yaml", ".yml") else "json"
+    return parse_circuit_text(read_file(path), kind=kind, source=str(path))

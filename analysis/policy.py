@@ -31,7 +31,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_valida
 
 from .circuit import _describe
 from .errors import InputError, Problem, format_path
-from .loading import decode_text
+from .loading import decode_text, read_file
 
 __all__ = [
     "Policy",
@@ -159,16 +159,7 @@ def load_policy(path: str) -> Policy:
     """Read a policy from a ``.json``, ``.yaml`` or ``.yml`` file."""
     kind = "yaml" if path.lower().endswith((".yaml", ".yml")) else "json"
     try:
-        with open(path, "rb") as fh:
-            raw = fh.read(1_048_577)
-    except OSError as exc:
-        raise PolicyError(
-            [Problem("(root)", exc.strerror or "cannot read the file")], source=path
-        ) from None
-    if len(raw) > 1_048_576:
-        raise PolicyError([Problem("(root)", "policy file is larger than 1 MiB")], source=path)
-    try:
-        data = decode_text(raw, kind=kind, source=path)
+        data = decode_text(read_file(path), kind=kind, source=path)
     except InputError as exc:
         raise PolicyError(exc.problems, source=path) from None
     return parse_policy(data, source=path)

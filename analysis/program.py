@@ -153,7 +153,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                 [
                     Problem(
                         where,
-                        f"got {_show(on)}; the one-qubit gate {step.gate!r} "
+                        f"got {_describe(on)}; the one-qubit gate {step.gate!r} "
                         "takes 'all' or a list of qubit indices",
                     )
                 ]
@@ -163,7 +163,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                 [
                     Problem(
                         where,
-                        f"expected 'all' or a non-empty list of qubit indices, got {_show(on)}",
+                        f"expected 'all' or a non-empty list of qubit indices, got {_describe(on)}",
                     )
                 ]
             )
@@ -172,7 +172,11 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
         for i, q in enumerate(on):
             if not _is_int(q):
                 raise CircuitError(
-                    [Problem(f"{where}[{i}]", f"expected a qubit index (integer), got {_show(q)}")]
+                    [
+                        Problem(
+                            f"{where}[{i}]", f"expected a qubit index (integer), got {_describe(q)}"
+                        )
+                    ]
                 )
             if not 0 <= q < n:
                 raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is out of range {rng}")])
@@ -186,7 +190,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
     if isinstance(on, str):
         if on not in TWO_QUBIT_PATTERNS:
             hint = " ('all' is for one-qubit gates)" if on in ONE_QUBIT_PATTERNS else ""
-            got = f"got {_show(on)}"
+            got = f"got {_describe(on)}"
             if "on" not in step.model_fields_set:
                 got = f"'on' is missing, so it defaults to {on!r}"
             raise CircuitError(
@@ -221,7 +225,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                 Problem(
                     where,
                     f"expected one of {patterns} or a non-empty list of "
-                    f"[first, second] pairs, got {_show(on)}",
+                    f"[first, second] pairs, got {_describe(on)}",
                 )
             ]
         )
@@ -232,7 +236,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                 [
                     Problem(
                         f"{where}[{i}]",
-                        f"expected a pair [first, second] of qubit indices, got {_show(pair)}",
+                        f"expected a pair [first, second] of qubit indices, got {_describe(pair)}",
                     )
                 ]
             )
@@ -242,7 +246,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                     [
                         Problem(
                             f"{where}[{i}][{j}]",
-                            f"expected a qubit index (integer), got {_show(q)}",
+                            f"expected a qubit index (integer), got {_describe(q)}",
                         )
                     ]
                 )
@@ -255,7 +259,7 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
                 [
                     Problem(
                         f"{where}[{i}]",
-                        f"pair {_show(pair)} uses qubit "
+                        f"pair {_describe(pair)} uses qubit "
                         f"{pair[0]} twice; a two-qubit gate needs two "
                         "different qubits",
                     )
@@ -263,10 +267,6 @@ def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
             )
         out.append((pair[0], pair[1]))
     return out
-
-
-def _show(value: Any) -> str:
-    return _describe(value)
 
 
 def _check_step(step: Step, path: str, section: str) -> None:
@@ -348,10 +348,12 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     n = circuit.qubits if qubits is None else qubits
     reps = circuit.layers if layers is None else layers
     if not (_is_int(n) and 1 <= n <= MAX_QUBITS):
-        raise CircuitError([Problem("qubits", f"got {_show(n)}; allowed range is 1..{MAX_QUBITS}")])
+        raise CircuitError(
+            [Problem("qubits", f"got {_describe(n)}; allowed range is 1..{MAX_QUBITS}")]
+        )
     if not (_is_int(reps) and 1 <= reps <= MAX_LAYERS):
         raise CircuitError(
-            [Problem("layers", f"got {_show(reps)}; allowed range is 1..{MAX_LAYERS}")]
+            [Problem("layers", f"got {_describe(reps)}; allowed range is 1..{MAX_LAYERS}")]
         )
     sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
     targets: dict[str, list[tuple[int, ...]]] = {}

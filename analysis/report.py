@@ -23,9 +23,9 @@ from .entanglement import Entanglement, entangling_capability
 from .expressibility import Expressibility, expressibility
 from .lie import lie_diagnosis
 from .lie_variance import deep_loss_variance
-from .options import DEFAULT_SCAN, AnalysisOptions
+from .options import AnalysisOptions
 from .program import Program, expand, facts
-from .trainability import trainability, uses_only_patterns
+from .trainability import default_scan, trainability, uses_only_patterns
 
 __all__ = ["REPORT_FORMAT", "analyze", "cautions"]
 
@@ -186,12 +186,8 @@ def analyze(
         t = time.perf_counter()
         scan, note = options.scan, None
         if scan is None:
-            if not isinstance(options.cost, str):
-                scan = [circuit.qubits]  # a Pauli sum is fixed to its qubit count
-            elif uses_only_patterns(circuit):
-                scan = list(DEFAULT_SCAN)
-            else:
-                scan = [circuit.qubits]
+            scan = default_scan(circuit, options.cost)
+            if isinstance(options.cost, str) and not uses_only_patterns(circuit):
                 note = (
                     "The trainability scan ran at the circuit's own qubit count only: the "
                     "description lists explicit qubits, so it does not exist at other counts. "

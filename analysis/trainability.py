@@ -44,6 +44,8 @@ __all__ = [
     "trainability",
     "uses_only_patterns",
     "verdict",
+    "default_scan",
+    "layers_at",
 ]
 
 MIN_FIT_POINTS = 4
@@ -352,7 +354,22 @@ def uses_only_patterns(circuit: Circuit) -> bool:
     return all(isinstance(step.on, str) for step in steps)
 
 
-def _layers_at(rule: int | str | None, n: int, circuit: Circuit) -> int:
+def default_scan(circuit: Circuit, cost: Any) -> list[int]:
+    """Qubit counts scanned when none are given.
+
+    ``DEFAULT_SCAN`` (2, 4, 6, 8) for a circuit written with placement patterns and a named
+    cost; the circuit's own count otherwise (explicit qubit lists do not exist at other
+    counts, and a Pauli-sum cost is fixed to its length).
+    """
+    from .options import DEFAULT_SCAN
+
+    if isinstance(cost, str) and uses_only_patterns(circuit):
+        return list(DEFAULT_SCAN)
+    return [circuit.qubits]
+
+
+def layers_at(rule: int | str | None, n: int, circuit: Circuit) -> int:
+    """Layers of a scan point at ``n`` qubits: as described (``None``), ``n``, or a count."""
     if rule is None:
         return circuit.layers
     if rule == "n":
@@ -425,7 +442,7 @@ def trainability(
         if scan_layers is None
         else ("layers = n" if scan_layers == "n" else f"layers = {scan_layers}")
     )
-    work = [(n, _layers_at(scan_layers, n, circuit)) for n in qubit_counts]
+    work = [(n, layers_at(scan_layers, n, circuit)) for n in qubit_counts]
     depth_work = [(circuit.qubits, L) for L in sorted(set(layer_scan or []))]
     points: list[VariancePoint] = []
     layer_points: list[VariancePoint] = []

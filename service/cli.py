@@ -169,30 +169,7 @@ def load(spec: str) -> analysis.Circuit:
                 source="<stdin>",
             )
         return analysis.parse_circuit_text(data, source="<stdin>")
-    if spec.lower().endswith(".qasm"):
-        return _load_qasm(spec)
     return analysis.load_circuit(spec)
-
-
-def _load_qasm(path: str) -> analysis.Circuit:
-    """Read an OpenQASM 3 program file (see :mod:`analysis.qasm` for the subset)."""
-    limit = analysis.qasm.MAX_QASM_BYTES
-    try:
-        with open(path, "rb") as fh:
-            data = fh.read(limit + 1)
-    except FileNotFoundError:
-        raise analysis.CircuitError(
-            [analysis.Problem("(root)", "no such file")], source=path
-        ) from None
-    except OSError as exc:
-        raise analysis.CircuitError(
-            [analysis.Problem("(root)", exc.strerror or "cannot read the file")], source=path
-        ) from None
-    if len(data) > limit:
-        raise analysis.CircuitError(
-            [analysis.Problem("(root)", f"the program is larger than {limit} bytes")], source=path
-        )
-    return analysis.parse_qasm(data, source=path)
 
 
 def _source_name(spec: str) -> str:

@@ -43,7 +43,7 @@ def write_analysis(
 ) -> list[str]:
     """Write ``report.json``, every PNG, ``summary.md`` and ``report.html``; return PNG names."""
     path = _target(directory)
-    pngs = _plots(report, program)
+    pngs = analysis.plot_files(report, program)
     for name, data in pngs.items():
         _write(path / name, data)
     images = sorted(pngs)
@@ -63,18 +63,11 @@ def write_analysis(
 def write_comparison(directory: str, result: dict[str, Any]) -> list[str]:
     """Write ``comparison.json``, ``comparison.md`` and the comparison plot."""
     path = _target(directory)
-    images: list[str] = []
-    plots = getattr(analysis, "comparison_png", None)
-    if plots is not None:
-        _write(path / "comparison.png", plots(result["reports"]))
-        images.append("comparison.png")
+    pngs = analysis.comparison_files(result["reports"])
+    for name, data in pngs.items():
+        _write(path / name, data)
+    images = sorted(pngs)
     _write(path / "comparison.json", json.dumps(result, indent=2, allow_nan=False).encode())
     _write(path / "comparison.md", analysis.compare_markdown(result, images=images).encode())
-    pngs = {name: (path / name).read_bytes() for name in images}
     _write(path / "comparison.html", comparison_page(result, pngs).encode())
     return images
-
-
-def _plots(report: dict[str, Any], program: analysis.Program) -> dict[str, bytes]:
-    plot_files = getattr(analysis, "plot_files", None)
-    return {} if plot_files is None else plot_files(report, program)

@@ -46,12 +46,7 @@ def circuit_of(spec: dict[str, Any]) -> analysis.Circuit:
     if spec.get("reference"):
         return analysis.load_reference(spec["reference"])
     if spec.get("qasm") is not None:
-        parse_qasm = getattr(analysis, "parse_qasm", None)
-        if parse_qasm is None:
-            raise analysis.CircuitError(
-                [analysis.Problem("qasm", "OpenQASM input is not available in this version")]
-            )
-        return parse_qasm(spec["qasm"], source="qasm")
+        return analysis.parse_qasm(spec["qasm"], source="qasm")
     raise analysis.CircuitError([analysis.Problem("(root)", "no circuit given")])
 
 
@@ -73,16 +68,12 @@ def run_request(
             )
             sources.append(spec.get("reference") or f"circuits[{i}]")
         result = analysis.compare_reports(reports, sources)
-        images: dict[str, bytes] = {}
-        plot = getattr(analysis, "comparison_png", None)
-        if plot is not None:
-            images["comparison.png"] = plot(reports)
+        images = analysis.comparison_files(reports)
         links = [f"plots/{name}" for name in sorted(images)]
         return result, analysis.compare_markdown(result, images=links), images
     circuit = circuit_of(request)
     report = analysis.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
-    plot_files = getattr(analysis, "plot_files", None)
-    images = plot_files(report, analysis.expand(circuit)) if plot_files is not None else {}
+    images = analysis.plot_files(report, analysis.expand(circuit))
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
     return report, analysis.to_markdown(report, images=links, page="page"), images

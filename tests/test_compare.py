@@ -91,3 +91,17 @@ def test_out_into_a_file_is_an_input_error(capsys, tmp_path):
     blocker.write_text("x")
     assert cli.main(["analyze", "ref:ry-cz-ring", *FAST, "--out", str(blocker / "sub")]) == 2
     assert "--out" in capsys.readouterr().err
+
+
+def test_compare_out_without_plottable_metrics_writes_no_plot(capsys, tmp_path):
+    # capacity alone gives nothing to draw: the files are written, the plot is left out
+    out = tmp_path / "cap"
+    code = cli.main(
+        ["compare", "ref:sim2019-01", "ref:sim2019-02", "--metrics", "capacity", "--out", str(out)]
+    )
+    assert code == 0
+    assert sorted(p.name for p in out.iterdir()) == [
+        "comparison.html",
+        "comparison.json",
+        "comparison.md",
+    ]

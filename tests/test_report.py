@@ -183,6 +183,7 @@ def test_public_api_is_complete():
 
 
 _MODULE_ONLY = {
+    "read_file",
     "option_problems",
     "decode_text",
     "check_metrics",
