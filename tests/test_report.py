@@ -192,6 +192,8 @@ _MODULE_ONLY = {
     "RANKING_RULE",
     # helpers kept at module level on purpose
     "uses_only_patterns",
+    "default_scan",
+    "layers_at",
     "parse_cost",
     "format_path",
     "validation_problems",
