@@ -36,9 +36,9 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
-from scipy import special
 
 from ._batching import Progress
+from ._intervals import log_symmetric_interval
 from .algebra import Algebra
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
@@ -387,11 +387,7 @@ def loss_variance(
     y = (costs - costs.mean()) ** 2
     v = float(s / (s - 1) * y.mean())
     se = float(s / (s - 1) * y.std(ddof=1) / math.sqrt(s))
-    if v > 0:
-        t = float(special.stdtrit(s - 1, 0.5 + confidence / 2))
-        interval = (v * math.exp(-t * se / v), v * math.exp(t * se / v))
-    else:
-        interval = (0.0, 0.0)
+    interval = log_symmetric_interval(v, se, s - 1, confidence)
     return LossVariance(
         qubits=program.qubits,
         layers=program.layers,

@@ -21,9 +21,9 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import special
 
 from ._batching import Progress, block_map, blocks_for, check_workers, worker_count
+from ._intervals import log_symmetric_interval
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
 from .errors import CircuitError, OptionError, Problem
@@ -191,12 +191,7 @@ def summarize_gradients(
     y = (centred**2).mean(axis=1)
     v = float(per_param.mean())
     se = float(s / (s - 1) * y.std(ddof=1) / math.sqrt(s))
-    if v > 0:
-        t = float(special.stdtrit(s - 1, 0.975))
-        width = t * se / v
-        interval = (v * math.exp(-width), v * math.exp(width))
-    else:
-        interval = (0.0, 0.0)
+    interval = log_symmetric_interval(v, se, s - 1)
     return VariancePoint(
         qubits=qubits,
         layers=layers,
