@@ -33,6 +33,7 @@ from .expressibility import (
 )
 from .gates import GATES, GateSpec, gate_matrix, lookup
 from .generators import CircuitGenerators, circuit_generators, rotation_generator
+from .gradient_variance import VariancePoint
 from .gradients import adjoint_gradients, cost_values, shift_gradients
 from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
 from .ideals import Ideal, simple_algebra_names
@@ -78,7 +79,7 @@ from .report import REPORT_FORMAT, analyze
 from .sampling import Stream, draw_angles
 from .scan_plots import sweep_png, sweep_series, variance_scan_png, variance_series
 from .summary import to_markdown, to_text
-from .trainability import Trainability, VariancePoint, trainability
+from .trainability import Trainability, trainability
 
 __all__ = [
     "DEFAULT_MEMORY_BUDGET",

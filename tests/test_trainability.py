@@ -6,13 +6,9 @@ import numpy as np
 import pytest
 
 from analysis import parse_circuit
-from analysis.trainability import (
-    VariancePoint,
-    fit_decay,
-    summarize_gradients,
-    trainability,
-    verdict,
-)
+from analysis.gradient_variance import VariancePoint, summarize_gradients
+from analysis.plateau import fit_decay, verdict
+from analysis.trainability import trainability
 
 RX_PRODUCT = parse_circuit({"qubits": 2, "layer": [{"gate": "rx"}]})
 
