@@ -63,6 +63,7 @@ from .pauli import (
     pauli_values,
     product_phase,
 )
+from .placements import placement
 from .plots import (
     fidelity_histogram_png,
     fidelity_series,
@@ -71,7 +72,7 @@ from .plots import (
     plot_files,
 )
 from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
-from .program import Operation, Program, expand, facts, placement
+from .program import Operation, Program, expand, facts
 from .qasm import parse_qasm
 from .qasm_export import to_qasm
 from .references import load_reference, reference_names

@@ -192,6 +192,7 @@ _MODULE_ONLY = {
     "RANKING_RULE",
     # helpers kept at module level on purpose
     "uses_only_patterns",
+    "step_targets",
     "default_scan",
     "layers_at",
     "parse_cost",
