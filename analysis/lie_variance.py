@@ -42,12 +42,11 @@ from ._intervals import log_symmetric_interval
 from .algebra import Algebra
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
-from .errors import CircuitError, Problem
 from .generators import CircuitGenerators
 from .gradients import cost_values
 from .observables import make_observable
 from .pauli import PauliExpansion, diagonal_expansion, pauli_values
-from .program import Program, expand
+from .program import Program, expand_at
 from .sampling import Stream, draw_angles
 
 __all__ = [
@@ -253,16 +252,6 @@ def _with(p: VariancePrediction, reason: str) -> VariancePrediction:
     return replace(p, reason=reason, variance=None, applies=False)
 
 
-def _expand(circuit: Circuit, n: int, layers: int) -> Program:
-    try:
-        return expand(circuit, qubits=n, layers=layers)
-    except CircuitError as exc:
-        raise CircuitError(
-            [Problem(p.path, f"at {n} qubits, {layers} layers: {p.message}") for p in exc.problems],
-            source=exc.source,
-        ) from exc
-
-
 def deep_layers(
     circuit: Circuit, qubits: int, dimension: int, *, factor: float = 8.0, limit: int = 2000
 ) -> int:
@@ -280,8 +269,8 @@ def deep_layers(
     >>> deep_layers(c, 3, 15)  # 5 parameters per layer, 8 x 15 = 120 parameters
     24
     """
-    one = _expand(circuit, qubits, 1).parameters
-    per = _expand(circuit, qubits, 2).parameters - one
+    one = expand_at(circuit, qubits, 1).parameters
+    per = expand_at(circuit, qubits, 2).parameters - one
     if per <= 0:
         return circuit.layers
     want = math.ceil(max(0.0, factor * dimension - (one - per)) / per)
@@ -438,10 +427,10 @@ def deep_loss_variance(
         "memory_budget": memory_budget,
         "progress": progress,
     }
-    deep = loss_variance(_expand(circuit, qubits, layers), cost, **options)
+    deep = loss_variance(expand_at(circuit, qubits, layers), cost, **options)
     if layers < 2:
         return deep
-    half = loss_variance(_expand(circuit, qubits, layers // 2), cost, **options)
+    half = loss_variance(expand_at(circuit, qubits, layers // 2), cost, **options)
     settled = half.interval[0] <= deep.interval[1] and deep.interval[0] <= half.interval[1]
     check = {"layers": half.layers, "variance": half.variance, "interval": list(half.interval)}
     return replace(deep, half_depth=check, settled=settled)

@@ -23,6 +23,7 @@ __all__ = [
     "Operation",
     "Program",
     "expand",
+    "expand_at",
     "facts",
 ]
 
@@ -252,6 +253,34 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
         parameter_steps=tuple(owners),
         parameter_names=tuple(names),
     )
+
+
+def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -> Program:
+    """:func:`expand` at another size, with the size in every error message.
+
+    Scans and deep versions instantiate a description at sizes the user did not write; a
+    problem found there is reported as ``"at {qubits} qubits, {layers} layers{during}: ..."``
+    (``during`` names the work, e.g. ``" (trainability scan)"``).
+
+    Examples
+    --------
+    >>> from analysis.circuit import parse_circuit
+    >>> c = parse_circuit({"qubits": 3, "layer": [{"gate": "cz", "on": [[0, 2]]}]})
+    >>> expand_at(c, 2, 1)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    analysis.errors.CircuitError: layer[0].on[0][1]: at 2 qubits, 1 layers: qubit 2 is out ...
+    """
+    try:
+        return expand(circuit, qubits=qubits, layers=layers)
+    except CircuitError as exc:
+        raise CircuitError(
+            [
+                Problem(p.path, f"at {qubits} qubits, {layers} layers{during}: {p.message}")
+                for p in exc.problems
+            ],
+            source=exc.source,
+        ) from exc
 
 
 def facts(program: Program) -> dict[str, Any]:

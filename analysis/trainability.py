@@ -17,10 +17,10 @@ import numpy as np
 from ._batching import Progress
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET
-from .errors import CircuitError, OptionError, Problem
+from .errors import OptionError, Problem
 from .gradient_variance import VariancePoint, gradient_samples, summarize_gradients
 from .plateau import Fit, fit_decay, verdict
-from .program import expand
+from .program import expand_at
 
 __all__ = [
     "Trainability",
@@ -160,19 +160,7 @@ def trainability(
     layer_points: list[VariancePoint] = []
     for target, todo in ((points, work), (layer_points, depth_work)):
         for n, layers in todo:
-            try:
-                program = expand(circuit, qubits=n, layers=layers)
-            except CircuitError as exc:
-                raise CircuitError(
-                    [
-                        Problem(
-                            p.path,
-                            f"at {n} qubits, {layers} layers (trainability scan): {p.message}",
-                        )
-                        for p in exc.problems
-                    ],
-                    source=exc.source,
-                ) from exc
+            program = expand_at(circuit, n, layers, during=" (trainability scan)")
             c, g = gradient_samples(
                 program,
                 cost,

@@ -193,6 +193,7 @@ _MODULE_ONLY = {
     # helpers kept at module level on purpose
     "uses_only_patterns",
     "step_targets",
+    "expand_at",
     "default_scan",
     "layers_at",
     "parse_cost",
