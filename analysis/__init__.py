@@ -39,15 +39,7 @@ from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar
 from .ideals import Ideal, simple_algebra_names
 from .lie import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis
 from .lie_plot import algebra_dimension_png, algebra_dimension_series
-from .lie_variance import (
-    LossVariance,
-    VariancePrediction,
-    deep_layers,
-    deep_loss_variance,
-    loss_variance,
-    observable_expansion,
-    predict_variance,
-)
+from .lie_variance import VariancePrediction, observable_expansion, predict_variance
 from .loading import load_circuit, parse_circuit_text
 from .observables import NAMED_COSTS, Observable, make_observable
 from .options import METRICS, AnalysisOptions, parse_options
@@ -77,6 +69,7 @@ from .qasm import parse_qasm
 from .qasm_export import to_qasm
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
+from .sampled_loss import LossVariance, deep_layers, deep_loss_variance, loss_variance
 from .sampling import Stream, draw_angles
 from .scan_plots import sweep_png, sweep_series, variance_scan_png, variance_series
 from .summary import to_markdown, to_text
