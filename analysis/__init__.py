@@ -20,7 +20,8 @@ from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .compare import compare_markdown, compare_reports
 from .comparison_plot import comparison_files, comparison_png, comparison_series
 from .cost import Estimate, estimate
-from .diagram import circuit_diagram_png, diagram_layout
+from .diagram import circuit_diagram_png
+from .diagram_columns import diagram_layout
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
