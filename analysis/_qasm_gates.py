@@ -34,7 +34,7 @@ STANDARD_GATES: dict[str, str] = {
     "CX": "cx",
     **{g: g for g in ("cy", "cz", "swap", "crx", "cry", "crz", "rxx", "ryy", "rzz")},
 }
-"""OpenQASM standard gate names and the haarline gate each becomes (see module notes)."""
+"""OpenQASM standard gate names and the haarline gate each becomes (see :mod:`analysis.qasm`)."""
 
 SUPPORTED_LIST = " ".join(STANDARD_GATES)
 
