@@ -20,7 +20,8 @@ from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from .compare import compare_markdown, compare_reports
 from .comparison_plot import comparison_files, comparison_png, comparison_series
 from .cost import Estimate, estimate
-from .diagram import circuit_diagram_png, diagram_layout
+from .diagram import circuit_diagram_png
+from .diagram_columns import diagram_layout
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
 from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
 from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
@@ -33,20 +34,13 @@ from .expressibility import (
 )
 from .gates import GATES, GateSpec, gate_matrix, lookup
 from .generators import CircuitGenerators, circuit_generators, rotation_generator
+from .gradient_variance import VariancePoint
 from .gradients import adjoint_gradients, cost_values, shift_gradients
 from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
 from .ideals import Ideal, simple_algebra_names
 from .lie import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis
 from .lie_plot import algebra_dimension_png, algebra_dimension_series
-from .lie_variance import (
-    LossVariance,
-    VariancePrediction,
-    deep_layers,
-    deep_loss_variance,
-    loss_variance,
-    observable_expansion,
-    predict_variance,
-)
+from .lie_variance import VariancePrediction, observable_expansion, predict_variance
 from .loading import load_circuit, parse_circuit_text
 from .observables import NAMED_COSTS, Observable, make_observable
 from .options import METRICS, AnalysisOptions, parse_options
@@ -62,6 +56,7 @@ from .pauli import (
     pauli_values,
     product_phase,
 )
+from .placements import placement
 from .plots import (
     fidelity_histogram_png,
     fidelity_series,
@@ -70,15 +65,16 @@ from .plots import (
     plot_files,
 )
 from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
-from .program import Operation, Program, expand, facts, placement
+from .program import Operation, Program, expand, facts
 from .qasm import parse_qasm
 from .qasm_export import to_qasm
 from .references import load_reference, reference_names
 from .report import REPORT_FORMAT, analyze
+from .sampled_loss import LossVariance, deep_layers, deep_loss_variance, loss_variance
 from .sampling import Stream, draw_angles
 from .scan_plots import sweep_png, sweep_series, variance_scan_png, variance_series
 from .summary import to_markdown, to_text
-from .trainability import Trainability, VariancePoint, trainability
+from .trainability import Trainability, trainability
 
 __all__ = [
     "DEFAULT_MEMORY_BUDGET",

@@ -1,6 +1,6 @@
 """OpenQASM syntax trees and our evaluator of angle and index expressions (never ``eval``).
 
-Used by :mod:`analysis.qasm`.
+Used by :mod:`analysis.qasm` and its private reading modules.
 """
 
 from __future__ import annotations

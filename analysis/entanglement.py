@@ -14,9 +14,9 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import special  # scipy.stats would add a second to start-up
 
 from ._batching import Progress, sample_map
+from ._intervals import mean_interval
 from .engine import DEFAULT_MEMORY_BUDGET
 from .haar import haar_meyer_wallach
 from .program import Program
@@ -105,11 +105,11 @@ def summarize_meyer_wallach(values: NDArray[np.float64], qubits: int) -> Entangl
     s = len(values)
     mean = float(values.mean())
     std = float(values.std(ddof=1)) if s > 1 else 0.0
-    half = float(special.stdtrit(s - 1, 0.975) * std / np.sqrt(s)) if s > 1 else 0.0
+    lo, hi = mean_interval(values)
     counts, _ = np.histogram(values, bins=DISTRIBUTION_BINS, range=(0.0, 1.0))
     return Entanglement(
         meyer_wallach=mean,
-        interval=(max(0.0, mean - half), min(1.0, mean + half)),
+        interval=(max(0.0, lo), min(1.0, hi)),
         std=std,
         samples=s,
         haar_meyer_wallach=haar_meyer_wallach(qubits),

@@ -33,6 +33,7 @@ from numpy.typing import NDArray
 from scipy import special  # scipy.stats would add a second to start-up
 
 from ._batching import Progress, sample_map
+from ._intervals import mean_interval
 from .engine import DEFAULT_MEMORY_BUDGET
 from .haar import haar_bin_log_masses, haar_second_moment
 from .program import Program
@@ -169,15 +170,6 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
     return float(max(total, 0.0))
 
 
-def _t_interval(values: NDArray[np.float64]) -> tuple[float, float]:
-    n = len(values)
-    mean = float(values.mean())
-    if n < 2:
-        return (mean, mean)
-    half = float(special.stdtrit(n - 1, 0.975) * values.std(ddof=1) / np.sqrt(n))
-    return (mean - half, mean + half)
-
-
 def divergence_from_haar(
     fids: NDArray[np.float64],
     qubits: int,
@@ -225,7 +217,7 @@ def divergence_from_haar(
         pairs=m,
         bins=bins,
         second_moment=float(np.mean(fids**2)),
-        second_moment_interval=_t_interval(fids**2),
+        second_moment_interval=mean_interval(fids**2),
         haar_second_moment=haar_second_moment(qubits),
         mean_fidelity=float(fids.mean()),
         histogram=(counts / m).tolist(),

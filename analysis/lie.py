@@ -30,7 +30,8 @@ from .algebra import DEFAULT_BUDGET, DEFAULT_CAP, Algebra, generate_algebra, ind
 from .circuit import MAX_QUBITS, Circuit
 from .generators import CircuitGenerators, circuit_generators
 from .ideals import SPLIT_LIMIT
-from .lie_variance import VariancePrediction, _expand, observable_expansion, predict_variance
+from .lie_variance import VariancePrediction, observable_expansion, predict_variance
+from .program import expand_at
 from .trainability import uses_only_patterns
 
 __all__ = [
@@ -151,11 +152,11 @@ def _layers(circuit: Circuit, n: int, rule: int | str | None) -> tuple[int, str,
     """Layer count, a note on why, and the generators there."""
     if rule is not None:
         layers = n if rule == "n" else int(rule)
-        return layers, "", circuit_generators(_expand(circuit, n, layers))
+        return layers, "", circuit_generators(expand_at(circuit, n, layers))
     layers = circuit.layers
-    here = circuit_generators(_expand(circuit, n, layers))
+    here = circuit_generators(expand_at(circuit, n, layers))
     for _ in range(SATURATION_LAYERS):
-        after = circuit_generators(_expand(circuit, n, layers + 1))
+        after = circuit_generators(expand_at(circuit, n, layers + 1))
         rank = independent_count(list(here.generators))
         if independent_count([*here.generators, *after.generators]) == rank:
             note = "" if layers == circuit.layers else f"generators stop growing at {layers}"

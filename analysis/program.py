@@ -1,21 +1,10 @@
 """Expansion of a description into an ordered gate program, and its static facts.
 
-:func:`expand` resolves every placement pattern at the description's qubit count,
-assigns trainable parameter indices in order of first use, and checks everything that
-depends on the qubit count. The result, a :class:`Program`, is what the engine runs.
-
-Placement patterns on ``n`` qubits (pairs are ``(first, second)``; for controlled
-gates ``(control, target)``):
-
-=============  ==========================================
-``chain``      (0,1), (1,2), …, (n-2,n-1)
-``ring``       ``chain`` plus (n-1,0) when n > 2
-``pairs``      every (i,j) with i < j, in lexicographic order
-``brick-even`` (0,1), (2,3), …
-``brick-odd``  (1,2), (3,4), … (empty for n = 2)
-=============  ==========================================
-
-``reverse`` walks the list from its last pair to its first and swaps each pair.
+:func:`expand` resolves every placement pattern at the description's qubit count
+(:mod:`analysis.placements`), checks each step's angle options, assigns trainable
+parameter indices in order of first use, and checks the size of the result. The result,
+a :class:`Program`, is what the engine runs. :func:`facts` gives its sizes, gate counts
+and depth.
 """
 
 from __future__ import annotations
@@ -24,25 +13,18 @@ from collections import Counter
 from dataclasses import dataclass, field
 from typing import Any
 
-from .circuit import (
-    MAX_LAYERS,
-    MAX_QUBITS,
-    ONE_QUBIT_PATTERNS,
-    TWO_QUBIT_PATTERNS,
-    Circuit,
-    Step,
-    _describe,
-)
+from .circuit import MAX_LAYERS, MAX_QUBITS, Circuit, Step, _describe
 from .errors import CircuitError, Problem
 from .gates import lookup
+from .placements import step_targets
 
 __all__ = [
     "MAX_OPERATIONS",
     "Operation",
     "Program",
     "expand",
+    "expand_at",
     "facts",
-    "placement",
 ]
 
 MAX_OPERATIONS = 200_000
@@ -99,174 +81,6 @@ class Program:
     def dimension(self) -> int:
         """Hilbert-space dimension ``2**qubits``."""
         return 1 << self.qubits
-
-
-def placement(pattern: str, qubits: int) -> list[tuple[int, int]]:
-    """Return the ordered pairs of a two-qubit placement pattern on ``qubits`` qubits.
-
-    Examples
-    --------
-    >>> placement("ring", 4)
-    [(0, 1), (1, 2), (2, 3), (3, 0)]
-    >>> placement("brick-odd", 5)
-    [(1, 2), (3, 4)]
-    """
-    n = qubits
-    if pattern == "chain":
-        return [(i, i + 1) for i in range(n - 1)]
-    if pattern == "ring":
-        return [(i, i + 1) for i in range(n - 1)] + ([(n - 1, 0)] if n > 2 else [])
-    if pattern == "pairs":
-        return [(i, j) for i in range(n) for j in range(i + 1, n)]
-    if pattern == "brick-even":
-        return [(i, i + 1) for i in range(0, n - 1, 2)]
-    if pattern == "brick-odd":
-        return [(i, i + 1) for i in range(1, n - 1, 2)]
-    raise ValueError(f"unknown pattern {pattern!r}")
-
-
-def _is_int(value: Any) -> bool:
-    return type(value) is int
-
-
-def _targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
-    """Resolve ``step.on`` to a list of qubit tuples, or raise with the field path."""
-    spec = lookup(step.gate)
-    on = step.on
-    where = f"{path}.on"
-    rng = f"for {n} qubit{'s' if n != 1 else ''} (0..{n - 1})"
-    if spec.qubits == 1:
-        if step.reverse:
-            raise CircuitError(
-                [
-                    Problem(
-                        f"{path}.reverse",
-                        "applies only to two-qubit "
-                        f"placement patterns; {step.gate!r} is a one-qubit gate",
-                    )
-                ]
-            )
-        if on == "all":
-            return [(q,) for q in range(n)]
-        if isinstance(on, str):
-            raise CircuitError(
-                [
-                    Problem(
-                        where,
-                        f"got {_describe(on)}; the one-qubit gate {step.gate!r} "
-                        "takes 'all' or a list of qubit indices",
-                    )
-                ]
-            )
-        if not isinstance(on, list) or not on:
-            raise CircuitError(
-                [
-                    Problem(
-                        where,
-                        f"expected 'all' or a non-empty list of qubit indices, got {_describe(on)}",
-                    )
-                ]
-            )
-        seen: set[int] = set()
-        out: list[tuple[int, ...]] = []
-        for i, q in enumerate(on):
-            if not _is_int(q):
-                raise CircuitError(
-                    [
-                        Problem(
-                            f"{where}[{i}]", f"expected a qubit index (integer), got {_describe(q)}"
-                        )
-                    ]
-                )
-            if not 0 <= q < n:
-                raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is out of range {rng}")])
-            if q in seen:
-                raise CircuitError([Problem(f"{where}[{i}]", f"qubit {q} is listed twice")])
-            seen.add(q)
-            out.append((q,))
-        return out
-    # two-qubit gate
-    patterns = ", ".join(repr(p) for p in TWO_QUBIT_PATTERNS)
-    if isinstance(on, str):
-        if on not in TWO_QUBIT_PATTERNS:
-            hint = " ('all' is for one-qubit gates)" if on in ONE_QUBIT_PATTERNS else ""
-            got = f"got {_describe(on)}"
-            if "on" not in step.model_fields_set:
-                got = f"'on' is missing, so it defaults to {on!r}"
-            raise CircuitError(
-                [
-                    Problem(
-                        where,
-                        f"{got}; the two-qubit gate {step.gate!r} "
-                        f"takes one of {patterns} or a list of pairs{hint}",
-                    )
-                ]
-            )
-        if n < 2:
-            raise CircuitError(
-                [Problem(where, f"pattern {on!r} needs at least 2 qubits; the circuit has {n}")]
-            )
-        pairs = placement(on, n)
-        if step.reverse:
-            pairs = [(b, a) for a, b in reversed(pairs)]
-        return list(pairs)
-    if step.reverse:
-        raise CircuitError(
-            [
-                Problem(
-                    f"{path}.reverse",
-                    "applies only to a placement pattern, not to an explicit list of pairs",
-                )
-            ]
-        )
-    if not isinstance(on, list) or not on:
-        raise CircuitError(
-            [
-                Problem(
-                    where,
-                    f"expected one of {patterns} or a non-empty list of "
-                    f"[first, second] pairs, got {_describe(on)}",
-                )
-            ]
-        )
-    out = []
-    for i, pair in enumerate(on):
-        if not isinstance(pair, list) or len(pair) != 2:
-            raise CircuitError(
-                [
-                    Problem(
-                        f"{where}[{i}]",
-                        f"expected a pair [first, second] of qubit indices, got {_describe(pair)}",
-                    )
-                ]
-            )
-        for j, q in enumerate(pair):
-            if not _is_int(q):
-                raise CircuitError(
-                    [
-                        Problem(
-                            f"{where}[{i}][{j}]",
-                            f"expected a qubit index (integer), got {_describe(q)}",
-                        )
-                    ]
-                )
-            if not 0 <= q < n:
-                raise CircuitError(
-                    [Problem(f"{where}[{i}][{j}]", f"qubit {q} is out of range {rng}")]
-                )
-        if pair[0] == pair[1]:
-            raise CircuitError(
-                [
-                    Problem(
-                        f"{where}[{i}]",
-                        f"pair {_describe(pair)} uses qubit "
-                        f"{pair[0]} twice; a two-qubit gate needs two "
-                        "different qubits",
-                    )
-                ]
-            )
-        out.append((pair[0], pair[1]))
-    return out
 
 
 def _check_step(step: Step, path: str, section: str) -> None:
@@ -347,11 +161,11 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     """
     n = circuit.qubits if qubits is None else qubits
     reps = circuit.layers if layers is None else layers
-    if not (_is_int(n) and 1 <= n <= MAX_QUBITS):
+    if not (type(n) is int and 1 <= n <= MAX_QUBITS):
         raise CircuitError(
             [Problem("qubits", f"got {_describe(n)}; allowed range is 1..{MAX_QUBITS}")]
         )
-    if not (_is_int(reps) and 1 <= reps <= MAX_LAYERS):
+    if not (type(reps) is int and 1 <= reps <= MAX_LAYERS):
         raise CircuitError(
             [Problem("layers", f"got {_describe(reps)}; allowed range is 1..{MAX_LAYERS}")]
         )
@@ -361,7 +175,7 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
         for i, step in enumerate(steps):
             path = f"{section}[{i}]"
             _check_step(step, path, section)
-            targets[path] = _targets(step, path, n)
+            targets[path] = step_targets(step, path, n)
 
     total = (
         sum(len(targets[f"prepare[{i}]"]) for i in range(len(circuit.prepare)))
@@ -439,6 +253,34 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
         parameter_steps=tuple(owners),
         parameter_names=tuple(names),
     )
+
+
+def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -> Program:
+    """:func:`expand` at another size, with the size in every error message.
+
+    Scans and deep versions instantiate a description at sizes the user did not write; a
+    problem found there is reported as ``"at {qubits} qubits, {layers} layers{during}: ..."``
+    (``during`` names the work, e.g. ``" (trainability scan)"``).
+
+    Examples
+    --------
+    >>> from analysis.circuit import parse_circuit
+    >>> c = parse_circuit({"qubits": 3, "layer": [{"gate": "cz", "on": [[0, 2]]}]})
+    >>> expand_at(c, 2, 1)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    analysis.errors.CircuitError: layer[0].on[0][1]: at 2 qubits, 1 layers: qubit 2 is out ...
+    """
+    try:
+        return expand(circuit, qubits=qubits, layers=layers)
+    except CircuitError as exc:
+        raise CircuitError(
+            [
+                Problem(p.path, f"at {qubits} qubits, {layers} layers{during}: {p.message}")
+                for p in exc.problems
+            ],
+            source=exc.source,
+        ) from exc
 
 
 def facts(program: Program) -> dict[str, Any]:

@@ -22,9 +22,9 @@ from .engine import DEFAULT_MEMORY_BUDGET
 from .entanglement import Entanglement, entangling_capability
 from .expressibility import Expressibility, expressibility
 from .lie import lie_diagnosis
-from .lie_variance import deep_loss_variance
 from .options import AnalysisOptions
 from .program import Program, expand, facts
+from .sampled_loss import deep_loss_variance
 from .trainability import default_scan, trainability, uses_only_patterns
 
 __all__ = ["REPORT_FORMAT", "analyze", "cautions"]

@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 import analysis
-from analysis.trainability import gradient_samples, summarize_gradients
+from analysis.gradient_variance import gradient_samples, summarize_gradients
 
 HERE = Path(__file__).resolve().parent
 SINGLE, DOUBLE = np.complex64, np.complex128

@@ -3,13 +3,16 @@
 Exit codes (one place, here): 0 success, 1 a policy rule failed, 2 bad input (usage,
 description, options or limits). ``--format json`` writes exactly the report JSON to
 stdout; messages and the progress bar go to stderr.
+
+This module owns the commands and the parser; the analysis flags shared by ``analyze``
+and ``compare`` and their value parsers are in :mod:`service._cli_options`, and
+``serve`` and ``keys`` in :mod:`service.server`.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import re
 import sys
 from collections.abc import Sequence
 from typing import Any
@@ -18,142 +21,17 @@ import analysis
 from analysis.policy import check_metrics
 from analysis.references import REFERENCE_PREFIX
 
+from ._cli_options import UsageError, add_analysis_flags, options_from_args
 from .outputs import write_analysis, write_comparison
 from .progress import TerminalProgress
 from .server import add_commands
 from .settings import SettingsError
 
-__all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "main", "parse_cost", "parse_size"]
+__all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "build_parser", "main"]
 
 EXIT_OK = 0
 EXIT_POLICY = 1
 EXIT_INPUT = 2
-
-_FLAG_NAMES = {
-    "metrics": "--metrics",
-    "pairs": "--pairs",
-    "bins": "--bins",
-    "samples": "--samples",
-    "seed": "--seed",
-    "layers_sweep": "--layers-sweep",
-    "cost": "--cost",
-    "scan": "--scan",
-    "scan_layers": "--scan-layers",
-    "depth_scan": "--depth-scan",
-    "grad_samples": "--grad-samples",
-    "capacity_points": "--capacity-points",
-    "gradients": "--gradients",
-    "precision": "--precision",
-}
-
-_TERM = re.compile(r"\s*([+-])?\s*(?:((?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*\*?\s*)?([IXYZ]+)\s*")
-
-
-def parse_cost(text: str) -> str | list[list[Any]]:
-    """Parse ``--cost``: a named cost, a Pauli sum such as ``0.5*ZZII - XIII``, or JSON.
-
-    Examples
-    --------
-    >>> parse_cost("zz")
-    'zz'
-    >>> parse_cost("0.5*ZZI - XIX + 2e-1 YYY")
-    [[0.5, 'ZZI'], [-1.0, 'XIX'], [0.2, 'YYY']]
-    """
-    text = text.strip()
-    if text in analysis.NAMED_COSTS:
-        return text
-    if text.startswith("["):
-        try:
-            value = json.loads(text)
-        except json.JSONDecodeError as exc:
-            raise argparse.ArgumentTypeError(f"invalid JSON Pauli sum: {exc.msg}") from None
-        if not isinstance(value, list):
-            raise argparse.ArgumentTypeError("a JSON Pauli sum must be a list")
-        return value
-    terms: list[list[Any]] = []
-    pos = 0
-    while pos < len(text):
-        m = _TERM.match(text, pos)
-        if not m or (terms and not m.group(1)) or m.end() == pos:
-            raise argparse.ArgumentTypeError(
-                f"expected one of {', '.join(analysis.NAMED_COSTS)} or a Pauli sum such as "
-                f"'0.5*ZZII - XIII' (one letter I/X/Y/Z per qubit), got {text!r}"
-            )
-        sign = -1.0 if m.group(1) == "-" else 1.0
-        coef = float(m.group(2)) if m.group(2) else 1.0
-        terms.append([sign * coef, m.group(3)])
-        pos = m.end()
-    return terms
-
-
-def _scan_layers(text: str) -> int | str:
-    if text == "n":
-        return "n"
-    try:
-        return int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(
-            f"expected 'n' (layers = qubit count) or a layer count, got {text!r}"
-        ) from None
-
-
-class UsageError(analysis.InputError):
-    """A command-line value that argparse let through but we cannot use."""
-
-
-def parse_size(text: str) -> int:
-    """Parse a byte count such as ``1GiB``, ``512MiB``, ``2G`` or ``1000000``.
-
-    Examples
-    --------
-    >>> parse_size("1GiB"), parse_size("512M"), parse_size("4096")
-    (1073741824, 536870912, 4096)
-    """
-    m = re.fullmatch(r"\s*(\d+(?:\.\d+)?)\s*([KMGT]?)(i?B?)\s*", text, flags=re.IGNORECASE)
-    if not m:
-        raise argparse.ArgumentTypeError(
-            f"expected a size such as 1GiB, 512MiB or a byte count, got {text!r}"
-        )
-    scale = {"": 1, "K": 2**10, "M": 2**20, "G": 2**30, "T": 2**40}[m.group(2).upper()]
-    value = int(float(m.group(1)) * scale)
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"expected a positive size, got {text!r}")
-    return value
-
-
-def _int_list(text: str) -> list[int]:
-    try:
-        values = [int(part) for part in text.split(",") if part.strip()]
-    except ValueError:
-        raise argparse.ArgumentTypeError(
-            f"expected comma-separated integers such as 1,2,3, got {text!r}"
-        ) from None
-    if not values:
-        raise argparse.ArgumentTypeError("expected at least one integer")
-    return values
-
-
-def _positive_int(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a positive integer, got {text!r}") from None
-    if not 1 <= value <= 256:
-        raise argparse.ArgumentTypeError(f"expected 1..256, got {value}")
-    return value
-
-
-def _metric_list(text: str) -> list[str]:
-    names = [part.strip() for part in text.split(",") if part.strip()]
-    for name in names:
-        if name not in analysis.METRICS:
-            raise argparse.ArgumentTypeError(
-                f"unknown metric {name!r}; expected a comma-separated list of: "
-                f"{', '.join(analysis.METRICS)}"
-            )
-    if not names:
-        raise argparse.ArgumentTypeError("expected at least one metric")
-    return names
 
 
 def load(spec: str) -> analysis.Circuit:
@@ -179,25 +57,6 @@ def _source_name(spec: str) -> str:
 
 def _emit(text: str) -> None:
     sys.stdout.write(text if text.endswith("\n") else text + "\n")
-
-
-def _options(args: argparse.Namespace) -> analysis.AnalysisOptions:
-    raw: dict[str, Any] = {}
-    for field in _FLAG_NAMES:
-        if field == "layers_sweep":
-            continue
-        value = getattr(args, field)
-        if value is not None:
-            raw[field] = value
-    if args.layers_sweep is not None:
-        sweep = args.layers_sweep
-        if len(sweep) == 1 and not 1 <= sweep[0] <= analysis.circuit.MAX_LAYERS:
-            top = analysis.circuit.MAX_LAYERS
-            raise UsageError(
-                [analysis.Problem("--layers-sweep", f"got {sweep[0]}; allowed range is 1..{top}")]
-            )
-        raw["layers_sweep"] = list(range(1, sweep[0] + 1)) if len(sweep) == 1 else sweep
-    return analysis.parse_options(raw, names=_FLAG_NAMES)
 
 
 def _policy(args: argparse.Namespace, options: analysis.AnalysisOptions) -> analysis.Policy | None:
@@ -235,7 +94,7 @@ def _run_analysis(
 
 def _cmd_analyze(args: argparse.Namespace) -> int:
     circuit = load(args.file)
-    options = _options(args)
+    options = options_from_args(args)
     policy = _policy(args, options)
     report = _run_analysis(circuit, options, policy, args)
     images: list[str] = []
@@ -266,7 +125,7 @@ def _cmd_compare(args: argparse.Namespace) -> int:
     if len(args.files) < 2:
         raise UsageError([analysis.Problem("FILE", "compare needs at least two circuits")])
     circuits = [load(spec) for spec in args.files]
-    options = _options(args)
+    options = options_from_args(args)
     policy = _policy(args, options)
     reports = [_run_analysis(c, options, policy, args) for c in circuits]
     result = analysis.compare_reports(reports, list(args.files))
@@ -366,93 +225,6 @@ def _cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def _analysis_flags(p: argparse.ArgumentParser) -> None:
-    """The options shared by ``analyze`` and ``compare``."""
-    p.add_argument(
-        "--metrics",
-        type=_metric_list,
-        help=f"comma-separated subset of: {','.join(analysis.METRICS)} "
-        f"(default: {','.join(analysis.options.DEFAULT_METRICS)})",
-    )
-    p.add_argument("--pairs", type=int, help="fidelity pairs for expressibility (default 5000)")
-    p.add_argument("--bins", type=int, help="fidelity histogram bins (default 75)")
-    p.add_argument("--samples", type=int, help="Meyer-Wallach samples (default 2000)")
-    p.add_argument(
-        "--layers-sweep",
-        type=_int_list,
-        metavar="L|L1,L2,...",
-        help="repeat the metrics at these layer counts; a single number L means 1..L",
-    )
-    p.add_argument(
-        "--cost",
-        type=parse_cost,
-        help="trainability cost: global (default), local, zz, or a Pauli sum such as "
-        "'0.5*ZZII - XIII' (one letter per qubit, qubit 0 first)",
-    )
-    p.add_argument(
-        "--scan",
-        type=_int_list,
-        metavar="N1,N2,...",
-        help="qubit counts of the gradient-variance scan (default 2,4,6,8 for circuits "
-        "written with placement patterns)",
-    )
-    p.add_argument(
-        "--scan-layers",
-        type=_scan_layers,
-        metavar="N|n",
-        help="layers at every scan point: a count, or n for layers = qubit count "
-        "(default: as described)",
-    )
-    p.add_argument(
-        "--depth-scan",
-        type=_int_list,
-        metavar="L1,L2,...",
-        help="also scan the gradient variance over these layer counts at the circuit's size",
-    )
-    p.add_argument(
-        "--grad-samples", type=int, help="parameter vectors per scan point (default 200)"
-    )
-    p.add_argument(
-        "--precision",
-        choices=["double", "single"],
-        help="engine precision: double (complex128, default) or single (complex64, faster)",
-    )
-    p.add_argument(
-        "--workers",
-        type=_positive_int,
-        default=1,
-        help="processes sharing the sampling (default 1); the numbers do not depend on it",
-    )
-    p.add_argument(
-        "--gradients",
-        choices=["adjoint", "shift"],
-        help="gradient method: adjoint differentiation (default) or parameter shift (slower)",
-    )
-    p.add_argument(
-        "--capacity-points", type=int, help="random points behind the QFI rank (default 4)"
-    )
-    p.add_argument(
-        "--seed", type=int, help=f"random seed (default {analysis.options.DEFAULT_SEED})"
-    )
-    p.add_argument(
-        "--memory-budget",
-        type=parse_size,
-        default=analysis.DEFAULT_MEMORY_BUDGET,
-        metavar="SIZE",
-        help="memory for state batches, e.g. 512MiB (default 1GiB); changes speed, not results",
-    )
-    p.add_argument(
-        "--policy",
-        metavar="FILE",
-        help="JSON or YAML policy of thresholds; exit code 1 when a rule fails",
-    )
-    p.add_argument(
-        "--out",
-        metavar="DIR",
-        help="also write report.json, summary.md and the PNG plots into DIR",
-    )
-
-
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser (exposed for tests and the docs)."""
     parser = argparse.ArgumentParser(
@@ -468,7 +240,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("analyze", help="compute the metrics of a circuit and print a report")
     p.add_argument("file", metavar="FILE")
-    _analysis_flags(p)
+    add_analysis_flags(p)
     p.add_argument("--format", choices=["text", "json", "markdown"], default="text")
     p.set_defaults(func=_cmd_analyze)
 
@@ -476,7 +248,7 @@ def build_parser() -> argparse.ArgumentParser:
         "compare", help="analyze several circuits with the same options and rank them"
     )
     p.add_argument("files", metavar="FILE", nargs="+")
-    _analysis_flags(p)
+    add_analysis_flags(p)
     p.add_argument("--format", choices=["markdown", "json"], default="markdown")
     p.set_defaults(func=_cmd_compare)
 

@@ -1,4 +1,5 @@
-"""The README's Python example runs, and its option table matches the CLI."""
+"""The README's Python example runs, its option table matches the CLI, and DEVELOPERS.md's
+layout names every module."""
 
 import re
 from pathlib import Path
@@ -26,3 +27,13 @@ def test_readme_lists_every_analyze_option():
         for flag in action.option_strings:
             if flag.startswith("--") and flag != "--help":
                 assert f"`{flag}" in text, flag
+
+
+def test_developers_layout_names_every_module():
+    text = (ROOT / "DEVELOPERS.md").read_text()
+    layout = text.split("## Layout", 1)[1].split("```")[1]
+    named = set(re.findall(r"\w+\.py", layout))
+    for package in ("analysis", "service", "service/routes"):
+        for path in sorted((ROOT / package).glob("*.py")):
+            if path.name != "__init__.py":
+                assert path.name in named, f"{package}/{path.name}"

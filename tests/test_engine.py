@@ -205,7 +205,7 @@ RING = parse_circuit(
 def test_metrics_with_two_workers_are_bit_identical():
     from analysis import entangling_capability, fidelities
     from analysis._batching import worker_count
-    from analysis.trainability import gradient_samples
+    from analysis.gradient_variance import gradient_samples
 
     program = expand(RING)
     # big enough that the work really goes to the pool

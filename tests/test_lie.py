@@ -30,13 +30,7 @@ from analysis.generators import circuit_generators, rotation_generator
 from analysis.ideals import simple_algebra_names
 from analysis.lie import growth_fit, lie_diagnosis
 from analysis.lie_plot import algebra_dimension_png, algebra_dimension_series
-from analysis.lie_variance import (
-    deep_layers,
-    deep_loss_variance,
-    loss_variance,
-    observable_expansion,
-    predict_variance,
-)
+from analysis.lie_variance import observable_expansion, predict_variance
 from analysis.pauli import (
     PauliExpansion,
     anticommutes,
@@ -49,6 +43,7 @@ from analysis.pauli import (
     pauli_values,
     product_phase,
 )
+from analysis.sampled_loss import deep_layers, deep_loss_variance, loss_variance
 
 
 def strings(n):
@@ -649,9 +644,18 @@ def test_plot_draws_the_report_numbers():
 
 
 def test_public_names_are_exported():
-    from analysis import algebra, generators, ideals, lie, lie_plot, lie_variance, pauli
+    from analysis import (
+        algebra,
+        generators,
+        ideals,
+        lie,
+        lie_plot,
+        lie_variance,
+        pauli,
+        sampled_loss,
+    )
 
-    for module in (algebra, generators, ideals, lie, lie_plot, lie_variance, pauli):
+    for module in (algebra, generators, ideals, lie, lie_plot, lie_variance, pauli, sampled_loss):
         for name in module.__all__:
             assert hasattr(module, name)
             if not name.isupper():

@@ -45,9 +45,9 @@ from analysis.circuit import TWO_QUBIT_PATTERNS
 from analysis.engine import run
 from analysis.entanglement import meyer_wallach
 from analysis.gates import GATES
+from analysis.gradient_variance import gradient_samples, summarize_gradients
 from analysis.program import expand
 from analysis.sampling import draw_angles
-from analysis.trainability import gradient_samples, summarize_gradients
 
 QUICK = settings(max_examples=20, deadline=None, derandomize=True)
 NAMES = sorted(GATES) + ["cnot"]

@@ -192,6 +192,8 @@ _MODULE_ONLY = {
     "RANKING_RULE",
     # helpers kept at module level on purpose
     "uses_only_patterns",
+    "step_targets",
+    "expand_at",
     "default_scan",
     "layers_at",
     "parse_cost",

@@ -6,13 +6,9 @@ import numpy as np
 import pytest
 
 from analysis import parse_circuit
-from analysis.trainability import (
-    VariancePoint,
-    fit_decay,
-    summarize_gradients,
-    trainability,
-    verdict,
-)
+from analysis.gradient_variance import VariancePoint, summarize_gradients
+from analysis.plateau import fit_decay, verdict
+from analysis.trainability import trainability
 
 RX_PRODUCT = parse_circuit({"qubits": 2, "layer": [{"gate": "rx"}]})
 
@@ -108,6 +104,19 @@ def test_pauli_sum_cost_cannot_scan():
 
     with pytest.raises(OptionError, match="fixed to its qubit count"):
         trainability(RX_PRODUCT, cost=[[1.0, "ZZ"]], scan=[2, 3])
+
+
+def test_scan_point_errors_name_the_size_and_the_scan():
+    from analysis import CircuitError
+
+    fixed = parse_circuit({"qubits": 3, "layer": [{"gate": "ry", "on": [2]}]})
+    with pytest.raises(CircuitError) as info:
+        trainability(fixed, scan=[2, 3], samples=4)
+    (problem,) = info.value.problems
+    assert problem.path == "layer[0].on[0]"
+    assert problem.message == (
+        "at 2 qubits, 1 layers (trainability scan): qubit 2 is out of range for 2 qubits (0..1)"
+    )
 
 
 def test_shift_method_gives_the_same_report_numbers():

@@ -637,7 +637,7 @@ def test_error_messages_stay_short_for_huge_values():
 
 # ------------------------------------------------------------- placement patterns
 
-# The documented pairs (DESIGN.md section 3, analysis/program.py), written out by hand.
+# The documented pairs (DESIGN.md section 3, analysis/placements.py), written out by hand.
 PATTERNS = {
     "chain": {
         2: [(0, 1)],
