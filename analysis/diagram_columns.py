@@ -6,11 +6,12 @@ reads, so that tests check the drawing's content without looking at pixels.
 
 Placement
 ---------
-Time steps follow the rule of :func:`analysis.program.facts`: each gate, in program
-order, goes one step after the latest gate on any of its qubits, so the number of steps
-is the reported depth. Gates of one step never share a qubit, but a two-qubit gate
-between distant wires draws a line (or a box) across the wires in between; such gates
-get extra columns within their step, so nothing is drawn over anything else.
+Time steps come from :func:`analysis.program.time_steps`, the rule behind the reported
+depth: each gate, in program order, goes one step after the latest gate on any of its
+qubits, so the number of steps is the depth. Gates of one step never share a qubit, but
+a two-qubit gate between distant wires draws a line (or a box) across the wires in
+between; such gates get extra columns within their step, so nothing is drawn over
+anything else.
 
 A dashed separator is drawn between prepare, the layers and finish wherever every gate
 of the earlier parts lies left of every gate of the later ones; brackets under the wires
@@ -26,7 +27,7 @@ from typing import Any
 
 from . import _plotstyle as style
 from .gates import lookup
-from .program import Operation, Program
+from .program import Operation, Program, time_steps
 
 __all__ = ["LEFT", "MAX_COLUMNS", "MIN_PITCH", "RIGHT", "diagram_layout"]
 
@@ -68,13 +69,7 @@ def _texts(op: Operation) -> tuple[str, str]:
 
 def _columns(program: Program) -> tuple[list[int], list[int], dict[int, int], int]:
     """Time step and column of every operation, first column of each step, column count."""
-    level = [0] * program.qubits
-    steps: list[int] = []
-    for op in program.operations:
-        t = max(level[q] for q in op.qubits) + 1
-        for q in op.qubits:
-            level[q] = t
-        steps.append(t)
+    steps = time_steps(program)
     busy: dict[int, list[set[int]]] = {}  # per step: the wires each sub-column covers
     slot = []
     for t, op in zip(steps, program.operations, strict=True):

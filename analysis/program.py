@@ -4,7 +4,8 @@
 (:mod:`analysis.placements`), checks each step's angle options, assigns trainable
 parameter indices in order of first use, and checks the size of the result. The result,
 a :class:`Program`, is what the engine runs. :func:`facts` gives its sizes, gate counts
-and depth.
+and depth; :func:`time_steps` holds the depth rule, which the circuit diagram's layout
+(:mod:`analysis.diagram_columns`) follows too.
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ __all__ = [
     "expand",
     "expand_at",
     "facts",
+    "time_steps",
 ]
 
 MAX_OPERATIONS = 200_000
@@ -283,11 +285,45 @@ def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -
         ) from exc
 
 
+def time_steps(program: Program) -> list[int]:
+    """The time step of every operation, in program order: the one rule for depth.
+
+    A greedy schedule: each gate, in program order, goes one step after the latest gate on
+    any of its qubits (common practice). Steps count from 1; the largest is the depth.
+    Gates of one step never share a qubit. Cost ``O(G)``.
+
+    Parameters
+    ----------
+    program : Program
+        An expanded program.
+
+    Returns
+    -------
+    list of int
+        ``steps[k]`` is the time step of ``program.operations[k]``; empty for no operations.
+
+    Examples
+    --------
+    >>> from analysis.circuit import parse_circuit
+    >>> p = expand(parse_circuit({"qubits": 3, "layer": [{"gate": "h"},
+    ...                                                  {"gate": "cx", "on": "chain"}]}))
+    >>> time_steps(p)
+    [1, 1, 1, 2, 3]
+    """
+    level = [0] * program.qubits
+    steps: list[int] = []
+    for op in program.operations:
+        t = max(level[q] for q in op.qubits) + 1
+        for q in op.qubits:
+            level[q] = t
+        steps.append(t)
+    return steps
+
+
 def facts(program: Program) -> dict[str, Any]:
     """Static facts of a program: sizes, gate counts and depth.
 
-    Depth is the number of time steps of a greedy schedule that puts each gate, in
-    program order, one step after the latest gate on any of its qubits (common practice).
+    Depth is the number of time steps of the greedy schedule of :func:`time_steps`.
 
     Examples
     --------
@@ -298,11 +334,6 @@ def facts(program: Program) -> dict[str, Any]:
     >>> f["gates"], f["two_qubit_gates"], f["depth"]
     (5, 2, 3)
     """
-    level = [0] * program.qubits
-    for op in program.operations:
-        t = max(level[q] for q in op.qubits) + 1
-        for q in op.qubits:
-            level[q] = t
     counts = Counter(op.gate for op in program.operations)
     return {
         "name": program.name,
@@ -313,5 +344,5 @@ def facts(program: Program) -> dict[str, Any]:
         "gate_counts": dict(sorted(counts.items())),
         "two_qubit_gates": sum(1 for op in program.operations if len(op.qubits) == 2),
         "fixed_angle_gates": sum(1 for op in program.operations if op.angle is not None),
-        "depth": max(level, default=0),
+        "depth": max(time_steps(program), default=0),
     }

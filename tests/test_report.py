@@ -194,6 +194,7 @@ _MODULE_ONLY = {
     "uses_only_patterns",
     "step_targets",
     "expand_at",
+    "time_steps",
     "default_scan",
     "layers_at",
     "parse_cost",
