@@ -6,7 +6,7 @@ Two shapes of interval are used in the reports:
   (Meyer-Wallach mean, the second moment of the fidelities);
 * :func:`log_symmetric_interval`, ``v · exp(±t · se/v)`` for a positive estimate ``v`` with
   standard error ``se`` (the gradient and loss variances), symmetric in ``ln v`` so it stays
-  positive on a log axis.
+  positive on a log axis; :func:`variance_standard_error` gives that ``se``.
 
 Only :mod:`scipy.special` is imported (``stdtrit`` is the inverse of the Student t
 distribution function): :mod:`scipy.stats` would add a second to start-up.
@@ -20,7 +20,7 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy import special
 
-__all__ = ["log_symmetric_interval", "mean_interval", "t_quantile"]
+__all__ = ["log_symmetric_interval", "mean_interval", "t_quantile", "variance_standard_error"]
 
 
 def t_quantile(dof: int, confidence: float = 0.95) -> float:
@@ -111,3 +111,47 @@ def log_symmetric_interval(
         return (0.0, 0.0)
     width = t_quantile(dof, confidence) * standard_error / value
     return (value * math.exp(-width), value * math.exp(width))
+
+
+def variance_standard_error(squares: NDArray[np.float64]) -> float:
+    """Standard error of a sample variance, from the squared deviations of its samples.
+
+    Parameters
+    ----------
+    squares : ndarray of float, shape (S,)
+        ``y_s``: sample ``s``'s squared deviation from the sample mean, ``(x_s - x̄)²``, or
+        the mean of such squares over several coordinates (``(1/P) Σ_k (g_sk - ḡ_k)²`` for
+        the ``P`` gradient components). At least two samples.
+
+    Returns
+    -------
+    float
+        ``se = S/(S-1) · sd(y)/√S``, ``sd`` with ``S - 1`` in the denominator: the standard
+        error of the unbiased variance ``v = S/(S-1) · ȳ`` (the mean over coordinates of
+        their unbiased sample variances).
+
+    Notes
+    -----
+    For one coordinate, ``sd(y)² = S/(S-1) · (m4 - m2²)`` with ``m_k`` the sample central
+    moments, so ``se² = (S/(S-1))³ (m4 - m2²)/S``: the plug-in estimate of the textbook
+    variance of the sample variance, ``Var(s²) = (μ4 - σ⁴ (S-3)/(S-1))/S`` [1]_, to first
+    order in ``1/S`` (it drops the ``2σ⁴/(S(S-1))`` term and uses ``m4``, ``m2`` for ``μ4``,
+    ``σ²``). For a mean over coordinates, ``ȳ`` is a mean of ``S`` independent terms, so
+    ``sd(y)/√S`` is its standard error whatever the correlation between coordinates (the
+    centring on the sample mean, which couples the terms, is neglected at the same order;
+    common practice). Cost ``O(S)``.
+
+    References
+    ----------
+    .. [1] G. Casella, R. L. Berger, Statistical Inference, 2nd ed., Duxbury (2002),
+       Exercise 5.8(b).
+
+    Examples
+    --------
+    >>> x = np.array([1.0, 2.0, 4.0, 7.0])
+    >>> round(variance_standard_error((x - x.mean()) ** 2), 6)
+    3.527668
+    """
+    squares = np.asarray(squares, dtype=float)
+    s = len(squares)
+    return float(s / (s - 1) * squares.std(ddof=1) / math.sqrt(s))

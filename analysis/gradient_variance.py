@@ -11,7 +11,6 @@ smallest per-parameter variance. The scans over qubit and layer counts are in
 
 from __future__ import annotations
 
-import math
 from dataclasses import asdict, dataclass
 from typing import Any
 
@@ -19,7 +18,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._batching import Progress, block_map, blocks_for, check_workers, worker_count
-from ._intervals import log_symmetric_interval
+from ._intervals import log_symmetric_interval, variance_standard_error
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
 from .errors import CircuitError, Problem
 from .gradients import adjoint_gradients, cost_values, shift_gradients
@@ -142,8 +141,9 @@ def summarize_gradients(
 
     The estimate ``v = (1/P) Σ_k s_k²`` (``s_k²`` the unbiased sample variance of ∂C/∂θ_k)
     equals ``S/(S-1)`` times the sample mean of ``y_s = (1/P) Σ_k (g_sk - ḡ_k)²``; its
-    standard error is ``S/(S-1) · sd(y)/√S`` (delta method, common practice). The interval
-    is ``v · exp(±t · se / v)``, symmetric in ``ln v`` (so it stays positive on a log axis).
+    standard error is ``S/(S-1) · sd(y)/√S`` (formula and source at
+    :func:`~analysis._intervals.variance_standard_error`). The interval is
+    ``v · exp(±t · se / v)``, symmetric in ``ln v`` (so it stays positive on a log axis).
     ``top_sample_share`` is the largest single sample's share of ``Σ y``: when one sample
     carries a large share the squared gradients are heavy-tailed and the interval is
     likely too narrow (the report then says so).
@@ -162,7 +162,7 @@ def summarize_gradients(
     per_param = (centred**2).sum(axis=0) / (s - 1)
     y = (centred**2).mean(axis=1)
     v = float(per_param.mean())
-    se = float(s / (s - 1) * y.std(ddof=1) / math.sqrt(s))
+    se = variance_standard_error(y)
     interval = log_symmetric_interval(v, se, s - 1)
     return VariancePoint(
         qubits=qubits,

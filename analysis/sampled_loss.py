@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from ._batching import Progress
-from ._intervals import log_symmetric_interval
+from ._intervals import log_symmetric_interval, variance_standard_error
 from .circuit import Circuit
 from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
 from .gradients import cost_values
@@ -135,8 +135,9 @@ def loss_variance(
     Notes
     -----
     ``v`` is the unbiased sample variance of ``C``; with ``y_s = (C_s - C̄)²`` it is
-    ``S/(S-1)`` times the mean of ``y``, so its standard error is
-    ``S/(S-1) · sd(y)/√S`` (delta method, as for the gradient variances). The interval
+    ``S/(S-1)`` times the mean of ``y``, so its standard error is ``S/(S-1) · sd(y)/√S``
+    (:func:`~analysis._intervals.variance_standard_error`, as for the gradient variances;
+    formula and source there). The interval
     is ``v · exp(±t · se / v)`` with the Student ``t`` quantile at ``S - 1`` degrees of
     freedom. Cost: ``samples`` circuit runs.
     """
@@ -158,7 +159,7 @@ def loss_variance(
     s = samples
     y = (costs - costs.mean()) ** 2
     v = float(s / (s - 1) * y.mean())
-    se = float(s / (s - 1) * y.std(ddof=1) / math.sqrt(s))
+    se = variance_standard_error(y)
     interval = log_symmetric_interval(v, se, s - 1, confidence)
     return LossVariance(
         qubits=program.qubits,
