@@ -32,7 +32,7 @@ __all__ = [
 ]
 
 LOSS_STREAM = int(Stream.LOSS)
-"""Random stream of the loss samples (to become a ``Stream`` member)."""
+"""Random stream of the loss samples (:attr:`analysis.sampling.Stream.LOSS`)."""
 
 
 def deep_layers(
