@@ -61,9 +61,10 @@ faults: $(VENV)/.test
 
 ## lint: style, docstrings and types (CI runs it after the tests)
 lint: $(VENV)/.lint
-	$(BIN)/ruff check analysis service tests
-	$(BIN)/ruff format --check analysis service tests
+	$(BIN)/ruff check analysis service tests bench
+	$(BIN)/ruff format --check analysis service tests bench
 	$(BIN)/mypy
+	$(BIN)/mypy bench
 
 ## openapi: re-export openapi-notes/openapi.json from the app
 openapi: $(VENV)/.core

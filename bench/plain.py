@@ -9,7 +9,12 @@ Qubit 0 is the leftmost ``np.kron`` factor, the project's convention.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+
+if TYPE_CHECKING:
+    from analysis.program import Program
 
 I2 = np.eye(2, dtype=complex)
 X = np.array([[0, 1], [1, 0]], dtype=complex)
@@ -42,6 +47,7 @@ def rotation(paulis: str, theta: float) -> np.ndarray:
 
 
 def controlled(u: np.ndarray) -> np.ndarray:
+    """The two-qubit gate that applies ``u`` to the second qubit when the first is |1>."""
     out = np.eye(4, dtype=complex)
     out[2:, 2:] = u
     return out
@@ -51,16 +57,18 @@ def gate(name: str, theta: float | None) -> np.ndarray:
     """Textbook matrix of a gate, in the basis ``|b_first b_second>``."""
     if name in FIXED:
         return FIXED[name]
+    if name in ("cx", "cnot", "cy", "cz"):
+        return controlled(PAULI[name[-1].upper()])
+    if name == "swap":
+        return np.eye(4, dtype=complex)[[0, 2, 1, 3]]
+    if theta is None:
+        raise ValueError(f"gate {name!r} needs an angle")
     if name in ("rx", "ry", "rz"):
         return rotation(name[1].upper(), theta)
     if name in ("rxx", "ryy", "rzz"):
         return rotation(name[1].upper() * 2, theta)
-    if name in ("cx", "cnot", "cy", "cz"):
-        return controlled(PAULI[name[-1].upper()])
     if name in ("crx", "cry", "crz"):
         return controlled(rotation(name[2].upper(), theta))
-    if name == "swap":
-        return np.eye(4, dtype=complex)[[0, 2, 1, 3]]
     raise KeyError(name)
 
 
@@ -90,7 +98,7 @@ def full_matrix(m: np.ndarray, qubits: tuple[int, ...], n: int) -> np.ndarray:
     return out
 
 
-def state(program, theta: np.ndarray) -> np.ndarray:  # noqa: ANN001
+def state(program: Program, theta: np.ndarray) -> np.ndarray:
     """One state: every operation's dense matrix applied to |0...0>."""
     n = program.qubits
     psi = np.zeros(2**n, dtype=complex)
@@ -101,7 +109,7 @@ def state(program, theta: np.ndarray) -> np.ndarray:  # noqa: ANN001
     return psi
 
 
-def fidelities(program, pairs: np.ndarray) -> np.ndarray:  # noqa: ANN001
+def fidelities(program: Program, pairs: np.ndarray) -> np.ndarray:
     """``|<ψ(θ)|ψ(φ)>|²`` for rows ``[θ, φ]`` of ``pairs`` (shape ``(K, 2P)``)."""
     p = program.parameters
     out = np.empty(len(pairs))

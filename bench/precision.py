@@ -26,6 +26,7 @@ SINGLE, DOUBLE = np.complex64, np.complex128
 
 
 def expressibility_rows() -> list[dict]:
+    """KL and fidelities in both precisions, per circuit and size."""
     rows = []
     cases = [("sim2019-02", None, 3), ("sim2019-11", None, 3), ("ry-cz-ring", 4, 3)]
     cases += [("ry-cz-ring", 8, 8), ("rx-rz-cx-chain", 12, 12)]
@@ -53,6 +54,7 @@ def expressibility_rows() -> list[dict]:
 
 
 def meyer_wallach_rows() -> list[dict]:
+    """Meyer-Wallach values in both precisions, per circuit and size."""
     rows = []
     from analysis.entanglement import meyer_wallach
 
@@ -79,6 +81,7 @@ def meyer_wallach_rows() -> list[dict]:
 
 
 def gradient_rows() -> list[dict]:
+    """Gradient variances in both precisions, per qubit count and cost."""
     rows = []
     circuit = analysis.load_reference("ry-cz-ring")
     for n in (2, 4, 6, 8, 10, 12):
@@ -106,6 +109,7 @@ def gradient_rows() -> list[dict]:
 
 
 def speed_rows() -> list[dict]:
+    """Engine time of one batch in both precisions (median of three), per size."""
     rows = []
     circuit = analysis.load_reference("ry-cz-ring")
     for n, batch in [(8, 2048), (14, 32), (20, 1), (22, 1)]:
@@ -134,6 +138,7 @@ def speed_rows() -> list[dict]:
 
 
 def main(argv: list[str] | None = None) -> dict:
+    """Measure every section, write the JSON and print one line per row."""
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--out", default=str(HERE / "precision.json"))
     args = parser.parse_args(argv)

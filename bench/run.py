@@ -3,7 +3,7 @@
 Each figure is a ratio or a wall time, written with its inputs and the baseline it is
 divided by.
 
-    python bench/run.py                      # the full suite (make bench), ~10 minutes
+    python bench/run.py                      # the full suite (make bench), ~4 minutes
     python bench/run.py --smoke --out X.json # tiny sizes, a few seconds (the test suite)
 
 Figures (medians of repeated runs):
@@ -33,6 +33,7 @@ import statistics
 import subprocess
 import sys
 import time
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -117,10 +118,11 @@ TARGETS = {
 
 
 def log(message: str) -> None:
+    """Progress line on stderr (stdout carries the table)."""
     print(message, file=sys.stderr, flush=True)
 
 
-def timed(fn, repeats: int) -> tuple[float, list[float]]:  # noqa: ANN001
+def timed(fn: Callable[..., object], repeats: int) -> tuple[float, list[float]]:
     """Median wall time of ``repeats`` calls, and every sample."""
     samples = []
     for _ in range(repeats):
@@ -130,11 +132,13 @@ def timed(fn, repeats: int) -> tuple[float, list[float]]:  # noqa: ANN001
     return statistics.median(samples), samples
 
 
-def logical_gates(program) -> int:  # noqa: ANN001
+def logical_gates(program: analysis.Program) -> int:
+    """Gates that do something: every operation except the identity."""
     return sum(1 for op in program.operations if op.gate != "i")
 
 
 def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    """Engine throughput over the machine's streaming rate, one row per qubit count."""
     rows = []
     circuit = analysis.load_reference(cfg["bandwidth_circuit"])
     for n in cfg["bandwidth_qubits"]:
@@ -144,7 +148,9 @@ def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
         thetas = draw_angles(0, Stream.EXPRESSIBILITY, 0, batch, program.parameters)
         states = engine.zero_states(batch, n)
 
-        def once(states=states, plan=plan, thetas=thetas) -> None:  # noqa: ANN001
+        def once(
+            states: np.ndarray = states, plan: engine.Plan = plan, thetas: np.ndarray = thetas
+        ) -> None:
             states.fill(0)
             states[:, 0] = 1.0
             engine.run(plan, thetas, states=states)
@@ -198,6 +204,7 @@ def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 
 
 def bench_naive(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    """Per-pair time of the plain simulator over ours, one row per qubit count."""
     rows = []
     circuit = analysis.load_reference(cfg["naive_circuit"])
     for n in cfg["naive_qubits"]:
@@ -239,6 +246,7 @@ def bench_naive(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 
 
 def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    """Parameter-shift time over adjoint time, one row per parameter count."""
     rows = []
     circuit = analysis.load_reference(cfg["adjoint_circuit"])
     n = cfg["adjoint_qubits"]
@@ -283,6 +291,7 @@ def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 
 
 def reference_table(cfg: dict[str, Any], workers: int) -> None:
+    """Expressibility and Meyer-Wallach of every reference circuit at every layer count."""
     names = cfg.get("references_names") or [
         r for r in analysis.reference_names() if r.startswith("sim2019-")
     ]
@@ -297,6 +306,7 @@ def reference_table(cfg: dict[str, Any], workers: int) -> None:
 
 
 def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
+    """Wall time of :func:`reference_table` for each worker count."""
     names = cfg.get("references_names") or [
         r for r in analysis.reference_names() if r.startswith("sim2019-")
     ]
@@ -325,6 +335,7 @@ def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
 
 
 def bench_scan(cfg: dict[str, Any]) -> dict[str, Any]:
+    """Wall time of one gradient-variance scan over qubit counts (layers = n)."""
     circuit = analysis.load_reference(cfg["scan_circuit"])
 
     def once() -> None:
@@ -371,6 +382,7 @@ print(json.dumps({"rss_before": before, "peak_rss": status("VmHWM"), "layers": p
 
 
 def bench_memory(cfg: dict[str, Any]) -> list[dict[str, Any]]:
+    """Peak resident memory of an expressibility run in a fresh process, per budget."""
     rows = []
     n = cfg["memory_qubits"]
     for budget in cfg["memory_budgets"]:
@@ -417,6 +429,7 @@ def bench_memory(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 
 
 def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
+    """Each figure against its target in :data:`TARGETS` (``met`` is None if not measured)."""
     out = []
 
     def add(name: str, value: Any, met: bool | None) -> None:
@@ -454,6 +467,7 @@ def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
 
 
 def table(results: dict[str, Any]) -> str:
+    """The results as two Markdown tables: the figures, then the targets."""
     f = results["figures"]
     lines = ["| figure | inputs | value | baseline |", "| --- | --- | --- | --- |"]
     for r in f["bandwidth"]:
@@ -502,6 +516,7 @@ SECTIONS = ("bandwidth", "naive", "adjoint", "references", "scan", "memory")
 
 
 def main(argv: list[str] | None = None) -> dict[str, Any]:
+    """Run every figure, write the JSON results, print the tables and return the results."""
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--smoke", action="store_true", help="tiny sizes (seconds)")
     parser.add_argument("--out", default=str(HERE / "results.json"), help="JSON output")
