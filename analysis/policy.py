@@ -32,6 +32,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_valida
 from .circuit import _describe
 from .errors import InputError, Problem, format_path
 from .loading import decode_text, read_file
+from .options import METRICS
 
 __all__ = [
     "Policy",
@@ -139,7 +140,7 @@ def check_metrics(policy: Policy, metrics: list[str], *, source: str | None = No
     PolicyError
         Naming each rule and the metric to add.
     """
-    known = ("expressibility", "entanglement", "trainability", "capacity")
+    known = METRICS
     problems = []
     for i, rule in enumerate(policy.rules):
         root = re.split(r"[.\[]", rule.metric, maxsplit=1)[0]

@@ -169,3 +169,12 @@ def test_cli_policy_in_json_report(capsys, tmp_path):
     code = cli.main(["analyze", "ref:ry-cz-ring", *FAST, "--policy", bad, "--format", "json"])
     report = json.loads(capsys.readouterr().out)
     assert code == 1 and report["policy"]["status"] == "fail"
+
+
+def test_a_rule_on_the_lie_metric_needs_it_requested():
+    from analysis.policy import check_metrics
+
+    policy = parse_policy({"rules": [{"metric": "lie.points[0].dimension", "fail_above": 10}]})
+    with pytest.raises(PolicyError, match="needs the lie metric"):
+        check_metrics(policy, ["expressibility"])
+    check_metrics(policy, ["expressibility", "lie"])  # requested: nothing to say

@@ -1,0 +1,55 @@
+"""Admission estimates: every metric the analysis can run is counted before it runs."""
+
+import pytest
+
+from analysis.circuit import parse_circuit
+from analysis.cost import PRODUCT_COST, _as_sums, estimate
+from analysis.options import METRICS, AnalysisOptions
+from analysis.program import expand
+from analysis.references import load_reference
+from service.settings import Settings
+
+BUDGET = 1 << 30
+
+
+@pytest.mark.parametrize("metric", METRICS)
+def test_every_metric_alone_has_a_cost_and_a_memory(metric):
+    # a metric missing from the estimate would be admitted at cost 0 by the service
+    e = estimate(
+        load_reference("ry-cz-ring"), AnalysisOptions(metrics=[metric]), memory_budget=BUDGET
+    )
+    assert e.cost > 0 and e.memory > 0
+
+
+@pytest.mark.parametrize(
+    "layer,sums",
+    [
+        ([{"gate": "ry"}, {"gate": "cz", "on": "ring"}], False),
+        ([{"gate": "rx"}, {"gate": "rzz", "on": "chain"}], False),
+        ([{"gate": "rx", "angle": 1.5707963267948966}, {"gate": "ry"}], False),  # rx(π/2): Clifford
+        ([{"gate": "ry"}, {"gate": "crz", "on": "chain"}], True),  # (Z_t - Z_c Z_t)/2
+        ([{"gate": "ry"}, {"gate": "t"}], True),  # T conjugates later generators into sums
+        ([{"gate": "ry", "share": "step"}], True),  # one generator, a sum over targets
+    ],
+)
+def test_the_slow_pauli_sum_closure_is_recognised(layer, sums):
+    program = expand(parse_circuit({"qubits": 3, "layers": 2, "layer": layer}))
+    assert _as_sums(program) is sums
+
+
+def test_lie_work_on_pauli_sums_is_sent_from_score_to_jobs():
+    # ref:sim2019-03 (crz ladder) needs 25 s of Lie closure on the reference machine, the
+    # string-only ry-cz-ring 1.6 s; the score route's cap sits between the two
+    cap = Settings().max_score_cost
+    lie = AnalysisOptions(metrics=["lie"])
+    assert estimate(load_reference("sim2019-03"), lie, memory_budget=BUDGET).cost > cap
+    assert estimate(load_reference("ry-cz-ring"), lie, memory_budget=BUDGET).cost < cap
+
+
+def test_lie_cost_grows_with_the_scan():
+    circuit = load_reference("ry-cz-ring")
+    small = estimate(circuit, AnalysisOptions(metrics=["lie"], scan=[2, 3]), memory_budget=BUDGET)
+    large = estimate(
+        circuit, AnalysisOptions(metrics=["lie"], scan=[2, 3, 6]), memory_budget=BUDGET
+    )
+    assert large.cost > small.cost + PRODUCT_COST
