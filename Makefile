@@ -73,7 +73,7 @@ openapi: $(VENV)/.core
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info
 
-## bench: the benchmark suite of issue 6 (about 5 minutes); prints a table and writes bench/results.json
+## bench: the benchmark suite (about 4 minutes); prints a table and writes bench/results.json
 bench: $(VENV)/.core
 	$(BIN)/python bench/run.py --out bench/results.json
 
