@@ -8,9 +8,13 @@ request validation, undecodable body
 ``OverLimit`` (admission control)      422, with ``limit`` and ``estimate``
 ``LimitError`` (memory budget)         422
 ``StoreUnavailable``                   503, with ``Retry-After``
+``Unavailable`` (e.g. not ready)       503, with ``Retry-After``
 ``HTTPException``                      its own status
 anything else                          500 (logged; a bug)
 =====================================  ======
+
+Every 503 carries ``Retry-After``: ``HAARLINE_RETRY_AFTER`` seconds unless the exception
+brings a better estimate (the rules are in :mod:`service.backoff`).
 """
 
 from __future__ import annotations
@@ -31,7 +35,7 @@ from analysis.options import option_problems
 
 from .store import StoreUnavailable
 
-__all__ = ["PROBLEM_TYPE", "OverLimit", "install_handlers", "problem_response"]
+__all__ = ["PROBLEM_TYPE", "OverLimit", "Unavailable", "install_handlers", "problem_response"]
 
 log = logging.getLogger("haarline.service")
 
@@ -59,6 +63,32 @@ class OverLimit(Exception):
     def __init__(self, what: str, limit: float, estimate: float, hint: str):
         self.what, self.limit, self.estimate, self.hint = what, limit, estimate, hint
         super().__init__(f"estimated {what} {estimate:.3g} exceeds the limit {limit:.3g}; {hint}")
+
+
+class Unavailable(Exception):
+    """The service cannot serve the request right now (503, with ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        What is wrong, for the client.
+    kind : str
+        The problem type's last path segment.
+    retry_after : int, optional
+        Seconds to suggest; by default ``HAARLINE_RETRY_AFTER``.
+    **extra
+        Further members of the problem body (numbers the detail quotes).
+    """
+
+    def __init__(self, detail: str, *, kind: str, retry_after: int | None = None, **extra: Any):
+        self.detail, self.kind, self.retry_after, self.extra = detail, kind, retry_after, extra
+        super().__init__(detail)
+
+
+def _retry_after(request: Request, seconds: int | None = None) -> dict[str, str]:
+    if seconds is None:
+        seconds = request.app.state.settings.retry_after
+    return {"Retry-After": str(seconds)}
 
 
 def problem_response(
@@ -180,8 +210,19 @@ def install_handlers(app: FastAPI) -> None:
             503,
             str(exc),
             kind="store-unavailable",
-            headers={"Retry-After": "5"},
+            headers=_retry_after(request),
             instance=request.url.path,
+        )
+
+    @app.exception_handler(Unavailable)
+    async def _unavailable(request: Request, exc: Unavailable) -> JSONResponse:
+        return problem_response(
+            503,
+            exc.detail,
+            kind=exc.kind,
+            headers=_retry_after(request, exc.retry_after),
+            instance=request.url.path,
+            **exc.extra,
         )
 
     @app.exception_handler(StarletteHTTPException)

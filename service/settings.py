@@ -18,7 +18,8 @@ variable                           meaning (default)
 ``HAARLINE_MAX_MEMORY_BYTES``      largest working memory of one job (``2147483648``)
 ``HAARLINE_MEMORY_BUDGET``         memory for state batches per job (``1073741824``)
 ``HAARLINE_QUEUE_PER_KEY``         queued or running jobs one key may have (``16``)
-``HAARLINE_RETRY_AFTER``           seconds suggested in a 429 (``5``)
+``HAARLINE_RETRY_AFTER``           seconds a 503 suggests, and a 429 before any job has run
+                                   (``5``); see :mod:`service.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
 =================================  ==========================================================
 

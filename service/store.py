@@ -45,6 +45,7 @@ CREATE INDEX IF NOT EXISTS jobs_hash ON jobs(request_hash, state);
 CREATE TABLE IF NOT EXISTS events (
     job_id TEXT NOT NULL, state TEXT NOT NULL, at REAL NOT NULL, detail TEXT
 );
+CREATE INDEX IF NOT EXISTS events_job ON events(job_id);
 CREATE TABLE IF NOT EXISTS results (
     job_id TEXT PRIMARY KEY, report TEXT NOT NULL, markdown TEXT NOT NULL
 );
@@ -258,6 +259,33 @@ class Store:
                 (owner,),
             ).fetchone()
         return int(row[0])
+
+    def queued_count(self) -> int:
+        """Queued jobs of every owner."""
+        with self._connect() as conn:
+            row = conn.execute("SELECT count(*) FROM jobs WHERE state = 'queued'").fetchone()
+        return int(row[0])
+
+    def mean_run_seconds(self, recent: int = 20) -> float | None:
+        """Mean run time of the ``recent`` newest succeeded jobs that ran; ``None`` if none.
+
+        A job's run time is from its last ``running`` event to its ``succeeded`` event, so
+        time spent queued does not count; jobs answered from the store never ran and do
+        not count either.
+        """
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT avg(done - started) FROM ("
+                " SELECT (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'running')"
+                "   AS started,"
+                " (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'succeeded')"
+                "   AS done"
+                " FROM jobs AS j WHERE j.state = 'succeeded' AND j.cached = 0"
+                " ORDER BY j.created DESC LIMIT ?"
+                ") WHERE started IS NOT NULL AND done IS NOT NULL",
+                (recent,),
+            ).fetchone()
+        return None if row[0] is None else float(row[0])
 
     def queued(self, limit: int) -> list[str]:
         """Ids of queued jobs, oldest first."""

@@ -11,6 +11,7 @@ from fastapi import APIRouter, Header, HTTPException, Query, Response
 from fastapi.responses import JSONResponse
 
 from ..admission import admit_analysis, admit_compare, request_hash
+from ..backoff import full_queue_wait
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
 from ..problems import problem_response
 from ..schemas import AnalysisCreate, CompareCreate, JobPublic, ProblemDetail, job_public
@@ -108,7 +109,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 f"this key already has {settings.queue_per_key} queued or running jobs, the "
                 "limit; retry later",
                 kind="queue-full",
-                headers={"Retry-After": str(settings.retry_after)},
+                headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
             )
         job, created = store.create_job(
             owner=caller,

@@ -12,6 +12,7 @@ import analysis
 
 from ..admission import admit_analysis
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from ..problems import Unavailable
 from ..schemas import AnalysisCreate, CheckCreate, ProblemDetail, ReferencePublic
 from ..worker import circuit_of
 
@@ -116,5 +117,5 @@ def healthz() -> dict[str, str]:
 def readyz(store: StoreDep, runner: RunnerDep) -> Any:
     store.ping()  # StoreUnavailable: the store-unavailable 503, with Retry-After
     if not runner.alive():
-        raise HTTPException(503, "the job dispatcher is not running")
+        raise Unavailable("the job dispatcher is not running", kind="not-ready")
     return {"status": "ready"}
