@@ -8,7 +8,8 @@ request validation, undecodable body
 ``OverLimit`` (admission control)      422, with ``limit`` and ``estimate``
 ``LimitError`` (memory budget)         422
 ``StoreUnavailable``                   503, with ``Retry-After``
-``Unavailable`` (e.g. not ready)       503, with ``Retry-After``
+``Unavailable`` (not ready, busy)      503, with ``Retry-After``
+``TimedOut`` (score time limit)        504
 ``HTTPException``                      its own status
 anything else                          500 (logged; a bug)
 =====================================  ======
@@ -35,7 +36,14 @@ from analysis.options import option_problems
 
 from .store import StoreUnavailable
 
-__all__ = ["PROBLEM_TYPE", "OverLimit", "Unavailable", "install_handlers", "problem_response"]
+__all__ = [
+    "PROBLEM_TYPE",
+    "OverLimit",
+    "TimedOut",
+    "Unavailable",
+    "install_handlers",
+    "problem_response",
+]
 
 log = logging.getLogger("haarline.service")
 
@@ -54,6 +62,7 @@ _TITLES = {
     429: "Too many jobs",
     500: "Internal error",
     503: "Service unavailable",
+    504: "Timed out",
 }
 
 
@@ -82,6 +91,24 @@ class Unavailable(Exception):
 
     def __init__(self, detail: str, *, kind: str, retry_after: int | None = None, **extra: Any):
         self.detail, self.kind, self.retry_after, self.extra = detail, kind, retry_after, extra
+        super().__init__(detail)
+
+
+class TimedOut(Exception):
+    """Work that ran past its wall-clock limit and was stopped (504, no ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        The limit and what to do instead.
+    kind : str
+        The problem type's last path segment.
+    **extra
+        Further members of the problem body (``limit`` in seconds).
+    """
+
+    def __init__(self, detail: str, *, kind: str, **extra: Any):
+        self.detail, self.kind, self.extra = detail, kind, extra
         super().__init__(detail)
 
 
@@ -223,6 +250,12 @@ def install_handlers(app: FastAPI) -> None:
             headers=_retry_after(request, exc.retry_after),
             instance=request.url.path,
             **exc.extra,
+        )
+
+    @app.exception_handler(TimedOut)
+    async def _timed_out(request: Request, exc: TimedOut) -> JSONResponse:
+        return problem_response(
+            504, exc.detail, kind=exc.kind, instance=request.url.path, **exc.extra
         )
 
     @app.exception_handler(StarletteHTTPException)

@@ -15,6 +15,10 @@ variable                           meaning (default)
 ``HAARLINE_MAX_COST``              largest estimated cost of one job, in amplitude-gate
                                    updates (``2e11``)
 ``HAARLINE_MAX_SCORE_COST``        the same for the synchronous score route (``2e8``)
+``HAARLINE_SCORE_TIMEOUT``         seconds one score may take before it is stopped with a
+                                   504 (``20``)
+``HAARLINE_SCORE_WORKERS``         processes of the score route's own, beside the job
+                                   workers; scores running at once (``1``)
 ``HAARLINE_MAX_MEMORY_BYTES``      largest working memory of one job (``2147483648``)
 ``HAARLINE_MEMORY_BUDGET``         memory for state batches per job (``1073741824``)
 ``HAARLINE_QUEUE_PER_KEY``         queued or running jobs one key may have (``16``)
@@ -70,6 +74,8 @@ class Settings(BaseModel):
     read_timeout: float = Field(default=30.0, gt=0, le=3600)
     max_cost: float = Field(default=2e11, gt=0)
     max_score_cost: float = Field(default=2e8, gt=0)
+    score_timeout: float = Field(default=20.0, gt=0, le=600)
+    score_workers: int = Field(default=1, ge=1, le=32)
     max_memory_bytes: int = Field(default=2 << 30, gt=0)
     memory_budget: int = Field(default=1 << 30, ge=1 << 20)
     queue_per_key: int = Field(default=16, ge=1)

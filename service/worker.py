@@ -9,6 +9,7 @@ service died can simply be run again: its seed makes the result identical.
 
 from __future__ import annotations
 
+import os
 import time
 from typing import Any
 
@@ -16,7 +17,7 @@ import analysis
 
 from .store import Store
 
-__all__ = ["JobCancelled", "execute_job", "run_request"]
+__all__ = ["JobCancelled", "execute_job", "run_request", "warm_up"]
 
 PROGRESS_INTERVAL = 0.25
 """Seconds between progress writes (and cancel checks)."""
@@ -77,6 +78,11 @@ def run_request(
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
     return report, analysis.to_markdown(report, images=links, page="page"), images
+
+
+def warm_up() -> int:
+    """Run first in every new worker process: import the numerical core; return the pid."""
+    return os.getpid()
 
 
 def execute_job(database: str, job_id: str, memory_budget: int) -> str:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import asyncio
 from typing import Any
 
 from fastapi import APIRouter, HTTPException
@@ -29,14 +28,14 @@ health = APIRouter(tags=["health"])
     "/score",
     operation_id="scoreCircuit",
     tags=["score"],
-    summary="Analyze a small circuit synchronously (under the score cost cap)",
+    summary="Analyze a small circuit synchronously (under the score cost cap and time limit)",
+    responses={504: PROBLEM},
 )
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
 ) -> Any:
     request, _ = admit_analysis(body, settings, route="score")
-    future = runner.run_now("analysis", request)
-    report, _, _ = await asyncio.wrap_future(future)
+    report, _, _ = await runner.scores.run("analysis", request)
     return JSONResponse(report)
 
 
