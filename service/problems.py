@@ -10,6 +10,8 @@ request validation, undecodable body
 ``StoreUnavailable``                   503, with ``Retry-After``
 ``Unavailable`` (not ready, busy)      503, with ``Retry-After``
 ``TimedOut`` (score time limit)        504
+``OSError``: no space left (ENOSPC,    503, with ``Retry-After``; any other ``OSError`` is a
+EDQUOT, EFBIG), e.g. the page secret   500
 ``HTTPException``                      its own status
 anything else                          500 (logged; a bug)
 =====================================  ======
@@ -20,6 +22,7 @@ brings a better estimate (the rules are in :mod:`service.backoff`).
 
 from __future__ import annotations
 
+import errno
 import logging
 from typing import Any
 
@@ -48,6 +51,8 @@ __all__ = [
 log = logging.getLogger("haarline.service")
 
 PROBLEM_TYPE = "https://haarline.invalid/problems/"
+NO_SPACE = frozenset({errno.ENOSPC, errno.EDQUOT, errno.EFBIG})
+"""``OSError`` numbers that mean the data directory's disk (or a size limit) is full."""
 _TITLES = {
     400: "Bad request",
     401: "Not authenticated",
@@ -283,6 +288,19 @@ def install_handlers(app: FastAPI) -> None:
         log.exception("unhandled error on %s", request.url.path)
         return problem_response(
             500, "internal error; it has been logged", instance=request.url.path
+        )
+
+    @app.exception_handler(OSError)
+    async def _os(request: Request, exc: OSError) -> JSONResponse:
+        if exc.errno not in NO_SPACE:
+            return await _bug(request, exc)
+        log.warning("no space left on %s: %s", request.url.path, exc)
+        return problem_response(
+            503,
+            f"the data directory has no space left ({exc.strerror}); retry once space is freed",
+            kind="no-space",
+            headers=_retry_after(request),
+            instance=request.url.path,
         )
 
     _ = HTTPException  # FastAPI's subclass is handled by the Starlette handler above

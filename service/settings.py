@@ -22,6 +22,8 @@ variable                           meaning (default)
 ``HAARLINE_MAX_MEMORY_BYTES``      largest working memory of one job (``2147483648``)
 ``HAARLINE_MEMORY_BUDGET``         memory for state batches per job (``1073741824``)
 ``HAARLINE_QUEUE_PER_KEY``         queued or running jobs one key may have (``16``)
+``HAARLINE_MIN_FREE_BYTES``        free space on the data directory's disk below which
+                                   ``/readyz`` answers 503 (``67108864``, 64 MiB)
 ``HAARLINE_RETRY_AFTER``           seconds a 503 suggests, and a 429 before any job has run
                                    (``5``); see :mod:`service.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
@@ -79,6 +81,7 @@ class Settings(BaseModel):
     max_memory_bytes: int = Field(default=2 << 30, gt=0)
     memory_budget: int = Field(default=1 << 30, ge=1 << 20)
     queue_per_key: int = Field(default=16, ge=1)
+    min_free_bytes: int = Field(default=64 << 20, ge=0)
     retry_after: int = Field(default=5, ge=1)
     public_url: str | None = None
 

@@ -12,6 +12,7 @@ never deleted; every state change is recorded in ``events`` with its time.
 from __future__ import annotations
 
 import json
+import shutil
 import sqlite3
 import time
 import uuid
@@ -78,6 +79,11 @@ class Store:
             conn.execute(f"PRAGMA busy_timeout = {int(self.timeout * 1000)}")
             yield conn
         except sqlite3.OperationalError as exc:
+            if getattr(exc, "sqlite_errorname", "") == "SQLITE_FULL":
+                raise StoreUnavailable(
+                    "the job store is unavailable: the disk of the data directory is full "
+                    f"({exc}); retry once space is freed"
+                ) from None
             raise StoreUnavailable(f"the job store is unavailable: {exc}") from None
         except sqlite3.DatabaseError as exc:
             raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
@@ -96,6 +102,15 @@ class Store:
             conn.execute("BEGIN IMMEDIATE")
             conn.execute("SELECT count(*) FROM jobs").fetchone()
             conn.execute("ROLLBACK")
+
+    def free_bytes(self) -> int:
+        """Free bytes on the file system of the database's directory (for ``/readyz``)."""
+        try:
+            return shutil.disk_usage(Path(self.path).parent).free
+        except OSError as exc:
+            raise StoreUnavailable(
+                f"cannot see the free space of the job store's directory: {exc.strerror}"
+            ) from None
 
     # --- keys -------------------------------------------------------------------------------
 
