@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import logging
 import multiprocessing
+import os
 import threading
 from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -25,7 +26,7 @@ from typing import Any
 from .scoring import ScorePool
 from .settings import Settings
 from .store import Store, StoreUnavailable
-from .worker import execute_job, warm_up
+from .worker import execute_job, follow_parent, warm_up
 
 __all__ = ["MAX_ATTEMPTS", "Runner"]
 
@@ -99,6 +100,8 @@ class Runner:
         pool = ProcessPoolExecutor(
             max_workers=self.settings.workers,
             mp_context=multiprocessing.get_context("spawn"),
+            initializer=follow_parent,  # a worker exits when the server is killed
+            initargs=(os.getpid(),),
         )
         # start every worker now, so the first job (and its cancel) does not wait for a
         # process to start and import numpy, scipy and pydantic

@@ -40,7 +40,7 @@ from typing import Any
 from .backoff import clamp_seconds
 from .problems import TimedOut, Unavailable
 from .settings import Settings
-from .worker import run_request, warm_up
+from .worker import follow_parent, run_request, warm_up
 
 __all__ = ["ScorePool"]
 
@@ -52,7 +52,10 @@ class _Slot:
 
     def __init__(self) -> None:
         self.executor = ProcessPoolExecutor(
-            max_workers=1, mp_context=multiprocessing.get_context("spawn")
+            max_workers=1,
+            mp_context=multiprocessing.get_context("spawn"),
+            initializer=follow_parent,  # the process exits when the server is killed
+            initargs=(os.getpid(),),
         )
         # start the process now and learn its pid (it also imports the numerical core)
         self.pid: Future[int] = self.executor.submit(warm_up)
