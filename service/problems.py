@@ -18,6 +18,13 @@ anything else                          500 (logged; a bug)
 
 Every 503 carries ``Retry-After``: ``HAARLINE_RETRY_AFTER`` seconds unless the exception
 brings a better estimate (the rules are in :mod:`service.backoff`).
+
+The OpenAPI document lists, per route, only the problem statuses that route can return:
+each route declares them with :func:`problem_responses` (one shared table of
+descriptions), and :func:`install_openapi` drops FastAPI's automatic 422 from routes that
+did not declare one (a path parameter that takes any text cannot fail validation). 408 and
+413 are declared on routes that take a body; any other route answers them only to a body
+it does not take.
 """
 
 from __future__ import annotations
@@ -37,15 +44,19 @@ from analysis.circuit import validation_problems
 from analysis.errors import format_path
 from analysis.options import option_problems
 
+from .schemas import ProblemDetail
 from .store import StoreUnavailable
 
 __all__ = [
+    "PROBLEM_STATUSES",
     "PROBLEM_TYPE",
     "OverLimit",
     "TimedOut",
     "Unavailable",
     "install_handlers",
+    "install_openapi",
     "problem_response",
+    "problem_responses",
 ]
 
 log = logging.getLogger("haarline.service")
@@ -69,6 +80,80 @@ _TITLES = {
     503: "Service unavailable",
     504: "Timed out",
 }
+
+
+PROBLEM_STATUSES: dict[int, str] = {
+    401: "No API key, not a Bearer key, or an unknown or revoked key.",
+    403: "The share token is malformed, tampered with, expired or for another job.",
+    404: "No such job for this key, or no such plot or reference circuit.",
+    408: "The request body did not arrive within HAARLINE_READ_TIMEOUT seconds.",
+    409: "The job has no result (yet), or the Idempotency-Key was used with another body.",
+    413: "The request body is larger than HAARLINE_MAX_BODY_BYTES.",
+    422: "Invalid input (errors[].path names each field), or estimated work over a limit "
+    "(limit, estimate).",
+    429: "The key's queue is full; Retry-After says when to try again.",
+    503: "Temporarily unable to serve (store unavailable, disk full, not ready, busy); "
+    "Retry-After says when to try again.",
+    504: "The work ran past its time limit (limit, in seconds) and was stopped.",
+}
+"""Every problem status a route may declare, with the description the document shows."""
+
+
+def problem_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
+    """The ``responses=`` entries of a route for the problem statuses it can return.
+
+    Examples
+    --------
+    >>> sorted(problem_responses(401, 503))
+    [401, 503]
+    """
+    return {
+        status: {
+            "model": ProblemDetail,
+            "description": PROBLEM_STATUSES[status],
+            "content": {"application/problem+json": {}},
+        }
+        for status in statuses
+    }
+
+
+def install_openapi(app: FastAPI) -> None:
+    """Make the app's OpenAPI document list exactly the declared problem responses.
+
+    FastAPI adds a 422 with its own error schema to every route with parameters; a route
+    that did not declare 422 cannot return one here, so it is dropped. A declared problem
+    response is served as ``application/problem+json`` only, with the problem schema
+    (FastAPI files that schema under the route's own media type, JSON or HTML).
+    """
+    build = app.openapi
+
+    def openapi() -> dict[str, Any]:
+        if app.openapi_schema is None:
+            app.openapi_schema = _declared_problems_only(build())
+        return app.openapi_schema
+
+    app.openapi = openapi  # type: ignore[method-assign]
+
+
+_DEFAULT_422 = "#/components/schemas/HTTPValidationError"
+_PROBLEM = {"$ref": "#/components/schemas/ProblemDetail"}
+
+
+def _declared_problems_only(document: dict[str, Any]) -> dict[str, Any]:
+    for methods in document.get("paths", {}).values():
+        for operation in methods.values():
+            responses = operation.get("responses", {})
+            for status, response in list(responses.items()):
+                content = response.get("content", {})
+                schema = content.get("application/json", {}).get("schema", {})
+                if status == "422" and schema.get("$ref") == _DEFAULT_422:
+                    del responses[status]
+                elif "application/problem+json" in content:
+                    response["content"] = {"application/problem+json": {"schema": _PROBLEM}}
+    schemas = document.get("components", {}).get("schemas", {})
+    for name in ("HTTPValidationError", "ValidationError"):
+        schemas.pop(name, None)
+    return document
 
 
 class OverLimit(Exception):

@@ -13,16 +13,12 @@ from fastapi.responses import JSONResponse
 from ..admission import admit_analysis, admit_compare, request_hash
 from ..backoff import full_queue_wait
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
-from ..problems import problem_response
-from ..schemas import AnalysisCreate, CompareCreate, JobPublic, ProblemDetail, job_public
+from ..problems import problem_response, problem_responses
+from ..schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
 
 __all__ = ["analyses", "comparisons"]
 
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
-ERRORS: dict[int | str, dict[str, Any]] = {
-    code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-    for code in (401, 404, 408, 409, 413, 422, 429, 503)
-}
 
 IdempotencyKey = Annotated[
     str | None,
@@ -64,7 +60,7 @@ def _finished(store: Any, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
 
 
 def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
-    router = APIRouter(prefix=prefix, tags=[plural], responses=ERRORS)
+    router = APIRouter(prefix=prefix, tags=[plural])
     base = prefix
     Body = AnalysisCreate if kind == "analysis" else CompareCreate
     title = noun.capitalize()
@@ -75,6 +71,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"create{title}",
         summary=f"Start {'an' if noun[0] in 'aeiou' else 'a'} {noun} job",
+        responses=problem_responses(401, 408, 409, 413, 422, 429, 503),
     )
     def create(
         body: Body,  # type: ignore[valid-type]
@@ -132,6 +129,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=list[JobPublic],
         operation_id=f"list{plural.capitalize()}",
         summary=f"List this key's {noun} jobs, newest first",
+        responses=problem_responses(401, 422, 503),
     )
     def listing(
         caller: CallerDep,
@@ -147,6 +145,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"get{title}",
         summary="Status and progress",
+        responses=problem_responses(401, 404, 503),
     )
     def status(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         return job_public(_owned(store, job_id, caller, kind), base)
@@ -157,6 +156,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"cancel{title}",
         summary="Cancel a queued or running job",
+        responses=problem_responses(401, 404, 503),
     )
     def cancel(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         _owned(store, job_id, caller, kind)
@@ -170,6 +170,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         if kind == "analysis"
         else "The comparison JSON (compare_format 1): ranking and reports",
         response_class=JSONResponse,
+        responses=problem_responses(401, 404, 409, 503),
     )
     def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         result, _ = _finished(store, _owned(store, job_id, caller, kind))
@@ -179,7 +180,10 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/summary",
         operation_id=f"get{title}Summary",
         summary="The Markdown summary",
-        responses={200: {"content": {"text/markdown": {}}}},
+        responses={
+            200: {"content": {"text/markdown": {}}},
+            **problem_responses(401, 404, 409, 503),
+        },
     )
     def summary(job_id: str, caller: CallerDep, store: StoreDep) -> Response:
         _, markdown = _finished(store, _owned(store, job_id, caller, kind))
@@ -190,6 +194,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=list[str],
         operation_id=f"list{title}Plots",
         summary="Names of the PNG plots",
+        responses=problem_responses(401, 404, 409, 503),
     )
     def plots(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         job = _owned(store, job_id, caller, kind)
@@ -200,7 +205,10 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/plots/{name}",
         operation_id=f"get{title}Plot",
         summary="One PNG plot",
-        responses={200: {"content": {"image/png": {}}}},
+        responses={
+            200: {"content": {"image/png": {}}},
+            **problem_responses(401, 404, 409, 503),
+        },
     )
     def plot(job_id: str, name: str, caller: CallerDep, store: StoreDep) -> Response:
         job = _owned(store, job_id, caller, kind)

@@ -11,22 +11,13 @@ import analysis
 
 from ..admission import admit_analysis
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
-from ..problems import Unavailable
-from ..schemas import (
-    AnalysisCreate,
-    CheckCreate,
-    ProblemDetail,
-    ReadyPublic,
-    ReferencePublic,
-)
+from ..problems import Unavailable, problem_responses
+from ..schemas import AnalysisCreate, CheckCreate, ReadyPublic, ReferencePublic
 from ..worker import circuit_of
 
 __all__ = ["health", "v1"]
 
-PROBLEM: dict[str, Any] = {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-ERRORS: dict[int | str, dict[str, Any]] = {code: PROBLEM for code in (401, 408, 413, 422, 503)}
-
-v1 = APIRouter(prefix="/v1", responses=ERRORS)
+v1 = APIRouter(prefix="/v1")
 health = APIRouter(tags=["health"])
 
 
@@ -35,7 +26,7 @@ health = APIRouter(tags=["health"])
     operation_id="scoreCircuit",
     tags=["score"],
     summary="Analyze a small circuit synchronously (under the score cost cap and time limit)",
-    responses={504: PROBLEM},
+    responses=problem_responses(401, 408, 413, 422, 503, 504),
 )
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
@@ -50,6 +41,7 @@ async def score(
     operation_id="checkCircuit",
     tags=["circuits"],
     summary="Validate a description and return its static facts",
+    responses=problem_responses(401, 408, 413, 422, 503),
 )
 def check(body: CheckCreate, caller: CallerDep) -> Any:
     spec = body.model_dump(mode="json", include={"circuit", "qasm", "reference"})
@@ -67,6 +59,7 @@ def check(body: CheckCreate, caller: CallerDep) -> Any:
     operation_id="getCircuitSchema",
     tags=["circuits"],
     summary="JSON Schema of the circuit description, format 1",
+    responses=problem_responses(401, 503),
 )
 def schema(caller: CallerDep) -> Any:
     return analysis.circuit_schema()
@@ -78,6 +71,7 @@ def schema(caller: CallerDep) -> Any:
     operation_id="listReferences",
     tags=["circuits"],
     summary="The bundled reference circuits",
+    responses=problem_responses(401, 503),
 )
 def references(caller: CallerDep) -> Any:
     out = []
@@ -100,7 +94,7 @@ def references(caller: CallerDep) -> Any:
     operation_id="getReference",
     tags=["circuits"],
     summary="One bundled reference circuit (its description)",
-    responses={404: PROBLEM},
+    responses=problem_responses(401, 404, 503),
 )
 def reference(name: str, caller: CallerDep) -> Any:
     if name not in analysis.reference_names():
@@ -118,7 +112,7 @@ def healthz() -> dict[str, str]:
     response_model=ReadyPublic,
     operation_id="ready",
     summary="The job store, the dispatcher and the disk space work (no key needed)",
-    responses={503: PROBLEM},
+    responses=problem_responses(503),
 )
 def readyz(settings: SettingsDep, store: StoreDep, runner: RunnerDep) -> Any:
     store.ping()  # StoreUnavailable: the store-unavailable 503, with Retry-After
