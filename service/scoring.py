@@ -137,10 +137,13 @@ class ScorePool:
             The score ran past the limit (its process has been killed).
         """
         slot = self._acquire()
-        future = slot.executor.submit(
-            run_request, kind, request, memory_budget=self.settings.memory_budget
-        )
+        future: Future[Any] | None = None
         try:
+            # an idle process that died (killed, out of memory) breaks the executor, and
+            # submit raises BrokenProcessPool at once
+            future = slot.executor.submit(
+                run_request, kind, request, memory_budget=self.settings.memory_budget
+            )
             return await asyncio.wait_for(asyncio.wrap_future(future), self.limit)
         except TimeoutError:
             raise TimedOut(
@@ -155,7 +158,7 @@ class ScorePool:
                 kind="score-worker-lost",
             ) from None
         finally:
-            self._release(slot, healthy=_healthy(future))
+            self._release(slot, healthy=future is not None and _healthy(future))
 
     def _fill(self) -> None:
         while len(self._free) + len(self._busy) < self.settings.score_workers:

@@ -140,6 +140,27 @@ def test_over_the_limit_is_a_504_the_process_is_killed_and_busy_is_a_503(make_cl
     assert poll(lambda: c.get(url).json()["state"] == "succeeded", what="a job succeeded")
 
 
+def test_a_dead_score_process_is_a_503_and_is_replaced(make_client):
+    import os
+    import signal
+
+    c = make_client()
+    scores = c.app.state.runner.scores
+    scores.start()
+    (first,) = poll(scores.pids, what="the score process started")
+    os.kill(first, signal.SIGKILL)  # an idle score process dies (out of memory, say)
+    poll(lambda: gone(first), what=f"score process {first} gone")
+    r = c.post("/v1/score", json=SMALL)
+    assert r.status_code == 503, r.text
+    assert r.json()["type"].endswith("/score-worker-lost") and r.headers["Retry-After"] == "5"
+    assert "the score process died" in r.json()["detail"]
+    assert scores.busy() == 0  # the slot is free again, with a fresh process
+    (second,) = poll(scores.pids, what="a fresh score process")
+    assert second != first
+    r = c.post("/v1/score", json=SMALL)
+    assert r.status_code == 200 and strip(r.json()) == strip(expected(SMALL))
+
+
 def test_score_settings_are_validated(tmp_path):
     from service.settings import SettingsError
 
