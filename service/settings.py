@@ -24,8 +24,9 @@ variable                           meaning (default)
 ``HAARLINE_QUEUE_PER_KEY``         queued or running jobs one key may have (``16``)
 ``HAARLINE_MIN_FREE_BYTES``        free space on the data directory's disk below which
                                    ``/readyz`` answers 503 (``67108864``, 64 MiB)
-``HAARLINE_RETRY_AFTER``           seconds a 503 suggests, and a 429 before any job has run
-                                   (``5``); see :mod:`service.backoff`
+``HAARLINE_RETRY_AFTER``           seconds a 503 suggests (a busy score estimates its own),
+                                   and a 429 before any job has run (``5``); see
+                                   :mod:`service.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
 =================================  ==========================================================
 
