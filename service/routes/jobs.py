@@ -19,6 +19,8 @@ from ..schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
 __all__ = ["analyses", "comparisons"]
 
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
+MAX_OFFSET = 1_000_000_000
+"""Largest listing offset (SQLite integers stop at 2**63 - 1; a 422 rather than a 500)."""
 
 IdempotencyKey = Annotated[
     str | None,
@@ -135,7 +137,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         caller: CallerDep,
         store: StoreDep,
         limit: Annotated[int, Query(ge=1, le=200)] = 50,
-        offset: Annotated[int, Query(ge=0)] = 0,
+        offset: Annotated[int, Query(ge=0, le=MAX_OFFSET)] = 0,
     ) -> Any:
         jobs = store.list_jobs(caller, kind=kind, limit=limit, offset=offset)
         return [job_public(j, base) for j in jobs if j["kind"] == kind]
