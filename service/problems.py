@@ -149,7 +149,7 @@ def _declared_problems_only(document: dict[str, Any]) -> dict[str, Any]:
                 if status == "422" and schema.get("$ref") == _DEFAULT_422:
                     del responses[status]
                 elif "application/problem+json" in content:
-                    response["content"] = {"application/problem+json": {"schema": _PROBLEM}}
+                    response["content"] = {"application/problem+json": {"schema": {**_PROBLEM}}}
     schemas = document.get("components", {}).get("schemas", {})
     for name in ("HTTPValidationError", "ValidationError"):
         schemas.pop(name, None)
