@@ -30,7 +30,6 @@ from __future__ import annotations
 import asyncio
 import multiprocessing
 import os
-import signal
 import threading
 import time
 from concurrent.futures import Future, ProcessPoolExecutor
@@ -68,22 +67,24 @@ class _Slot:
         return None
 
     def kill(self) -> None:
-        """Kill the process (now, or as soon as its pid is known) and drop the executor."""
-        self.pid.add_done_callback(_kill_pid)
+        """Kill the process and drop the executor.
+
+        The kill goes through the process's own handle, which signals only a process that
+        has not been reaped yet, so a pid the system has already reused is never hit.
+        ``kill_workers`` does exactly this from Python 3.14 on; before, the executor's
+        process table (``_processes``, unchanged since 3.9) is the only way to it.
+        """
+        kill_workers = getattr(self.executor, "kill_workers", None)
+        if kill_workers is not None:
+            kill_workers()
+        else:
+            for process in list((getattr(self.executor, "_processes", None) or {}).values()):
+                process.kill()
         self.executor.shutdown(wait=False, cancel_futures=True)
 
     def close(self) -> None:
         """Let an idle process exit."""
         self.executor.shutdown(wait=False, cancel_futures=True)
-
-
-def _kill_pid(pid: Future[int]) -> None:
-    if pid.cancelled() or pid.exception() is not None:
-        return  # the process never started work, or is already gone
-    try:
-        os.kill(pid.result(), signal.SIGKILL)
-    except ProcessLookupError:
-        pass
 
 
 class ScorePool:
