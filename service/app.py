@@ -12,7 +12,7 @@ import analysis
 
 from .executor import Runner
 from .limits import BodyLimit
-from .problems import install_handlers
+from .problems import install_handlers, install_openapi
 from .routes import jobs, meta, pages
 from .settings import Settings
 from .store import Store
@@ -47,6 +47,7 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
     )
     app.state.settings, app.state.store, app.state.runner = settings, store, runner
     install_handlers(app)
+    install_openapi(app)
     for router in (jobs.analyses, jobs.comparisons, pages.router, meta.v1, meta.health):
         app.include_router(router)
     app.add_middleware(BodyLimit, limit=settings.max_body_bytes, timeout=settings.read_timeout)

@@ -12,28 +12,39 @@ from .keys import verify_key
 from .settings import Settings
 from .store import Store
 
-__all__ = ["CallerDep", "RunnerDep", "SettingsDep", "StoreDep"]
+__all__ = [
+    "CallerDep",
+    "RunnerDep",
+    "SettingsDep",
+    "StoreDep",
+    "get_runner",
+    "get_settings",
+    "get_store",
+]
 
 DEV_OWNER = "dev"
 
 _bearer = HTTPBearer(auto_error=False, description="API key: `Authorization: Bearer hl_…`")
 
 
-def _settings(request: Request) -> Settings:
+def get_settings(request: Request) -> Settings:
+    """The app's settings (override it in tests with ``app.dependency_overrides``)."""
     return request.app.state.settings  # type: ignore[no-any-return]
 
 
-def _store(request: Request) -> Store:
+def get_store(request: Request) -> Store:
+    """The app's job store (override it in tests with ``app.dependency_overrides``)."""
     return request.app.state.store  # type: ignore[no-any-return]
 
 
-def _runner(request: Request) -> Runner:
+def get_runner(request: Request) -> Runner:
+    """The app's runner (override it in tests with ``app.dependency_overrides``)."""
     return request.app.state.runner  # type: ignore[no-any-return]
 
 
-SettingsDep = Annotated[Settings, Depends(_settings)]
-StoreDep = Annotated[Store, Depends(_store)]
-RunnerDep = Annotated[Runner, Depends(_runner)]
+SettingsDep = Annotated[Settings, Depends(get_settings)]
+StoreDep = Annotated[Store, Depends(get_store)]
+RunnerDep = Annotated[Runner, Depends(get_runner)]
 
 
 def _caller(

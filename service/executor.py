@@ -7,6 +7,10 @@ the pool is rebuilt so the service keeps serving. A job interrupted because the 
 could not be written (locked, full disk) is queued again; an outcome the store refuses to
 record is written on a later round. On start-up, jobs that were running when
 the previous process died are queued again (:meth:`Store.requeue_interrupted`).
+
+The synchronous score route never uses these workers: the runner also owns the score
+route's own small pool (:class:`service.scoring.ScorePool`), whose processes start with
+the first score and stop with the runner.
 """
 
 from __future__ import annotations
@@ -19,9 +23,10 @@ from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
+from .scoring import ScorePool
 from .settings import Settings
 from .store import Store, StoreUnavailable
-from .worker import execute_job, run_request
+from .worker import execute_job, follow_parent, warm_up
 
 __all__ = ["MAX_ATTEMPTS", "Runner"]
 
@@ -45,6 +50,8 @@ class Runner:
         self._pool: ProcessPoolExecutor | None = None
         self._dask: Any = None
         self._thread: threading.Thread | None = None
+        self.scores = ScorePool(settings)
+        """The score route's own processes (never the job workers)."""
 
     # --- life cycle -------------------------------------------------------------------------
 
@@ -72,6 +79,7 @@ class Runner:
             self._pool.shutdown(wait=False, cancel_futures=True)
         if self._dask is not None:
             self._dask.close()
+        self.scores.stop()
 
     def alive(self) -> bool:
         """Whether the dispatcher runs (for ``/readyz``)."""
@@ -86,31 +94,19 @@ class Runner:
         """Jobs that may run at once."""
         return self.settings.workers
 
-    # --- synchronous work for the score route ------------------------------------------------
-
-    def run_now(self, kind: str, request: dict[str, Any]) -> Future[Any]:
-        """Run a request in the pool without a stored job (small, synchronous work)."""
-        if self._dask is not None:
-            future = self._dask.submit(
-                run_request, kind, request, memory_budget=self.settings.memory_budget, pure=False
-            )
-            return _DaskFuture(future)
-        with self._lock:
-            pool = self._pool or self._new_pool()
-            self._pool = pool
-        return pool.submit(run_request, kind, request, memory_budget=self.settings.memory_budget)
-
     # --- dispatching ------------------------------------------------------------------------
 
     def _new_pool(self) -> ProcessPoolExecutor:
         pool = ProcessPoolExecutor(
             max_workers=self.settings.workers,
             mp_context=multiprocessing.get_context("spawn"),
+            initializer=follow_parent,  # a worker exits when the server is killed
+            initargs=(os.getpid(),),
         )
         # start every worker now, so the first job (and its cancel) does not wait for a
         # process to start and import numpy, scipy and pydantic
         for _ in range(self.settings.workers):
-            pool.submit(_warm)
+            pool.submit(warm_up)
         return pool
 
     def _loop(self) -> None:
@@ -197,13 +193,6 @@ class Runner:
             self.store.mark(job_id, state, error=reason)  # StoreUnavailable: next round
             with self._lock:
                 self._unrecorded.pop(job_id, None)
-
-
-def _warm() -> int:
-    """Run once in each new worker process: import the numerical core."""
-    import analysis  # noqa: F401
-
-    return os.getpid()
 
 
 class _DaskFuture(Future):  # type: ignore[type-arg]

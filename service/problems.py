@@ -8,13 +8,28 @@ request validation, undecodable body
 ``OverLimit`` (admission control)      422, with ``limit`` and ``estimate``
 ``LimitError`` (memory budget)         422
 ``StoreUnavailable``                   503, with ``Retry-After``
+``Unavailable`` (not ready, busy)      503, with ``Retry-After``
+``TimedOut`` (score time limit)        504
+``OSError``: no space left (ENOSPC,    503, with ``Retry-After``; any other ``OSError`` is a
+EDQUOT, EFBIG), e.g. the page secret   500
 ``HTTPException``                      its own status
 anything else                          500 (logged; a bug)
 =====================================  ======
+
+Every 503 carries ``Retry-After``: ``HAARLINE_RETRY_AFTER`` seconds unless the exception
+brings a better estimate (the rules are in :mod:`service.backoff`).
+
+The OpenAPI document lists, per route, only the problem statuses that route can return:
+each route declares them with :func:`problem_responses` (one shared table of
+descriptions), and :func:`install_openapi` drops FastAPI's automatic 422 from routes that
+did not declare one (a path parameter that takes any text cannot fail validation). 408 and
+413 are declared on routes that take a body; any other route answers them only to a body
+it does not take.
 """
 
 from __future__ import annotations
 
+import errno
 import logging
 from typing import Any
 
@@ -29,13 +44,26 @@ from analysis.circuit import validation_problems
 from analysis.errors import format_path
 from analysis.options import option_problems
 
+from .schemas import ProblemDetail
 from .store import StoreUnavailable
 
-__all__ = ["PROBLEM_TYPE", "OverLimit", "install_handlers", "problem_response"]
+__all__ = [
+    "PROBLEM_STATUSES",
+    "PROBLEM_TYPE",
+    "OverLimit",
+    "TimedOut",
+    "Unavailable",
+    "install_handlers",
+    "install_openapi",
+    "problem_response",
+    "problem_responses",
+]
 
 log = logging.getLogger("haarline.service")
 
 PROBLEM_TYPE = "https://haarline.invalid/problems/"
+NO_SPACE = frozenset({errno.ENOSPC, errno.EDQUOT, errno.EFBIG})
+"""``OSError`` numbers that mean the data directory's disk (or a size limit) is full."""
 _TITLES = {
     400: "Bad request",
     401: "Not authenticated",
@@ -50,7 +78,82 @@ _TITLES = {
     429: "Too many jobs",
     500: "Internal error",
     503: "Service unavailable",
+    504: "Timed out",
 }
+
+
+PROBLEM_STATUSES: dict[int, str] = {
+    401: "No API key, not a Bearer key, or an unknown or revoked key.",
+    403: "The share token is malformed, tampered with, expired or for another job.",
+    404: "No such job for this key, or no such plot or reference circuit.",
+    408: "The request body did not arrive within HAARLINE_READ_TIMEOUT seconds.",
+    409: "The job has no result (yet), or the Idempotency-Key was used with another body.",
+    413: "The request body is larger than HAARLINE_MAX_BODY_BYTES.",
+    422: "Invalid input (errors[].path names each field), or estimated work over a limit "
+    "(limit, estimate).",
+    429: "The key's queue is full; Retry-After says when to try again.",
+    503: "Temporarily unable to serve (store unavailable, disk full, not ready, busy); "
+    "Retry-After says when to try again.",
+    504: "The work ran past its time limit (limit, in seconds) and was stopped.",
+}
+"""Every problem status a route may declare, with the description the document shows."""
+
+
+def problem_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
+    """The ``responses=`` entries of a route for the problem statuses it can return.
+
+    Examples
+    --------
+    >>> sorted(problem_responses(401, 503))
+    [401, 503]
+    """
+    return {
+        status: {
+            "model": ProblemDetail,
+            "description": PROBLEM_STATUSES[status],
+            "content": {"application/problem+json": {}},
+        }
+        for status in statuses
+    }
+
+
+def install_openapi(app: FastAPI) -> None:
+    """Make the app's OpenAPI document list exactly the declared problem responses.
+
+    FastAPI adds a 422 with its own error schema to every route with parameters; a route
+    that did not declare 422 cannot return one here, so it is dropped. A declared problem
+    response is served as ``application/problem+json`` only, with the problem schema
+    (FastAPI files that schema under the route's own media type, JSON or HTML).
+    """
+    build = app.openapi
+
+    def openapi() -> dict[str, Any]:
+        if app.openapi_schema is None:
+            app.openapi_schema = _declared_problems_only(build())
+        return app.openapi_schema
+
+    app.openapi = openapi  # type: ignore[method-assign]
+
+
+_DEFAULT_422 = "#/components/schemas/HTTPValidationError"
+_PROBLEM = {"$ref": "#/components/schemas/ProblemDetail"}
+
+
+def _declared_problems_only(document: dict[str, Any]) -> dict[str, Any]:
+    for methods in document.get("paths", {}).values():
+        for operation in methods.values():
+            responses = operation.get("responses", {})
+            for status, response in list(responses.items()):
+                content = response.get("content", {})
+                schema = content.get("application/json", {}).get("schema", {})
+                if status == "422" and schema.get("$ref") == _DEFAULT_422:
+                    del responses[status]
+                elif "application/problem+json" in content:
+                    response["content"] = {"application/problem+json": {"schema": {**_PROBLEM}}}
+    schemas = document.get("components", {}).get("schemas", {})
+    for name in ("HTTPValidationError", "ValidationError"):
+        schemas.pop(name, None)
+    return document
 
 
 class OverLimit(Exception):
@@ -59,6 +162,50 @@ class OverLimit(Exception):
     def __init__(self, what: str, limit: float, estimate: float, hint: str):
         self.what, self.limit, self.estimate, self.hint = what, limit, estimate, hint
         super().__init__(f"estimated {what} {estimate:.3g} exceeds the limit {limit:.3g}; {hint}")
+
+
+class Unavailable(Exception):
+    """The service cannot serve the request right now (503, with ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        What is wrong, for the client.
+    kind : str
+        The problem type's last path segment.
+    retry_after : int, optional
+        Seconds to suggest; by default ``HAARLINE_RETRY_AFTER``.
+    **extra
+        Further members of the problem body (numbers the detail quotes).
+    """
+
+    def __init__(self, detail: str, *, kind: str, retry_after: int | None = None, **extra: Any):
+        self.detail, self.kind, self.retry_after, self.extra = detail, kind, retry_after, extra
+        super().__init__(detail)
+
+
+class TimedOut(Exception):
+    """Work that ran past its wall-clock limit and was stopped (504, no ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        The limit and what to do instead.
+    kind : str
+        The problem type's last path segment.
+    **extra
+        Further members of the problem body (``limit`` in seconds).
+    """
+
+    def __init__(self, detail: str, *, kind: str, **extra: Any):
+        self.detail, self.kind, self.extra = detail, kind, extra
+        super().__init__(detail)
+
+
+def _retry_after(request: Request, seconds: int | None = None) -> dict[str, str]:
+    if seconds is None:
+        seconds = request.app.state.settings.retry_after
+    return {"Retry-After": str(seconds)}
 
 
 def problem_response(
@@ -180,8 +327,25 @@ def install_handlers(app: FastAPI) -> None:
             503,
             str(exc),
             kind="store-unavailable",
-            headers={"Retry-After": "5"},
+            headers=_retry_after(request),
             instance=request.url.path,
+        )
+
+    @app.exception_handler(Unavailable)
+    async def _unavailable(request: Request, exc: Unavailable) -> JSONResponse:
+        return problem_response(
+            503,
+            exc.detail,
+            kind=exc.kind,
+            headers=_retry_after(request, exc.retry_after),
+            instance=request.url.path,
+            **exc.extra,
+        )
+
+    @app.exception_handler(TimedOut)
+    async def _timed_out(request: Request, exc: TimedOut) -> JSONResponse:
+        return problem_response(
+            504, exc.detail, kind=exc.kind, instance=request.url.path, **exc.extra
         )
 
     @app.exception_handler(StarletteHTTPException)
@@ -209,6 +373,19 @@ def install_handlers(app: FastAPI) -> None:
         log.exception("unhandled error on %s", request.url.path)
         return problem_response(
             500, "internal error; it has been logged", instance=request.url.path
+        )
+
+    @app.exception_handler(OSError)
+    async def _os(request: Request, exc: OSError) -> JSONResponse:
+        if exc.errno not in NO_SPACE:
+            return await _bug(request, exc)
+        log.warning("no space left on %s: %s", request.url.path, exc)
+        return problem_response(
+            503,
+            f"the data directory has no space left ({exc.strerror}); retry once space is freed",
+            kind="no-space",
+            headers=_retry_after(request),
+            instance=request.url.path,
         )
 
     _ = HTTPException  # FastAPI's subclass is handled by the Starlette handler above

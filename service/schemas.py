@@ -19,6 +19,7 @@ __all__ = [
     "ProblemDetail",
     "ProblemEntry",
     "ProgressPublic",
+    "ReadyPublic",
     "ReferencePublic",
     "job_public",
 ]
@@ -173,8 +174,25 @@ class ProblemDetail(BaseModel):
     detail: str
     instance: str | None = None
     errors: list[ProblemEntry] = Field(default_factory=list)
-    limit: float | None = None
-    estimate: float | None = None
+    limit: float | None = Field(
+        default=None,
+        description="over-limit: the cost or memory limit; score-timeout: the limit in seconds.",
+    )
+    estimate: float | None = Field(default=None, description="over-limit: the estimate.")
+    free_bytes: int | None = Field(
+        default=None, description="low-disk-space: free bytes in the data directory."
+    )
+    min_free_bytes: int | None = Field(
+        default=None, description="low-disk-space: the configured minimum."
+    )
+
+
+class ReadyPublic(BaseModel):
+    """The answer of a ready service."""
+
+    status: Literal["ready"] = "ready"
+    free_bytes: int = Field(description="Free bytes on the data directory's file system.")
+    min_free_bytes: int = Field(description="Below this, readiness fails (503).")
 
 
 def job_public(job: dict[str, Any], base: str) -> JobPublic:

@@ -15,10 +15,18 @@ variable                           meaning (default)
 ``HAARLINE_MAX_COST``              largest estimated cost of one job, in amplitude-gate
                                    updates (``2e11``)
 ``HAARLINE_MAX_SCORE_COST``        the same for the synchronous score route (``2e8``)
+``HAARLINE_SCORE_TIMEOUT``         seconds one score may take before it is stopped with a
+                                   504 (``20``)
+``HAARLINE_SCORE_WORKERS``         processes of the score route's own, beside the job
+                                   workers; scores running at once (``1``)
 ``HAARLINE_MAX_MEMORY_BYTES``      largest working memory of one job (``2147483648``)
 ``HAARLINE_MEMORY_BUDGET``         memory for state batches per job (``1073741824``)
 ``HAARLINE_QUEUE_PER_KEY``         queued or running jobs one key may have (``16``)
-``HAARLINE_RETRY_AFTER``           seconds suggested in a 429 (``5``)
+``HAARLINE_MIN_FREE_BYTES``        free space on the data directory's disk below which
+                                   ``/readyz`` answers 503 (``67108864``, 64 MiB)
+``HAARLINE_RETRY_AFTER``           seconds a 503 suggests (a busy score estimates its own),
+                                   and a 429 before any job has run (``5``); see
+                                   :mod:`service.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
 =================================  ==========================================================
 
@@ -69,9 +77,12 @@ class Settings(BaseModel):
     read_timeout: float = Field(default=30.0, gt=0, le=3600)
     max_cost: float = Field(default=2e11, gt=0)
     max_score_cost: float = Field(default=2e8, gt=0)
+    score_timeout: float = Field(default=20.0, gt=0, le=600)
+    score_workers: int = Field(default=1, ge=1, le=32)
     max_memory_bytes: int = Field(default=2 << 30, gt=0)
     memory_budget: int = Field(default=1 << 30, ge=1 << 20)
     queue_per_key: int = Field(default=16, ge=1)
+    min_free_bytes: int = Field(default=64 << 20, ge=0)
     retry_after: int = Field(default=5, ge=1)
     public_url: str | None = None
 

@@ -12,6 +12,7 @@ never deleted; every state change is recorded in ``events`` with its time.
 from __future__ import annotations
 
 import json
+import shutil
 import sqlite3
 import time
 import uuid
@@ -45,6 +46,7 @@ CREATE INDEX IF NOT EXISTS jobs_hash ON jobs(request_hash, state);
 CREATE TABLE IF NOT EXISTS events (
     job_id TEXT NOT NULL, state TEXT NOT NULL, at REAL NOT NULL, detail TEXT
 );
+CREATE INDEX IF NOT EXISTS events_job ON events(job_id);
 CREATE TABLE IF NOT EXISTS results (
     job_id TEXT PRIMARY KEY, report TEXT NOT NULL, markdown TEXT NOT NULL
 );
@@ -77,6 +79,11 @@ class Store:
             conn.execute(f"PRAGMA busy_timeout = {int(self.timeout * 1000)}")
             yield conn
         except sqlite3.OperationalError as exc:
+            if getattr(exc, "sqlite_errorname", "") == "SQLITE_FULL":
+                raise StoreUnavailable(
+                    "the job store is unavailable: the disk of the data directory is full "
+                    f"({exc}); retry once space is freed"
+                ) from None
             raise StoreUnavailable(f"the job store is unavailable: {exc}") from None
         except sqlite3.DatabaseError as exc:
             raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
@@ -95,6 +102,15 @@ class Store:
             conn.execute("BEGIN IMMEDIATE")
             conn.execute("SELECT count(*) FROM jobs").fetchone()
             conn.execute("ROLLBACK")
+
+    def free_bytes(self) -> int:
+        """Free bytes on the file system of the database's directory (for ``/readyz``)."""
+        try:
+            return shutil.disk_usage(Path(self.path).parent).free
+        except OSError as exc:
+            raise StoreUnavailable(
+                f"cannot see the free space of the job store's directory: {exc.strerror}"
+            ) from None
 
     # --- keys -------------------------------------------------------------------------------
 
@@ -258,6 +274,33 @@ class Store:
                 (owner,),
             ).fetchone()
         return int(row[0])
+
+    def queued_count(self) -> int:
+        """Queued jobs of every owner."""
+        with self._connect() as conn:
+            row = conn.execute("SELECT count(*) FROM jobs WHERE state = 'queued'").fetchone()
+        return int(row[0])
+
+    def mean_run_seconds(self, recent: int = 20) -> float | None:
+        """Mean run time of the ``recent`` newest succeeded jobs that ran; ``None`` if none.
+
+        A job's run time is from its last ``running`` event to its ``succeeded`` event, so
+        time spent queued does not count; jobs answered from the store never ran and do
+        not count either.
+        """
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT avg(done - started) FROM ("
+                " SELECT (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'running')"
+                "   AS started,"
+                " (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'succeeded')"
+                "   AS done"
+                " FROM jobs AS j WHERE j.state = 'succeeded' AND j.cached = 0"
+                " ORDER BY j.created DESC LIMIT ?"
+                ") WHERE started IS NOT NULL AND done IS NOT NULL",
+                (recent,),
+            ).fetchone()
+        return None if row[0] is None else float(row[0])
 
     def queued(self, limit: int) -> list[str]:
         """Ids of queued jobs, oldest first."""

@@ -5,10 +5,17 @@ runs the analysis, and writes progress and the result back to the store itself. 
 nothing from the parent process, so the same function runs in a local process pool or on
 a Dask cluster that shares the data directory, and a job that was running when the
 service died can simply be run again: its seed makes the result identical.
+
+A local worker process must not outlive the server: if the server is killed outright
+(SIGKILL, out of memory), nothing tells its pool's processes, which would compute on, then
+wait for work for ever. :func:`follow_parent`, the pools' initializer, starts a thread in
+each worker that exits the process as soon as its parent is gone.
 """
 
 from __future__ import annotations
 
+import os
+import threading
 import time
 from typing import Any
 
@@ -16,10 +23,24 @@ import analysis
 
 from .store import Store
 
-__all__ = ["JobCancelled", "execute_job", "run_request"]
+__all__ = [
+    "ORPHAN_EXIT",
+    "PARENT_POLL",
+    "JobCancelled",
+    "execute_job",
+    "follow_parent",
+    "run_request",
+    "warm_up",
+]
 
 PROGRESS_INTERVAL = 0.25
 """Seconds between progress writes (and cancel checks)."""
+
+PARENT_POLL = 0.5
+"""Seconds between a worker's checks that the server that started it still runs."""
+
+ORPHAN_EXIT = 70
+"""Exit status of a worker that found its server gone."""
 
 
 class JobCancelled(Exception):
@@ -77,6 +98,30 @@ def run_request(
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
     return report, analysis.to_markdown(report, images=links, page="page"), images
+
+
+def follow_parent(parent: int, interval: float = PARENT_POLL) -> None:
+    """Exit this process promptly once ``parent`` (the server's pid) is no longer its parent.
+
+    Runs as a process pool's initializer, with the server's pid taken before the workers
+    start. A daemon thread compares :func:`os.getppid` with ``parent`` every ``interval``
+    seconds; when the server has died the worker has been re-parented (to init or a
+    sub-reaper), and the thread ends the process with :func:`os._exit` (status
+    :data:`ORPHAN_EXIT`) at once, whatever it is computing. A job cut off this way is
+    still ``running`` in the store and is queued again when the server restarts.
+    """
+
+    def watch() -> None:
+        while os.getppid() == parent:
+            time.sleep(interval)
+        os._exit(ORPHAN_EXIT)
+
+    threading.Thread(target=watch, name="haarline-follow-parent", daemon=True).start()
+
+
+def warm_up() -> int:
+    """Run first in every new worker process: import the numerical core; return the pid."""
+    return os.getpid()
 
 
 def execute_job(database: str, job_id: str, memory_budget: int) -> str:

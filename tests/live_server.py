@@ -128,7 +128,10 @@ class LiveServer:
             return []
 
     def compute_workers(self) -> list[psutil.Process]:
-        """The process-pool workers (spawned interpreters running ``spawn_main``)."""
+        """The process-pool workers (spawned interpreters running ``spawn_main``).
+
+        These are the job workers, and the score process once a score has run.
+        """
         out = []
         for p in self.processes()[1:]:
             try:

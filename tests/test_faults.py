@@ -1,5 +1,8 @@
 """Faults: crashes of the server and of a worker, a locked database, a full disk.
 
+A server killed alone (SIGKILL of its main process, not of its group) must not leave its
+worker processes running: they notice that their parent is gone and exit.
+
 The larger crash run is ``make faults`` (tests/faults.py, 10 cycles); here it runs twice.
 
 The full disk is simulated with ``RLIMIT_FSIZE`` on the server process (inherited by its
@@ -17,6 +20,7 @@ import subprocess
 import sys
 import time
 
+import psutil
 from fastapi.testclient import TestClient
 from faults import run_cycles
 from live_server import LiveServer, wait_for
@@ -68,9 +72,35 @@ def test_a_killed_worker_is_retried_then_failed_and_the_service_keeps_serving(tm
         assert job["error"] == "the worker process died (killed or out of memory)"
         details = [e["detail"] for e in job["events"]]
         assert "the worker process died (killed or out of memory); retrying" in details
-        assert c.get("/readyz").json() == {"status": "ready"}
+        assert c.get("/readyz").json()["status"] == "ready"
         after = c.post("/v1/analyses", json=SMALL).headers["location"]
         assert wait_for(c, after, ("succeeded", "failed"))["state"] == "succeeded"
+
+
+def test_workers_exit_when_the_server_alone_is_killed(tmp_path):
+    """SIGKILL of the server's main process only (not its group): no worker outlives it."""
+    with LiveServer(tmp_path, workers=2) as server, server.client(server.key()) as c:
+        url = c.post("/v1/analyses", json=SLOW).headers["location"]
+        wait_for(c, url, ("running",))  # one job worker computing, one idle
+        assert c.post("/v1/score", json=SMALL).status_code == 200  # the score process too
+        pids = [p.pid for p in server.compute_workers()]
+        assert len(pids) == 3, pids
+        os.kill(server.proc.pid, signal.SIGKILL)
+        server.proc.wait(timeout=30)
+        deadline = time.time() + 30
+        while time.time() < deadline and not all(map(exited, pids)):
+            time.sleep(0.1)
+        left = [pid for pid in pids if not exited(pid)]
+        assert not left, f"workers still running after the server died: {left}"
+    # (leaving the block kills the process group: nothing survives a failed run either)
+
+
+def exited(pid: int) -> bool:
+    """The process is gone (a zombie waiting for its new parent to reap it counts)."""
+    try:
+        return psutil.Process(pid).status() == psutil.STATUS_ZOMBIE
+    except psutil.NoSuchProcess:
+        return True
 
 
 def test_a_locked_database_is_a_503_and_nothing_is_corrupted(tmp_path):

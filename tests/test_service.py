@@ -267,7 +267,7 @@ def test_score_check_schema_references(client):
     names = [r["name"] for r in client.get("/v1/references").json()]
     assert "sim2019-19" in names
     assert client.get("/v1/references/ry-cz-ring").json()["name"] == "ry-cz-ring"
-    assert client.get("/readyz").json() == {"status": "ready"}
+    assert client.get("/readyz").json()["status"] == "ready"
 
 
 def test_plot_names_cannot_escape(client):
@@ -324,3 +324,12 @@ def test_listing_pages_by_kind(quiet):
     assert len(page) == 2 and all(j["kind"] == "analysis" for j in page)
     assert len(quiet.get("/v1/analyses", params={"limit": 2, "offset": 2}).json()) == 1
     assert len(quiet.get("/v1/comparisons").json()) == 1
+
+
+@pytest.mark.parametrize("offset", [1_000_000_001, 2**63, 10**30])
+def test_listing_offsets_past_the_bound_are_422_not_500(quiet, offset):
+    r = quiet.get("/v1/analyses", params={"offset": offset})
+    assert r.status_code == 422, r.text
+    assert r.json()["errors"][0]["path"] == "query.offset"
+    assert "1000000000" in r.json()["errors"][0]["message"]
+    assert quiet.get("/v1/analyses", params={"offset": 1_000_000_000}).json() == []

@@ -11,17 +11,16 @@ from fastapi import APIRouter, Header, HTTPException, Query, Response
 from fastapi.responses import JSONResponse
 
 from ..admission import admit_analysis, admit_compare, request_hash
+from ..backoff import full_queue_wait
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
-from ..problems import problem_response
-from ..schemas import AnalysisCreate, CompareCreate, JobPublic, ProblemDetail, job_public
+from ..problems import problem_response, problem_responses
+from ..schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
 
 __all__ = ["analyses", "comparisons"]
 
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
-ERRORS: dict[int | str, dict[str, Any]] = {
-    code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-    for code in (401, 404, 408, 409, 413, 422, 429, 503)
-}
+MAX_OFFSET = 1_000_000_000
+"""Largest listing offset (SQLite integers stop at 2**63 - 1; a 422 rather than a 500)."""
 
 IdempotencyKey = Annotated[
     str | None,
@@ -63,7 +62,7 @@ def _finished(store: Any, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
 
 
 def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
-    router = APIRouter(prefix=prefix, tags=[plural], responses=ERRORS)
+    router = APIRouter(prefix=prefix, tags=[plural])
     base = prefix
     Body = AnalysisCreate if kind == "analysis" else CompareCreate
     title = noun.capitalize()
@@ -74,6 +73,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"create{title}",
         summary=f"Start {'an' if noun[0] in 'aeiou' else 'a'} {noun} job",
+        responses=problem_responses(401, 408, 409, 413, 422, 429, 503),
     )
     def create(
         body: Body,  # type: ignore[valid-type]
@@ -108,7 +108,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 f"this key already has {settings.queue_per_key} queued or running jobs, the "
                 "limit; retry later",
                 kind="queue-full",
-                headers={"Retry-After": str(settings.retry_after)},
+                headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
             )
         job, created = store.create_job(
             owner=caller,
@@ -131,12 +131,13 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=list[JobPublic],
         operation_id=f"list{plural.capitalize()}",
         summary=f"List this key's {noun} jobs, newest first",
+        responses=problem_responses(401, 422, 503),
     )
     def listing(
         caller: CallerDep,
         store: StoreDep,
         limit: Annotated[int, Query(ge=1, le=200)] = 50,
-        offset: Annotated[int, Query(ge=0)] = 0,
+        offset: Annotated[int, Query(ge=0, le=MAX_OFFSET)] = 0,
     ) -> Any:
         jobs = store.list_jobs(caller, kind=kind, limit=limit, offset=offset)
         return [job_public(j, base) for j in jobs if j["kind"] == kind]
@@ -146,6 +147,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"get{title}",
         summary="Status and progress",
+        responses=problem_responses(401, 404, 503),
     )
     def status(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         return job_public(_owned(store, job_id, caller, kind), base)
@@ -156,6 +158,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"cancel{title}",
         summary="Cancel a queued or running job",
+        responses=problem_responses(401, 404, 503),
     )
     def cancel(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         _owned(store, job_id, caller, kind)
@@ -169,6 +172,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         if kind == "analysis"
         else "The comparison JSON (compare_format 1): ranking and reports",
         response_class=JSONResponse,
+        responses=problem_responses(401, 404, 409, 503),
     )
     def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         result, _ = _finished(store, _owned(store, job_id, caller, kind))
@@ -178,7 +182,10 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/summary",
         operation_id=f"get{title}Summary",
         summary="The Markdown summary",
-        responses={200: {"content": {"text/markdown": {}}}},
+        responses={
+            200: {"content": {"text/markdown": {}}},
+            **problem_responses(401, 404, 409, 503),
+        },
     )
     def summary(job_id: str, caller: CallerDep, store: StoreDep) -> Response:
         _, markdown = _finished(store, _owned(store, job_id, caller, kind))
@@ -189,6 +196,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=list[str],
         operation_id=f"list{title}Plots",
         summary="Names of the PNG plots",
+        responses=problem_responses(401, 404, 409, 503),
     )
     def plots(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         job = _owned(store, job_id, caller, kind)
@@ -199,7 +207,10 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/plots/{name}",
         operation_id=f"get{title}Plot",
         summary="One PNG plot",
-        responses={200: {"content": {"image/png": {}}}},
+        responses={
+            200: {"content": {"image/png": {}}},
+            **problem_responses(401, 404, 409, 503),
+        },
     )
     def plot(job_id: str, name: str, caller: CallerDep, store: StoreDep) -> Response:
         job = _owned(store, job_id, caller, kind)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import asyncio
 from typing import Any
 
 from fastapi import APIRouter, HTTPException
@@ -12,15 +11,13 @@ import analysis
 
 from ..admission import admit_analysis
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
-from ..schemas import AnalysisCreate, CheckCreate, ProblemDetail, ReferencePublic
+from ..problems import Unavailable, problem_responses
+from ..schemas import AnalysisCreate, CheckCreate, ReadyPublic, ReferencePublic
 from ..worker import circuit_of
 
 __all__ = ["health", "v1"]
 
-PROBLEM: dict[str, Any] = {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-ERRORS: dict[int | str, dict[str, Any]] = {code: PROBLEM for code in (401, 408, 413, 422, 503)}
-
-v1 = APIRouter(prefix="/v1", responses=ERRORS)
+v1 = APIRouter(prefix="/v1")
 health = APIRouter(tags=["health"])
 
 
@@ -28,14 +25,14 @@ health = APIRouter(tags=["health"])
     "/score",
     operation_id="scoreCircuit",
     tags=["score"],
-    summary="Analyze a small circuit synchronously (under the score cost cap)",
+    summary="Analyze a small circuit synchronously (under the score cost cap and time limit)",
+    responses=problem_responses(401, 408, 413, 422, 503, 504),
 )
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
 ) -> Any:
     request, _ = admit_analysis(body, settings, route="score")
-    future = runner.run_now("analysis", request)
-    report, _, _ = await asyncio.wrap_future(future)
+    report, _, _ = await runner.scores.run("analysis", request)
     return JSONResponse(report)
 
 
@@ -44,6 +41,7 @@ async def score(
     operation_id="checkCircuit",
     tags=["circuits"],
     summary="Validate a description and return its static facts",
+    responses=problem_responses(401, 408, 413, 422, 503),
 )
 def check(body: CheckCreate, caller: CallerDep) -> Any:
     spec = body.model_dump(mode="json", include={"circuit", "qasm", "reference"})
@@ -61,6 +59,7 @@ def check(body: CheckCreate, caller: CallerDep) -> Any:
     operation_id="getCircuitSchema",
     tags=["circuits"],
     summary="JSON Schema of the circuit description, format 1",
+    responses=problem_responses(401, 503),
 )
 def schema(caller: CallerDep) -> Any:
     return analysis.circuit_schema()
@@ -72,6 +71,7 @@ def schema(caller: CallerDep) -> Any:
     operation_id="listReferences",
     tags=["circuits"],
     summary="The bundled reference circuits",
+    responses=problem_responses(401, 503),
 )
 def references(caller: CallerDep) -> Any:
     out = []
@@ -94,7 +94,7 @@ def references(caller: CallerDep) -> Any:
     operation_id="getReference",
     tags=["circuits"],
     summary="One bundled reference circuit (its description)",
-    responses={404: PROBLEM},
+    responses=problem_responses(401, 404, 503),
 )
 def reference(name: str, caller: CallerDep) -> Any:
     if name not in analysis.reference_names():
@@ -109,12 +109,32 @@ def healthz() -> dict[str, str]:
 
 @health.get(
     "/readyz",
+    response_model=ReadyPublic,
     operation_id="ready",
-    summary="The job store and the dispatcher work (no key needed)",
-    responses={503: PROBLEM},
+    summary="The job store, the dispatcher and the disk space work (no key needed)",
+    responses=problem_responses(503),
 )
-def readyz(store: StoreDep, runner: RunnerDep) -> Any:
+def readyz(settings: SettingsDep, store: StoreDep, runner: RunnerDep) -> Any:
     store.ping()  # StoreUnavailable: the store-unavailable 503, with Retry-After
     if not runner.alive():
-        raise HTTPException(503, "the job dispatcher is not running")
-    return {"status": "ready"}
+        raise Unavailable("the job dispatcher is not running", kind="not-ready")
+    free, least = store.free_bytes(), settings.min_free_bytes
+    if free < least:
+        raise Unavailable(
+            f"the data directory has {_size(free)} free, below the minimum of {_size(least)} "
+            "(HAARLINE_MIN_FREE_BYTES)",
+            kind="low-disk-space",
+            free_bytes=free,
+            min_free_bytes=least,
+        )
+    return ReadyPublic(free_bytes=free, min_free_bytes=least)
+
+
+def _size(count: int) -> str:
+    """Bytes for people: ``512 B``, ``63.9 MiB``, ``1.5 TiB``."""
+    value = float(count)
+    for unit in ("B", "KiB", "MiB", "GiB"):
+        if value < 1024:
+            return f"{count} B" if unit == "B" else f"{value:.1f} {unit}"
+        value /= 1024
+    return f"{value:.1f} TiB"

@@ -17,17 +17,12 @@ from pydantic import BaseModel, Field
 from ..deps import DEV_OWNER, CallerDep, SettingsDep, StoreDep
 from ..keys import verify_key
 from ..page import comparison_page, job_page, report_page
-from ..schemas import ProblemDetail
+from ..problems import problem_responses
 from ..tokens import MAX_TTL, TokenError, check_token, load_secret, make_token
 
 __all__ = ["router"]
 
-ERRORS: dict[int | str, dict[str, Any]] = {
-    code: {"model": ProblemDetail, "content": {"application/problem+json": {}}}
-    for code in (401, 403, 404, 422, 503)
-}
-
-router = APIRouter(tags=["pages"], responses=ERRORS)
+router = APIRouter(tags=["pages"])
 _bearer = HTTPBearer(auto_error=False)
 
 KINDS = {"analyses": "analysis", "comparisons": "compare"}
@@ -88,9 +83,13 @@ def _page_route(collection: str) -> None:
         response_class=HTMLResponse,
         operation_id=f"get{noun}Page",
         summary="The self-contained HTML report page (key or share token)",
-        # the key is optional here: a share token in the query opens the page too
-        openapi_extra={"security": [{"HTTPBearer": []}, {}]},
-        responses={200: {"content": {"text/html": {}}}},
+        # the key is optional here: a share token in the query opens the page too (the
+        # key's requirement comes from the dependency; this adds "or nothing")
+        openapi_extra={"security": [{}]},
+        responses={
+            200: {"content": {"text/html": {}}},
+            **problem_responses(401, 403, 404, 422, 503),
+        },
     )
     def page(
         job_id: str,
@@ -142,6 +141,7 @@ def _page_route(collection: str) -> None:
         response_model=SharePublic,
         operation_id=f"share{noun}Page",
         summary="A short-lived signed link to this job's page, for reviewers without a key",
+        responses=problem_responses(401, 404, 408, 413, 422, 503),
     )
     def share(
         job_id: str,
