@@ -104,7 +104,7 @@ class AnalysisOptions(BaseModel):
     precision: Literal["double", "single"] = Field(
         default="double",
         description="Engine precision: complex128 ('double') or complex64 ('single', faster; "
-        "its accuracy against double is measured in bench/results.json).",
+        "its accuracy against double is measured in bench/precision.json).",
     )
     capacity_points: StrictInt = Field(
         default=4, ge=1, le=1000, description="Random points behind the QFI rank."

@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import errno
 import logging
+import typing
 from typing import Any
 
 from fastapi import FastAPI, HTTPException, Request
@@ -242,14 +243,37 @@ def _entries(problems: list[analysis.Problem], prefix: str = "") -> list[dict[st
     return out
 
 
-def _request_problems(errors: list[dict[str, Any]]) -> list[dict[str, str]]:
-    """Field problems of a request body, translated with the models' own messages."""
+def _fields_at(model: Any, loc: list[Any]) -> list[str] | None:
+    """Field names of the pydantic model found by walking ``loc`` from ``model``, if any."""
+    for part in loc:
+        if isinstance(part, int):
+            args = [a for a in typing.get_args(model) if a is not type(None)]
+            model = args[0] if args else None
+        else:
+            fields = getattr(model, "model_fields", None)
+            if not fields or part not in fields:
+                return None
+            model = fields[part].annotation
+        while typing.get_origin(model) is not None and not isinstance(part, int):
+            inner = [a for a in typing.get_args(model) if a is not type(None)]
+            if typing.get_origin(model) is list or len(inner) != 1:
+                break
+            model = inner[0]
+    fields = getattr(model, "model_fields", None)
+    return list(fields) if fields else None
+
+
+def _request_problems(errors: list[dict[str, Any]], body: Any = None) -> list[dict[str, str]]:
+    """Field problems of a request body, translated with the models' own messages.
+
+    ``body`` is the route's body model, used to list the allowed fields of an unknown one.
+    """
     out: list[dict[str, str]] = []
     for err in errors:
         loc = [x for x in err["loc"] if x != "body"]
         # find the circuit or options sub-document (possibly inside circuits[i])
         for i, part in enumerate(loc):
-            if part in ("circuit", "options") and i + 1 <= len(loc):
+            if part in ("circuit", "options") and i + 1 < len(loc):
                 head, rest = loc[: i + 1], loc[i + 1 :]
                 sub = dict(err, loc=tuple(rest))
                 translated = (
@@ -259,6 +283,9 @@ def _request_problems(errors: list[dict[str, Any]]) -> list[dict[str, str]]:
                 break
         else:
             msg = str(err.get("msg", "invalid")).removeprefix("Value error, ")
+            allowed = _fields_at(body, loc[:-1]) if err.get("type") == "extra_forbidden" else None
+            if allowed:
+                msg = f"unknown field; allowed: {', '.join(allowed)}"
             out.append({"path": format_path(tuple(loc)), "message": msg})
     return out
 
@@ -286,7 +313,11 @@ def install_handlers(app: FastAPI) -> None:
 
     @app.exception_handler(RequestValidationError)
     async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
-        errors = _request_problems(list(exc.errors()))
+        route = request.scope.get("route")
+        body_field = getattr(route, "body_field", None)
+        info = getattr(body_field, "field_info", None)
+        model = getattr(info, "annotation", None)
+        errors = _request_problems(list(exc.errors()), model)
         detail = "; ".join(f"{e['path']}: {e['message']}" for e in errors[:5])
         return problem_response(
             422,

@@ -333,3 +333,31 @@ def test_listing_offsets_past_the_bound_are_422_not_500(quiet, offset):
     assert r.json()["errors"][0]["path"] == "query.offset"
     assert "1000000000" in r.json()["errors"][0]["message"]
     assert quiet.get("/v1/analyses", params={"offset": 1_000_000_000}).json() == []
+
+
+SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
+
+
+@pytest.mark.parametrize(
+    "route,body,path,allowed",
+    [
+        ("/v1/analyses", {"reference": "rx-product", "bogus": 1}, "bogus", SOURCE + ", options"),
+        (
+            "/v1/comparisons",
+            {"circuits": [{"reference": "rx-product", "options": {}}, {"reference": "rx-product"}]},
+            "circuits[0].options",  # options belong to the comparison, not to one circuit
+            SOURCE,
+        ),
+        (
+            "/v1/check",
+            {"reference": "rx-product", "depth": 3},
+            "depth",
+            SOURCE + ", qubits, layers",
+        ),
+        ("/v1/score", {"reference": "rx-product", "seed": 3}, "seed", SOURCE + ", options"),
+    ],
+)
+def test_an_unknown_field_names_the_allowed_ones(quiet, route, body, path, allowed):
+    r = quiet.post(route, json=body)
+    assert r.status_code == 422, r.text
+    assert {"path": path, "message": f"unknown field; allowed: {allowed}"} in r.json()["errors"]

@@ -138,3 +138,25 @@ def test_other_os_errors_stay_500(tmp_path):
     with TestClient(app, raise_server_exceptions=False) as c:
         r = c.get("/test-read")
         assert r.status_code == 500 and r.json()["detail"] == "internal error; it has been logged"
+
+
+def test_new_jobs_are_refused_below_the_minimum_free_space(tmp_path):
+    least = shutil.disk_usage(tmp_path).free + 2**40
+    with TestClient(make_app(tmp_path, runner=False, min_free_bytes=least, retry_after=7)) as c:
+        _, key = issue_key(c.app.state.store, "alice")
+        c.headers["Authorization"] = f"Bearer {key}"
+        for route, body in (
+            ("/v1/analyses", SMALL),
+            (
+                "/v1/comparisons",
+                {
+                    "circuits": [{"reference": "rx-product"}, {"reference": "ry-cz-ring"}],
+                    "options": SMALL["options"],
+                },
+            ),
+        ):
+            r = c.post(route, json=body)
+            assert r.status_code == 503, r.text
+            assert r.headers["Retry-After"] == "7"
+            assert r.json()["type"].endswith("/low-disk-space")
+        assert c.get("/v1/analyses").json() == []  # nothing was written

@@ -15,6 +15,7 @@ from ..backoff import full_queue_wait
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
 from ..problems import problem_response, problem_responses
 from ..schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
+from ..space import require_free_space
 
 __all__ = ["analyses", "comparisons"]
 
@@ -102,6 +103,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 response.headers["Location"] = f"{base}/{previous['id']}"
                 response.headers["Idempotent-Replayed"] = "true"
                 return job_public(_get(store, previous["id"]), base)
+        require_free_space(store, settings)  # before the new job is written
         if store.active_count(caller) >= settings.queue_per_key:
             return problem_response(
                 429,

@@ -13,6 +13,7 @@ from ..admission import admit_analysis
 from ..deps import CallerDep, RunnerDep, SettingsDep, StoreDep
 from ..problems import Unavailable, problem_responses
 from ..schemas import AnalysisCreate, CheckCreate, ReadyPublic, ReferencePublic
+from ..space import require_free_space
 from ..worker import circuit_of
 
 __all__ = ["health", "v1"]
@@ -118,23 +119,5 @@ def readyz(settings: SettingsDep, store: StoreDep, runner: RunnerDep) -> Any:
     store.ping()  # StoreUnavailable: the store-unavailable 503, with Retry-After
     if not runner.alive():
         raise Unavailable("the job dispatcher is not running", kind="not-ready")
-    free, least = store.free_bytes(), settings.min_free_bytes
-    if free < least:
-        raise Unavailable(
-            f"the data directory has {_size(free)} free, below the minimum of {_size(least)} "
-            "(HAARLINE_MIN_FREE_BYTES)",
-            kind="low-disk-space",
-            free_bytes=free,
-            min_free_bytes=least,
-        )
+    free, least = require_free_space(store, settings)
     return ReadyPublic(free_bytes=free, min_free_bytes=least)
-
-
-def _size(count: int) -> str:
-    """Bytes for people: ``512 B``, ``63.9 MiB``, ``1.5 TiB``."""
-    value = float(count)
-    for unit in ("B", "KiB", "MiB", "GiB"):
-        if value < 1024:
-            return f"{count} B" if unit == "B" else f"{value:.1f} {unit}"
-        value /= 1024
-    return f"{value:.1f} TiB"
