@@ -9,6 +9,8 @@ import re
 import sys
 from typing import Any
 
+from .settings import SettingsError
+
 __all__ = ["add_commands"]
 
 
@@ -38,6 +40,7 @@ def _cmd_serve(args: argparse.Namespace) -> int:
 
     from .app import create_app
     from .protocol import guarded_protocol
+    from .store import StoreUnavailable
 
     settings = _settings(
         args,
@@ -62,7 +65,10 @@ def _cmd_serve(args: argparse.Namespace) -> int:
     )
     out.write(f"  data directory: {settings.data_dir.resolve()}\n\n")
     out.flush()
-    app = create_app(settings)
+    try:
+        app = create_app(settings)
+    except StoreUnavailable as exc:
+        raise SettingsError(f"HAARLINE_DATA_DIR: {settings.database}: {exc}") from None
     logging.getLogger("uvicorn.access").addFilter(RedactTokens())
     uvicorn.run(
         app,
@@ -76,11 +82,14 @@ def _cmd_serve(args: argparse.Namespace) -> int:
 
 def _cmd_keys(args: argparse.Namespace) -> int:
     from .keys import issue_key
-    from .store import Store
+    from .store import Store, StoreUnavailable
 
     settings = _settings(args)
     store = Store(settings.database)
-    store.initialize()
+    try:
+        store.initialize()
+    except StoreUnavailable as exc:
+        raise SettingsError(f"HAARLINE_DATA_DIR: {settings.database}: {exc}") from None
     if args.action == "add":
         key_id, key = issue_key(store, args.name)
         sys.stdout.write(f"{key}\n")

@@ -482,3 +482,15 @@ def test_text_summary_mentions_the_verdict(capsys):
     assert code == 0, err
     assert "Trainability (variance of dC/dtheta, global cost" in out
     assert "verdict:" in out and "Capacity (rank of the quantum Fisher information)" in out
+
+
+@pytest.mark.parametrize("argv", [["keys", "list"], ["serve", "--dev", "--port", "8799"]])
+def test_a_damaged_job_store_is_a_clear_error(tmp_path, monkeypatch, capsys, argv):
+    (tmp_path / "haarline.sqlite3").write_text("not a database")
+    monkeypatch.setenv("HAARLINE_DATA_DIR", str(tmp_path))
+    assert cli.main(argv) == 2
+    err = capsys.readouterr().err.strip().splitlines()[-1]
+    assert err == (
+        f"haarline: error: HAARLINE_DATA_DIR: {tmp_path / 'haarline.sqlite3'}: "
+        "the job store is damaged or unreadable: file is not a database"
+    )
