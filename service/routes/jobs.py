@@ -174,7 +174,13 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         if kind == "analysis"
         else "The comparison JSON (compare_format 1): ranking and reports",
         response_class=JSONResponse,
-        responses=problem_responses(401, 404, 409, 503),
+        responses={
+            200: {
+                "description": "The report object, with the keys the README lists",
+                "content": {"application/json": {"schema": {"type": "object"}}},
+            },
+            **problem_responses(401, 404, 409, 503),
+        },
     )
     def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
         result, _ = _finished(store, _owned(store, job_id, caller, kind))
@@ -184,8 +190,12 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/summary",
         operation_id=f"get{title}Summary",
         summary="The Markdown summary",
+        response_class=Response,
         responses={
-            200: {"content": {"text/markdown": {}}},
+            200: {
+                "description": "Markdown text (UTF-8)",
+                "content": {"text/markdown": {"schema": {"type": "string"}}},
+            },
             **problem_responses(401, 404, 409, 503),
         },
     )
@@ -209,8 +219,12 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}/plots/{name}",
         operation_id=f"get{title}Plot",
         summary="One PNG plot",
+        response_class=Response,
         responses={
-            200: {"content": {"image/png": {}}},
+            200: {
+                "description": "A PNG image",
+                "content": {"image/png": {"schema": {"type": "string", "format": "binary"}}},
+            },
             **problem_responses(401, 404, 409, 503),
         },
     )
