@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from fastapi import APIRouter, HTTPException
+from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
 
 import analysis
@@ -32,7 +33,8 @@ health = APIRouter(tags=["health"])
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
 ) -> Any:
-    request, _ = admit_analysis(body, settings, route="score")
+    # parsing QASM and expanding at every scan size is CPU work: keep it off the event loop
+    request, _ = await run_in_threadpool(admit_analysis, body, settings, route="score")
     report, _, _ = await runner.scores.run("analysis", request)
     return JSONResponse(report)
 
