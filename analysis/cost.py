@@ -11,7 +11,7 @@ variance of its deep versions. The estimate is an upper-bound-style count, not a
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 from . import algebra, lie
@@ -44,6 +44,12 @@ class Estimate:
 
     cost: float
     memory: int
+    parts: dict[str, float] = field(default_factory=dict)
+    """Cost by metric (and ``layers_sweep``), in the same unit; they sum to ``cost``."""
+
+    def largest(self) -> str | None:
+        """The metric that accounts for most of the cost, if any."""
+        return max(self.parts, key=self.parts.__getitem__) if self.parts else None
 
 
 def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) -> Estimate:
@@ -64,7 +70,6 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
     program = expand(circuit)
     n, g = program.qubits, len(program.operations)
     dim = 1 << n
-    cost = 0.0
     memory = 0
 
     def batch_memory(qubits: int, copies: int = 1) -> int:
@@ -78,41 +83,43 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
         )
 
     metrics = set(options.metrics)
+    parts: dict[str, float] = {}
     if "expressibility" in metrics:
-        cost += 2.0 * options.pairs * g * dim
+        parts["expressibility"] = 2.0 * options.pairs * g * dim
         # the bootstrap holds resamples x bins counts, plus float copies while taking the KL
         bootstrap = BOOTSTRAP_RESAMPLES * options.bins * 8 * 4
         memory = max(memory, batch_memory(n), bootstrap)
     if "entanglement" in metrics:
-        cost += options.samples * (g + n) * dim
+        parts["entanglement"] = options.samples * (g + n) * dim
         memory = max(memory, batch_memory(n))
     if "trainability" in metrics:
         scan = options.scan or default_scan(circuit, options.cost)
         sizes = [(q, layers_at(options.scan_layers, q, circuit)) for q in scan]
         sizes += [(circuit.qubits, layers) for layers in options.depth_scan or []]
         per_gate = 4.0 if options.gradients == "adjoint" else None
+        parts["trainability"] = 0.0
         for q, layers in sizes:
             p = expand(circuit, qubits=q, layers=layers)
             gates = len(p.operations)
             passes = per_gate if per_gate is not None else 4.0 * p.parameters
-            cost += options.grad_samples * passes * gates * (1 << q)
+            parts["trainability"] += options.grad_samples * passes * gates * (1 << q)
             memory = max(memory, batch_memory(q, copies=3))
     if "capacity" in metrics:
         occurrences = sum(1 for op in program.operations if op.param is not None)
-        cost += options.capacity_points * (occurrences + 1) * g * dim
+        parts["capacity"] = options.capacity_points * (occurrences + 1) * g * dim
         memory = max(memory, (occurrences + 1) * dim * _BYTES * 2)
     if "lie" in metrics:
-        lie_cost, lie_memory = _lie(circuit, options, batch_memory)
-        cost += lie_cost
+        parts["lie"], lie_memory = _lie(circuit, options, batch_memory)
         memory = max(memory, lie_memory)
     if options.layers_sweep:
+        parts["layers_sweep"] = 0.0
         for layers in options.layers_sweep:
             gl = len(expand(circuit, layers=layers).operations)
             if "expressibility" in metrics:
-                cost += 2.0 * options.pairs * gl * dim
+                parts["layers_sweep"] += 2.0 * options.pairs * gl * dim
             if "entanglement" in metrics:
-                cost += options.samples * (gl + n) * dim
-    return Estimate(cost=cost, memory=int(memory))
+                parts["layers_sweep"] += options.samples * (gl + n) * dim
+    return Estimate(cost=sum(parts.values()), memory=int(memory), parts=parts)
 
 
 def _as_sums(program: Program) -> bool:

@@ -47,6 +47,9 @@ def _resolve(source: CircuitSource, path: str) -> tuple[analysis.Circuit, dict[s
     return circuit, stored
 
 
+_PART = {"layers_sweep": "the layer sweep"} | {m: f"the {m} metric" for m in analysis.METRICS}
+
+
 def _check_limits(estimate: analysis.Estimate, settings: Settings, cap: float, route: str) -> None:
     if estimate.cost > cap:
         hint = (
@@ -55,6 +58,10 @@ def _check_limits(estimate: analysis.Estimate, settings: Settings, cap: float, r
             if route == "score"
             else "lower pairs, samples, grad_samples, the scan or the qubit count"
         )
+        top = estimate.largest()
+        if top is not None:
+            share = estimate.parts[top] / estimate.cost
+            hint = f"{_PART.get(top, top)} accounts for {share:.0%} of it; {hint}"
         raise OverLimit("cost (amplitude-gate updates)", cap, estimate.cost, hint)
     if estimate.memory > settings.max_memory_bytes:
         raise OverLimit(

@@ -53,3 +53,21 @@ def test_lie_cost_grows_with_the_scan():
         circuit, AnalysisOptions(metrics=["lie"], scan=[2, 3, 6]), memory_budget=BUDGET
     )
     assert large.cost > small.cost + PRODUCT_COST
+
+
+def test_the_parts_sum_to_the_cost_and_name_the_largest():
+    options = AnalysisOptions(
+        metrics=["expressibility", "entanglement", "capacity"], pairs=50_000, layers_sweep=[1, 2]
+    )
+    e = estimate(load_reference("ry-cz-ring"), options, memory_budget=BUDGET)
+    assert set(e.parts) == {"expressibility", "entanglement", "capacity", "layers_sweep"}
+    assert sum(e.parts.values()) == pytest.approx(e.cost, rel=1e-12)
+    # the sweep repeats expressibility at 1 and 2 layers (8 + 16 gates, as many as the
+    # circuit's own 24) and adds entanglement on top, so it is the largest part
+    assert e.largest() == "layers_sweep"
+    alone = estimate(
+        load_reference("ry-cz-ring"),
+        options.model_copy(update={"layers_sweep": None}),
+        memory_budget=BUDGET,
+    )
+    assert alone.largest() == "expressibility"  # 2 x 50,000 circuits against 2,000

@@ -185,8 +185,12 @@ def test_work_over_the_cost_cap_is_rejected_with_the_estimate(quiet):
     problem = r.json()
     assert problem["limit"] == quiet.app.state.settings.max_cost
     assert problem["estimate"] > problem["limit"] and "exceeds the limit" in problem["detail"]
+    assert "the expressibility metric accounts for 100% of it" in problem["detail"]
     r = quiet.post("/v1/score", json={"reference": "ry-cz-ring", "options": {"pairs": 1_000_000}})
     assert r.status_code == 422 and "POST /v1/analyses" in r.json()["detail"]
+    lie = {"reference": "sim2019-03", "options": {"metrics": ["lie", "entanglement"]}}
+    r = quiet.post("/v1/score", json=lie)
+    assert r.status_code == 422 and "the lie metric accounts for 100% of it" in r.json()["detail"]
 
 
 def test_queue_per_key_gives_429_with_retry_after(tmp_path):
