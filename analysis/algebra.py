@@ -264,6 +264,10 @@ def _string_algebra(gens: list[PauliExpansion], n: int, cap: int, split_limit: i
 # -------------------------------------------------------------------- Pauli sums
 
 
+_REORTHOGONALIZE = 1.0 / np.sqrt(2.0)
+"""Norm left after one projection of a unit vector below which it is projected again."""
+
+
 class _Columns:
     """Pauli strings met so far, each with a column index."""
 
@@ -312,15 +316,21 @@ class _Span:
         self._room(width)
         q = self.t[:width, : self.size]
         old = cols < known
-        if old.all():  # a new string makes it independent at once
-            c = v @ q[cols]
-            if 1.0 - float(c @ c) < RANK_TOLERANCE**2:
-                return False
+        # the basis is zero on strings met for the first time, so the coefficients of the
+        # first projection need only the rows of the element's known strings
+        c = v[old] @ q[cols[old]]
+        if old.all() and 1.0 - float(c @ c) < RANK_TOLERANCE**2:
+            return False
         r = np.zeros(width)
         r[cols] = v
-        r -= q @ (r @ q)
-        r -= q @ (r @ q)  # twice is enough (Giraud et al., Numer. Math. 101, 87, 2005)
+        r -= q @ c
         norm = float(np.linalg.norm(r))
+        if norm < _REORTHOGONALIZE:
+            # much of v cancelled: project once more, and that is enough (Kahan's rule,
+            # Parlett, The Symmetric Eigenvalue Problem, 1998, section 6.9; Giraud et
+            # al., Numer. Math. 101, 87, 2005)
+            r -= q @ (r @ q)
+            norm = float(np.linalg.norm(r))
         if norm < RANK_TOLERANCE:
             return False
         self.t[:width, self.size] = r / norm

@@ -38,7 +38,7 @@ def test_the_slow_pauli_sum_closure_is_recognised(layer, sums):
 
 
 def test_lie_work_on_pauli_sums_is_sent_from_score_to_jobs():
-    # ref:sim2019-03 (crz ladder) needs 25 s of Lie closure on the reference machine, the
+    # ref:sim2019-03 (crz ladder) needs 19 s of Lie closure on the reference machine, the
     # string-only ry-cz-ring 1.6 s; the score route's cap sits between the two
     cap = Settings().max_score_cost
     lie = AnalysisOptions(metrics=["lie"])

@@ -483,6 +483,33 @@ def test_independent_count():
     assert independent_count([a, b, a.plus(b), a.scaled(-3.0)]) == 2
 
 
+@pytest.mark.parametrize("seed", range(5))
+def test_independent_count_agrees_with_numpy_rank(seed):
+    # reference: numpy.linalg.matrix_rank of the coefficient matrix over all 4^n strings.
+    # Random sums over a few strings, plus combinations of earlier ones with a small
+    # independent part (cancellation close to the tolerance, where Gram-Schmidt needs its
+    # second projection) and exact combinations (dependent).
+    rng = np.random.default_rng(seed)
+    n, labels = 3, ["".join(p) for p in itertools.product("IXYZ", repeat=3)][1:]
+    items = []
+    for _ in range(30):
+        kind = rng.integers(3) if len(items) >= 2 else 0
+        if kind == 0:
+            picks = rng.choice(len(labels), size=rng.integers(1, 5), replace=False)
+            items.append(PauliExpansion.from_labels([(rng.normal(), labels[i]) for i in picks], n))
+        else:
+            a, b = (items[i] for i in rng.choice(len(items), size=2, replace=False))
+            mix = a.scaled(rng.normal()).plus(b.scaled(rng.normal()))
+            if kind == 2:
+                mix = mix.plus(PauliExpansion.from_labels([(1e-3, labels[rng.integers(63)])], n))
+            items.append(mix)
+    dense = np.zeros((len(items), 4**n))
+    for row, e in enumerate(items):
+        for coef, label in e.labels():
+            dense[row, labels.index(label) + 1] = coef
+    assert independent_count(items) == np.linalg.matrix_rank(dense, tol=1e-9)
+
+
 def test_ry_cz_ring_dimensions_are_pinned():
     # regression pin (our own numbers, no external source): ry on all and a cz ring
     c = parse_circuit({"qubits": 4, "layer": [{"gate": "ry"}, {"gate": "cz", "on": "ring"}]})
