@@ -38,7 +38,7 @@ from .gradient_variance import VariancePoint
 from .gradients import adjoint_gradients, cost_values, shift_gradients
 from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
 from .ideals import Ideal, simple_algebra_names
-from .lie import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis
+from .lie import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis, lie_scan
 from .lie_plot import algebra_dimension_png, algebra_dimension_series
 from .lie_variance import VariancePrediction, observable_expansion, predict_variance
 from .loading import load_circuit, parse_circuit_text
@@ -157,6 +157,7 @@ __all__ = [
     "independent_count",
     "is_clifford",
     "lie_diagnosis",
+    "lie_scan",
     "load_circuit",
     "load_policy",
     "load_reference",

@@ -21,9 +21,8 @@ from .expressibility import BOOTSTRAP_RESAMPLES
 from .options import AnalysisOptions
 from .pauli import is_clifford
 from .program import Program, expand, expand_at
-from .report import LIE_SAMPLE_QUBITS
-from .sampled_loss import deep_layers
-from .trainability import default_scan, layers_at, uses_only_patterns
+from .sampled_loss import LIE_SAMPLE_QUBITS, deep_layers
+from .trainability import default_scan, layers_at
 
 __all__ = ["PRODUCT_COST", "Estimate", "estimate"]
 
@@ -148,13 +147,7 @@ def _lie(circuit: Circuit, options: AnalysisOptions, batch_memory: Any) -> tuple
     bounded by ``min(cap, 4^n - 1)``. Points with n <= LIE_SAMPLE_QUBITS add the sampled
     loss variance of a deep version (and its half-depth check) at that bound.
     """
-    if options.scan:
-        counts = sorted(set(options.scan))
-    elif uses_only_patterns(circuit):
-        # the default scan, and the extension it may take while the algebras stay small
-        counts = list(range(lie.DEFAULT_LIE_SCAN[0], lie.EXTEND_TO + 1))
-    else:
-        counts = [circuit.qubits]
+    counts = lie.lie_scan(circuit, options.scan, widest=True)
     cost, memory = 0.0, 0
     stop = algebra.WORK_FACTOR * algebra.DEFAULT_BUDGET
     for n in counts:
@@ -162,7 +155,7 @@ def _lie(circuit: Circuit, options: AnalysisOptions, batch_memory: Any) -> tuple
         program = expand_at(circuit, n, layers)
         k = max(1, program.parameters)
         bound = min(algebra.DEFAULT_CAP, 4**n - 1)
-        if n > lie.DEFAULT_LIE_SCAN[-1] and not options.scan:
+        if n > lie.DEFAULT_LIE_SCAN[-1] and options.scan is None:
             bound = min(bound, lie.EXTEND_BELOW)
         if _as_sums(program):
             products = min(float(stop), float(bound) ** 2 * k)

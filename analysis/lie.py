@@ -43,6 +43,7 @@ __all__ = [
     "LieDiagnosis",
     "growth_fit",
     "lie_diagnosis",
+    "lie_scan",
 ]
 
 DEFAULT_LIE_SCAN = (2, 3, 4, 5, 6, 7)
@@ -165,6 +166,20 @@ def _layers(circuit: Circuit, n: int, rule: int | str | None) -> tuple[int, str,
     return layers, f"generators still growing at {layers} layers (search stopped)", here
 
 
+def lie_scan(circuit: Circuit, scan: list[int] | None = None, *, widest: bool = False) -> list[int]:
+    """Qubit counts the diagnosis starts from: ``scan``, or the default for the circuit.
+
+    With ``widest``, the default scan also holds every count it may be extended to (while
+    the algebras stay small, up to :data:`EXTEND_TO`).
+    """
+    if scan is not None:
+        return sorted(set(scan))
+    if not uses_only_patterns(circuit):
+        return [circuit.qubits]
+    top = min(EXTEND_TO, MAX_QUBITS) if widest else DEFAULT_LIE_SCAN[-1]
+    return [*DEFAULT_LIE_SCAN, *range(DEFAULT_LIE_SCAN[-1] + 1, top + 1)]
+
+
 def lie_diagnosis(
     circuit: Circuit,
     *,
@@ -202,10 +217,7 @@ def lie_diagnosis(
     LieDiagnosis
     """
     explicit = scan is not None
-    if scan is None:
-        counts = list(DEFAULT_LIE_SCAN) if uses_only_patterns(circuit) else [circuit.qubits]
-    else:
-        counts = sorted(set(scan))
+    counts = lie_scan(circuit, scan)
     rule = "saturate" if layers is None else ("layers = n" if layers == "n" else f"{layers}")
     points: list[AlgebraPoint] = []
     i = 0

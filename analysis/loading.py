@@ -18,7 +18,7 @@ import yaml
 from .circuit import MAX_DESCRIPTION_BYTES, Circuit, _describe, parse_circuit
 from .errors import CircuitError, Problem
 
-__all__ = ["decode_text", "load_circuit", "parse_circuit_text", "read_file"]
+__all__ = ["bounded_text", "decode_text", "load_circuit", "parse_circuit_text", "read_file"]
 
 
 _YAML_TAG = "tag:yaml.org,2002:"
@@ -177,24 +177,18 @@ def _utf8_length(text: str) -> int:
     return len(text.encode("utf-8", "surrogatepass"))
 
 
-def decode_text(
-    text: str | bytes, *, kind: str = "json", source: str | None = None, what: str = "text"
-) -> Any:
-    """Decode JSON or YAML text (at most 1 MiB) strictly, without interpreting it.
+def bounded_text(text: str | bytes, *, limit: int, what: str, source: str | None) -> str:
+    """Text of at most ``limit`` UTF-8 bytes; bytes are decoded (a leading BOM dropped).
 
     Raises
     ------
     CircuitError
-        For text that is too large, not UTF-8, or not valid JSON/YAML.
+        ``"{what} is N bytes; the limit is L bytes"``, or for bytes that are not UTF-8.
     """
     size = len(text) if isinstance(text, bytes) else _utf8_length(text)
-    if size > MAX_DESCRIPTION_BYTES:
+    if size > limit:
         raise CircuitError(
-            [
-                Problem(
-                    "(root)", f"{what} is {size} bytes; the limit is {MAX_DESCRIPTION_BYTES} bytes"
-                )
-            ],
+            [Problem("(root)", f"{what} is {size} bytes; the limit is {limit} bytes")],
             source=source,
         )
     if isinstance(text, bytes):
@@ -205,6 +199,20 @@ def decode_text(
             raise CircuitError(
                 [Problem("(root)", f"not UTF-8 text (byte {exc.start})")], source=source
             ) from None
+    return text
+
+
+def decode_text(
+    text: str | bytes, *, kind: str = "json", source: str | None = None, what: str = "text"
+) -> Any:
+    """Decode JSON or YAML text (at most 1 MiB) strictly, without interpreting it.
+
+    Raises
+    ------
+    CircuitError
+        For text that is too large, not UTF-8, or not valid JSON/YAML.
+    """
+    text = bounded_text(text, limit=MAX_DESCRIPTION_BYTES, what=what, source=source)
     if kind not in ("json", "yaml"):
         raise ValueError(f"kind must be 'json' or 'yaml', got {kind!r}")
     return _decode(text, kind, source)

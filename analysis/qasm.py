@@ -86,7 +86,7 @@ from ._qasm_gates import STANDARD_GATES
 from ._qasm_reader import Reader
 from ._qasm_syntax import _Fail, _problem, _syntax_tree, _where
 from .circuit import Circuit, parse_circuit
-from .errors import CircuitError, Problem
+from .loading import bounded_text
 
 __all__ = ["MAX_QASM_BYTES", "STANDARD_GATES", "parse_qasm"]
 
@@ -156,18 +156,7 @@ def parse_qasm(text: str | bytes, *, source: str | None = None) -> Circuit:
     ...
     analysis.errors.CircuitError: (root): line 1, column 13: classical bits are not supported (...)
     """
-    if isinstance(text, bytes):
-        if len(text) > MAX_QASM_BYTES:
-            raise _too_big(len(text), source)
-        try:
-            text = text.decode("utf-8-sig")
-        except UnicodeDecodeError as exc:
-            raise CircuitError(
-                [Problem("(root)", f"not UTF-8 text (byte {exc.start})")], source=source
-            ) from None
-    size = len(text.encode("utf-8", "surrogatepass"))
-    if size > MAX_QASM_BYTES:
-        raise _too_big(size, source)
+    text = bounded_text(text, limit=MAX_QASM_BYTES, what="the program", source=source)
     text = text.removeprefix("\ufeff")
     tree = _syntax_tree(text, source)
     reader = Reader(tree.version)
@@ -185,10 +174,3 @@ def parse_qasm(text: str | bytes, *, source: str | None = None) -> Circuit:
         "layer": steps,
     }
     return parse_circuit(data, source=source)
-
-
-def _too_big(size: int, source: str | None) -> CircuitError:
-    return CircuitError(
-        [Problem("(root)", f"the program is {size} bytes; the limit is {MAX_QASM_BYTES} bytes")],
-        source=source,
-    )

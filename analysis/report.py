@@ -24,16 +24,12 @@ from .expressibility import Expressibility, expressibility
 from .lie import lie_diagnosis
 from .options import AnalysisOptions
 from .program import Program, expand, facts
-from .sampled_loss import deep_loss_variance
+from .sampled_loss import LIE_SAMPLE_QUBITS, deep_loss_variance
 from .trainability import default_scan, trainability, uses_only_patterns
 
 __all__ = ["REPORT_FORMAT", "analyze", "cautions"]
 
 REPORT_FORMAT = 1
-
-LIE_SAMPLE_QUBITS = 4
-"""Largest qubit count at which the deep-circuit loss variance is sampled beside the
-Lie-algebraic prediction (the deep circuit needs about 8 × dim g parameters)."""
 
 
 def _dtype(options: AnalysisOptions) -> type:

@@ -9,7 +9,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import asdict, dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -24,12 +24,17 @@ from .program import Program, expand_at
 from .sampling import Stream, draw_angles
 
 __all__ = [
+    "LIE_SAMPLE_QUBITS",
     "LOSS_STREAM",
     "LossVariance",
     "deep_layers",
     "deep_loss_variance",
     "loss_variance",
 ]
+
+LIE_SAMPLE_QUBITS = 4
+"""Largest qubit count at which the deep-circuit loss variance is sampled beside the
+Lie-algebraic prediction (the deep circuit needs about 8 × dim g parameters)."""
 
 LOSS_STREAM = int(Stream.LOSS)
 """Random stream of the loss samples (:attr:`analysis.sampling.Stream.LOSS`)."""
@@ -83,19 +88,9 @@ class LossVariance:
 
     def to_dict(self) -> dict[str, Any]:
         """Return the report object (plain JSON types)."""
-        return {
-            "qubits": self.qubits,
-            "layers": self.layers,
-            "parameters": self.parameters,
-            "samples": self.samples,
-            "variance": self.variance,
-            "interval": list(self.interval),
-            "standard_error": self.standard_error,
-            "confidence": self.confidence,
-            "mean_cost": self.mean_cost,
-            "half_depth": None if self.half_depth is None else dict(self.half_depth),
-            "settled": self.settled,
-        }
+        out = asdict(self)
+        out["interval"] = list(self.interval)
+        return out
 
 
 def loss_variance(

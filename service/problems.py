@@ -243,23 +243,23 @@ def _entries(problems: list[analysis.Problem], prefix: str = "") -> list[dict[st
     return out
 
 
+def _inner(annotation: Any) -> Any:
+    """``X`` for ``X | None`` and ``list[X]``; anything else unchanged."""
+    args = [a for a in typing.get_args(annotation) if a is not type(None)]
+    return args[0] if len(args) == 1 else annotation
+
+
 def _fields_at(model: Any, loc: list[Any]) -> list[str] | None:
     """Field names of the pydantic model found by walking ``loc`` from ``model``, if any."""
     for part in loc:
         if isinstance(part, int):
-            args = [a for a in typing.get_args(model) if a is not type(None)]
-            model = args[0] if args else None
+            model = _inner(_inner(model))  # list[X] | None -> list[X] -> X
         else:
-            fields = getattr(model, "model_fields", None)
-            if not fields or part not in fields:
+            field = getattr(_inner(model), "model_fields", {}).get(part)
+            if field is None:
                 return None
-            model = fields[part].annotation
-        while typing.get_origin(model) is not None and not isinstance(part, int):
-            inner = [a for a in typing.get_args(model) if a is not type(None)]
-            if typing.get_origin(model) is list or len(inner) != 1:
-                break
-            model = inner[0]
-    fields = getattr(model, "model_fields", None)
+            model = field.annotation
+    fields = getattr(_inner(model), "model_fields", None)
     return list(fields) if fields else None
 
 

@@ -184,6 +184,7 @@ def test_public_api_is_complete():
 
 _MODULE_ONLY = {
     "read_file",
+    "bounded_text",
     "option_problems",
     "decode_text",
     "check_metrics",
