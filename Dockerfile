@@ -14,7 +14,7 @@ RUN useradd --create-home --uid 10001 haarline \
     && mkdir -p /data && chown haarline:haarline /data
 
 WORKDIR /app
-COPY pyproject.toml README.md ./
+COPY pyproject.toml setup.py README.md ./
 COPY analysis ./analysis
 COPY service ./service
 # the same installation the README's `make` targets perform, without the test extras

@@ -60,18 +60,27 @@ faults: $(VENV)/.test
 	$(BIN)/python tests/faults.py --cycles 10
 
 ## lint: style, docstrings and types (CI runs it after the tests)
-lint: $(VENV)/.lint
+lint: $(VENV)/.lint typecheck-tree
 	$(BIN)/ruff check analysis service tests bench
 	$(BIN)/ruff format --check analysis service tests bench
-	$(BIN)/mypy
-	$(BIN)/mypy bench
+	MYPYPATH=$(TYPECHECK) $(BIN)/mypy -p haarline
+	MYPYPATH=$(TYPECHECK) $(BIN)/mypy bench
+
+# mypy finds modules by folder name, and the folders analysis/ and service/ install as
+# haarline and haarline.service: a tree of links under build/ gives it that layout
+TYPECHECK := build/typecheck
+.PHONY: typecheck-tree
+typecheck-tree:
+	@rm -rf $(TYPECHECK) && mkdir -p $(TYPECHECK)/haarline
+	@for entry in analysis/*; do ln -s ../../../$$entry $(TYPECHECK)/haarline/; done
+	@ln -s ../../../service $(TYPECHECK)/haarline/service
 
 ## openapi: re-export openapi-notes/openapi.json from the app
 openapi: $(VENV)/.core
-	$(BIN)/python -m service.openapi_export
+	$(BIN)/python -m haarline.service.api.openapi_export
 
 clean:
-	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info
+	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info build dist
 
 ## bench: the benchmark suite (about 4 minutes); prints a table and writes bench/results.json
 bench: $(VENV)/.core

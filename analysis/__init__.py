@@ -6,45 +6,43 @@ here.
 
 Examples
 --------
->>> import analysis
->>> circuit = analysis.load_reference("ry-cz-ring")
->>> report = analysis.analyze(circuit, analysis.AnalysisOptions(pairs=200, samples=100))
+>>> import haarline
+>>> circuit = haarline.load_reference("ry-cz-ring")
+>>> report = haarline.analyze(circuit, haarline.AnalysisOptions(pairs=200, samples=100))
 >>> sorted(report)[:4]
 ['capacity', 'cautions', 'circuit', 'entanglement']
 """
 
-from ._version import __version__
-from .algebra import Algebra, generate_algebra, independent_count
-from .capacity import Capacity, capacity, quantum_fisher, state_jacobian
-from .circuit import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
-from .compare import compare_markdown, compare_reports
-from .comparison_plot import comparison_files, comparison_png, comparison_series
-from .cost import Estimate, estimate
-from .diagram import circuit_diagram_png
-from .diagram_columns import diagram_layout
-from .engine import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk, run, zero_states
-from .entanglement import Entanglement, entangling_capability, meyer_wallach, qubit_purities
-from .errors import CircuitError, HaarlineError, InputError, LimitError, OptionError, Problem
-from .expressibility import (
-    Expressibility,
-    divergence_from_haar,
-    expressibility,
-    fidelities,
-    plugin_bias,
+from haarline._version import __version__
+from haarline.circuit.gates import GATES, GateSpec, gate_matrix, lookup
+from haarline.circuit.loading import load_circuit, parse_circuit_text
+from haarline.circuit.model import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
+from haarline.circuit.placements import placement
+from haarline.circuit.program import Operation, Program, expand, facts
+from haarline.circuit.qasm.export import to_qasm
+from haarline.circuit.qasm.parse import parse_qasm
+from haarline.circuit.references import load_reference, reference_names
+from haarline.engine.sampling import Stream, draw_angles
+from haarline.engine.statevector import (
+    DEFAULT_MEMORY_BUDGET,
+    compile_program,
+    rows_per_chunk,
+    run,
+    zero_states,
 )
-from .gates import GATES, GateSpec, gate_matrix, lookup
-from .generators import CircuitGenerators, circuit_generators, rotation_generator
-from .gradient_variance import VariancePoint
-from .gradients import adjoint_gradients, cost_values, shift_gradients
-from .haar import haar_bin_log_masses, haar_bin_masses, haar_meyer_wallach, haar_second_moment
-from .ideals import Ideal, simple_algebra_names
-from .lie import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis, lie_scan
-from .lie_plot import algebra_dimension_png, algebra_dimension_series
-from .lie_variance import VariancePrediction, observable_expansion, predict_variance
-from .loading import load_circuit, parse_circuit_text
-from .observables import NAMED_COSTS, Observable, make_observable
-from .options import METRICS, AnalysisOptions, parse_options
-from .pauli import (
+from haarline.errors import (
+    CircuitError,
+    HaarlineError,
+    InputError,
+    LimitError,
+    OptionError,
+    Problem,
+)
+from haarline.lie.algebra import Algebra, generate_algebra, independent_count
+from haarline.lie.diagnosis import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis, lie_scan
+from haarline.lie.generators import CircuitGenerators, circuit_generators, rotation_generator
+from haarline.lie.ideals import Ideal, simple_algebra_names
+from haarline.lie.pauli import (
     PauliExpansion,
     anticommutes,
     bracket,
@@ -56,25 +54,55 @@ from .pauli import (
     pauli_values,
     product_phase,
 )
-from .placements import placement
-from .plots import (
+from haarline.lie.variance import VariancePrediction, observable_expansion, predict_variance
+from haarline.metrics.capacity import Capacity, capacity, quantum_fisher, state_jacobian
+from haarline.metrics.entanglement import (
+    Entanglement,
+    entangling_capability,
+    meyer_wallach,
+    qubit_purities,
+)
+from haarline.metrics.expressibility import (
+    Expressibility,
+    divergence_from_haar,
+    expressibility,
+    fidelities,
+    plugin_bias,
+)
+from haarline.metrics.gradient_variance import VariancePoint
+from haarline.metrics.gradients import adjoint_gradients, cost_values, shift_gradients
+from haarline.metrics.haar import (
+    haar_bin_log_masses,
+    haar_bin_masses,
+    haar_meyer_wallach,
+    haar_second_moment,
+)
+from haarline.metrics.observables import NAMED_COSTS, Observable, make_observable
+from haarline.metrics.sampled_loss import (
+    LossVariance,
+    deep_layers,
+    deep_loss_variance,
+    loss_variance,
+)
+from haarline.metrics.trainability import Trainability, trainability
+from haarline.plots.algebra import algebra_dimension_png, algebra_dimension_series
+from haarline.plots.comparison import comparison_files, comparison_png, comparison_series
+from haarline.plots.diagram import circuit_diagram_png
+from haarline.plots.diagram_layout import diagram_layout
+from haarline.plots.figures import (
     fidelity_histogram_png,
     fidelity_series,
     meyer_wallach_png,
     meyer_wallach_series,
     plot_files,
 )
-from .policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
-from .program import Operation, Program, expand, facts
-from .qasm import parse_qasm
-from .qasm_export import to_qasm
-from .references import load_reference, reference_names
-from .report import REPORT_FORMAT, analyze
-from .sampled_loss import LossVariance, deep_layers, deep_loss_variance, loss_variance
-from .sampling import Stream, draw_angles
-from .scan_plots import sweep_png, sweep_series, variance_scan_png, variance_series
-from .summary import to_markdown, to_text
-from .trainability import Trainability, trainability
+from haarline.plots.scans import sweep_png, sweep_series, variance_scan_png, variance_series
+from haarline.report.assemble import REPORT_FORMAT, analyze
+from haarline.report.options import METRICS, AnalysisOptions, parse_options
+from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
+from haarline.report.ranking import compare_markdown, compare_reports
+from haarline.report.summary import to_markdown, to_text
+from haarline.report.workload import Estimate, estimate
 
 __all__ = [
     "DEFAULT_MEMORY_BUDGET",

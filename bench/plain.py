@@ -3,7 +3,7 @@
 This is the way a first notebook does it: one state at a time, every gate turned into a
 full ``2**n x 2**n`` matrix with ``np.kron`` and multiplied onto the state vector. The
 gate matrices are written out here from their textbook definitions (rotations
-``exp(-iθG/2) = cos(θ/2) I - i sin(θ/2) G``), independently of ``analysis.gates``.
+``exp(-iθG/2) = cos(θ/2) I - i sin(θ/2) G``), independently of ``haarline.circuit.gates``.
 Qubit 0 is the leftmost ``np.kron`` factor, the project's convention.
 """
 
@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from analysis.program import Program
+    from haarline.circuit.program import Program
 
 I2 = np.eye(2, dtype=complex)
 X = np.array([[0, 1], [1, 0]], dtype=complex)

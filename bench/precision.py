@@ -16,10 +16,9 @@ import sys
 import time
 from pathlib import Path
 
+import haarline
 import numpy as np
-
-import analysis
-from analysis.gradient_variance import gradient_samples, summarize_gradients
+from haarline.metrics.gradient_variance import gradient_samples, summarize_gradients
 
 HERE = Path(__file__).resolve().parent
 SINGLE, DOUBLE = np.complex64, np.complex128
@@ -31,12 +30,12 @@ def expressibility_rows() -> list[dict]:
     cases = [("sim2019-02", None, 3), ("sim2019-11", None, 3), ("ry-cz-ring", 4, 3)]
     cases += [("ry-cz-ring", 8, 8), ("rx-rz-cx-chain", 12, 12)]
     for name, n, layers in cases:
-        program = analysis.expand(analysis.load_reference(name), qubits=n, layers=layers)
-        f2 = analysis.fidelities(program, pairs=5000, seed=1, dtype=DOUBLE)
-        f1 = analysis.fidelities(program, pairs=5000, seed=1, dtype=SINGLE)
+        program = haarline.expand(haarline.load_reference(name), qubits=n, layers=layers)
+        f2 = haarline.fidelities(program, pairs=5000, seed=1, dtype=DOUBLE)
+        f1 = haarline.fidelities(program, pairs=5000, seed=1, dtype=SINGLE)
         with np.errstate(divide="ignore", invalid="ignore"):  # plugin_bias at n = 12
-            e2 = analysis.divergence_from_haar(f2, program.qubits, seed=1)
-            e1 = analysis.divergence_from_haar(f1, program.qubits, seed=1)
+            e2 = haarline.divergence_from_haar(f2, program.qubits, seed=1)
+            e1 = haarline.divergence_from_haar(f1, program.qubits, seed=1)
         rows.append(
             {
                 "circuit": name,
@@ -56,14 +55,14 @@ def expressibility_rows() -> list[dict]:
 def meyer_wallach_rows() -> list[dict]:
     """Meyer-Wallach values in both precisions, per circuit and size."""
     rows = []
-    from analysis.entanglement import meyer_wallach
+    from haarline.metrics.entanglement import meyer_wallach
 
     for name, n, layers in [("sim2019-11", None, 3), ("ry-cz-ring", 8, 8), ("ry-cz-ring", 12, 12)]:
-        program = analysis.expand(analysis.load_reference(name), qubits=n, layers=layers)
-        thetas = analysis.draw_angles(1, analysis.Stream.ENTANGLEMENT, 0, 2000, program.parameters)
-        q2 = meyer_wallach(analysis.run(program, thetas, dtype=DOUBLE), program.qubits)
-        q1 = meyer_wallach(analysis.run(program, thetas, dtype=SINGLE), program.qubits)
-        m2 = analysis.entangling_capability(program, samples=2000, seed=1, dtype=DOUBLE)
+        program = haarline.expand(haarline.load_reference(name), qubits=n, layers=layers)
+        thetas = haarline.draw_angles(1, haarline.Stream.ENTANGLEMENT, 0, 2000, program.parameters)
+        q2 = meyer_wallach(haarline.run(program, thetas, dtype=DOUBLE), program.qubits)
+        q1 = meyer_wallach(haarline.run(program, thetas, dtype=SINGLE), program.qubits)
+        m2 = haarline.entangling_capability(program, samples=2000, seed=1, dtype=DOUBLE)
         rows.append(
             {
                 "circuit": name,
@@ -83,10 +82,10 @@ def meyer_wallach_rows() -> list[dict]:
 def gradient_rows() -> list[dict]:
     """Gradient variances in both precisions, per qubit count and cost."""
     rows = []
-    circuit = analysis.load_reference("ry-cz-ring")
+    circuit = haarline.load_reference("ry-cz-ring")
     for n in (2, 4, 6, 8, 10, 12):
         for cost in ("zz", "global"):
-            program = analysis.expand(circuit, qubits=n, layers=n)
+            program = haarline.expand(circuit, qubits=n, layers=n)
             c2, g2 = gradient_samples(program, cost, samples=200, seed=1, dtype=DOUBLE)
             c1, g1 = gradient_samples(program, cost, samples=200, seed=1, dtype=SINGLE)
             v2 = summarize_gradients(n, n, c2, g2)
@@ -111,18 +110,18 @@ def gradient_rows() -> list[dict]:
 def speed_rows() -> list[dict]:
     """Engine time of one batch in both precisions (median of three), per size."""
     rows = []
-    circuit = analysis.load_reference("ry-cz-ring")
+    circuit = haarline.load_reference("ry-cz-ring")
     for n, batch in [(8, 2048), (14, 32), (20, 1), (22, 1)]:
-        program = analysis.expand(circuit, qubits=n, layers=4)
-        plan = analysis.compile_program(program)
+        program = haarline.expand(circuit, qubits=n, layers=4)
+        plan = haarline.compile_program(program)
         thetas = np.random.default_rng(0).uniform(0, 2 * np.pi, (batch, program.parameters))
         times = {}
         for label, dtype in (("double", DOUBLE), ("single", SINGLE)):
-            analysis.run(plan, thetas, dtype=dtype)
+            haarline.run(plan, thetas, dtype=dtype)
             best = []
             for _ in range(3):
                 t = time.perf_counter()
-                analysis.run(plan, thetas, dtype=dtype)
+                haarline.run(plan, thetas, dtype=dtype)
                 best.append(time.perf_counter() - t)
             times[label] = sorted(best)[1]
         rows.append(

@@ -42,14 +42,13 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
+import haarline  # noqa: E402
 import plain  # noqa: E402
-
-import analysis  # noqa: E402
-from analysis import engine  # noqa: E402
-from analysis.gradients import adjoint_gradients, shift_gradients  # noqa: E402
-from analysis.observables import make_observable  # noqa: E402
-from analysis.sampling import Stream, draw_angles  # noqa: E402
-from analysis.trainability import trainability  # noqa: E402
+from haarline.engine import statevector as engine  # noqa: E402
+from haarline.engine.sampling import Stream, draw_angles  # noqa: E402
+from haarline.metrics.gradients import adjoint_gradients, shift_gradients  # noqa: E402
+from haarline.metrics.observables import make_observable  # noqa: E402
+from haarline.metrics.trainability import trainability  # noqa: E402
 
 BENCH_FORMAT = 1
 
@@ -132,7 +131,7 @@ def timed(fn: Callable[..., object], repeats: int) -> tuple[float, list[float]]:
     return statistics.median(samples), samples
 
 
-def logical_gates(program: analysis.Program) -> int:
+def logical_gates(program: haarline.Program) -> int:
     """Gates that do something: every operation except the identity."""
     return sum(1 for op in program.operations if op.gate != "i")
 
@@ -140,9 +139,9 @@ def logical_gates(program: analysis.Program) -> int:
 def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
     """Engine throughput over the machine's streaming rate, one row per qubit count."""
     rows = []
-    circuit = analysis.load_reference(cfg["bandwidth_circuit"])
+    circuit = haarline.load_reference(cfg["bandwidth_circuit"])
     for n in cfg["bandwidth_qubits"]:
-        program = analysis.expand(circuit, qubits=n, layers=cfg["bandwidth_layers"])
+        program = haarline.expand(circuit, qubits=n, layers=cfg["bandwidth_layers"])
         plan = engine.compile_program(program)
         batch = max(1, cfg["bandwidth_amplitudes"] >> n)
         thetas = draw_angles(0, Stream.EXPRESSIBILITY, 0, batch, program.parameters)
@@ -206,20 +205,20 @@ def bench_bandwidth(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 def bench_naive(cfg: dict[str, Any]) -> list[dict[str, Any]]:
     """Per-pair time of the plain simulator over ours, one row per qubit count."""
     rows = []
-    circuit = analysis.load_reference(cfg["naive_circuit"])
+    circuit = haarline.load_reference(cfg["naive_circuit"])
     for n in cfg["naive_qubits"]:
-        program = analysis.expand(circuit, qubits=n)
+        program = haarline.expand(circuit, qubits=n)
         k = cfg["naive_pairs"][n]
         pairs = draw_angles(1, Stream.EXPRESSIBILITY, 0, k, 2 * program.parameters)
         plain_fids = plain.fidelities(program, pairs)
-        ours = analysis.fidelities(program, pairs=k, seed=1)
+        ours = haarline.fidelities(program, pairs=k, seed=1)
         agree = float(np.max(np.abs(plain_fids - ours)))
         naive, naive_samples = timed(
             lambda p=program, x=pairs: plain.fidelities(p, x), cfg["repeats"]
         )
         m = cfg["engine_pairs"]
         fast, fast_samples = timed(
-            lambda p=program, m=m: analysis.expressibility(p, pairs=m, seed=1), cfg["repeats"]
+            lambda p=program, m=m: haarline.expressibility(p, pairs=m, seed=1), cfg["repeats"]
         )
         ratio = (naive / k) / (fast / m)
         rows.append(
@@ -248,12 +247,12 @@ def bench_naive(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
     """Parameter-shift time over adjoint time, one row per parameter count."""
     rows = []
-    circuit = analysis.load_reference(cfg["adjoint_circuit"])
+    circuit = haarline.load_reference(cfg["adjoint_circuit"])
     n = cfg["adjoint_qubits"]
     observable = make_observable("zz", n) if n >= 2 else make_observable("global", n)
     for p in cfg["adjoint_parameters"]:
         layers = max(1, p // n)
-        program = analysis.expand(circuit, qubits=n, layers=layers)
+        program = haarline.expand(circuit, qubits=n, layers=layers)
         plan = engine.compile_program(program)
         thetas = draw_angles(2, Stream.GRADIENTS, 0, cfg["adjoint_batch"], program.parameters)
         _, adj = adjoint_gradients(plan, thetas, observable)
@@ -278,7 +277,7 @@ def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
                 "seconds": t_adj,
                 "samples": s_adj,
                 "baseline": {
-                    "name": "parameter shift (analysis.gradients.shift_gradients)",
+                    "name": "parameter shift (haarline.metrics.gradients.shift_gradients)",
                     "seconds": t_shift,
                     "samples": s_shift,
                     "max_gradient_difference": agree,
@@ -293,14 +292,14 @@ def bench_adjoint(cfg: dict[str, Any]) -> list[dict[str, Any]]:
 def reference_table(cfg: dict[str, Any], workers: int) -> None:
     """Expressibility and Meyer-Wallach of every reference circuit at every layer count."""
     names = cfg.get("references_names") or [
-        r for r in analysis.reference_names() if r.startswith("sim2019-")
+        r for r in haarline.reference_names() if r.startswith("sim2019-")
     ]
     for name in names:
-        circuit = analysis.load_reference(name)
+        circuit = haarline.load_reference(name)
         for layers in cfg["references_layers"]:
-            program = analysis.expand(circuit, layers=layers)
-            analysis.expressibility(program, pairs=cfg["references_pairs"], seed=1, workers=workers)
-            analysis.entangling_capability(
+            program = haarline.expand(circuit, layers=layers)
+            haarline.expressibility(program, pairs=cfg["references_pairs"], seed=1, workers=workers)
+            haarline.entangling_capability(
                 program, samples=cfg["references_samples"], seed=1, workers=workers
             )
 
@@ -308,7 +307,7 @@ def reference_table(cfg: dict[str, Any], workers: int) -> None:
 def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
     """Wall time of :func:`reference_table` for each worker count."""
     names = cfg.get("references_names") or [
-        r for r in analysis.reference_names() if r.startswith("sim2019-")
+        r for r in haarline.reference_names() if r.startswith("sim2019-")
     ]
     out: dict[str, Any] = {
         "circuits": len(names),
@@ -323,8 +322,8 @@ def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
         start = None
         if workers > 1:  # start the pool once, outside the timing (work big enough for it)
             t = time.perf_counter()
-            program = analysis.expand(analysis.load_reference("ry-cz-ring"), qubits=10)
-            analysis.fidelities(program, pairs=512, seed=1, workers=workers)
+            program = haarline.expand(haarline.load_reference("ry-cz-ring"), qubits=10)
+            haarline.fidelities(program, pairs=512, seed=1, workers=workers)
             start = time.perf_counter() - t
         median, samples = timed(lambda w=workers: reference_table(cfg, w), cfg["repeats"])
         out["runs"].append(
@@ -336,7 +335,7 @@ def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
 
 def bench_scan(cfg: dict[str, Any]) -> dict[str, Any]:
     """Wall time of one gradient-variance scan over qubit counts (layers = n)."""
-    circuit = analysis.load_reference(cfg["scan_circuit"])
+    circuit = haarline.load_reference(cfg["scan_circuit"])
 
     def once() -> None:
         trainability(
@@ -367,16 +366,16 @@ def bench_scan(cfg: dict[str, Any]) -> dict[str, Any]:
 
 MEMORY_CHILD = """
 import json, resource, sys
-import analysis
+import haarline
 n, pairs, budget, name = int(sys.argv[1]), int(sys.argv[2]), int(sys.argv[3]), sys.argv[4]
-program = analysis.expand(analysis.load_reference(name), qubits=n)
+program = haarline.expand(haarline.load_reference(name), qubits=n)
 def status(field):  # this process's own figures (ru_maxrss would include the parent's)
     with open("/proc/self/status") as f:
         for line in f:
             if line.startswith(field + ":"):
                 return int(line.split()[1]) * 1024
 before = status("VmRSS")
-analysis.expressibility(program, pairs=pairs, seed=1, memory_budget=budget)
+haarline.expressibility(program, pairs=pairs, seed=1, memory_budget=budget)
 print(json.dumps({"rss_before": before, "peak_rss": status("VmHWM"), "layers": program.layers}))
 """
 
@@ -536,7 +535,7 @@ def main(argv: list[str] | None = None) -> dict[str, Any]:
     results: dict[str, Any] = {
         "bench_format": BENCH_FORMAT,
         "mode": "smoke" if args.smoke else "full",
-        "haarline_version": analysis.__version__,
+        "haarline_version": haarline.__version__,
         "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(started)),
         "machine": {
             "cpus": os.cpu_count(),

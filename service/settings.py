@@ -26,7 +26,7 @@ variable                           meaning (default)
                                    ``/readyz`` answers 503 (``67108864``, 64 MiB)
 ``HAARLINE_RETRY_AFTER``           seconds a 503 suggests (a busy score estimates its own),
                                    and a 429 before any job has run (``5``); see
-                                   :mod:`service.backoff`
+                                   :mod:`haarline.service.jobs.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
 =================================  ==========================================================
 
@@ -42,15 +42,12 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from haarline.service.errors import SettingsError
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 __all__ = ["ENV_PREFIX", "Settings", "SettingsError"]
 
 ENV_PREFIX = "HAARLINE_"
-
-
-class SettingsError(Exception):
-    """The configuration is invalid or unsafe; the message says which variable."""
 
 
 def _is_loopback(host: str) -> bool:

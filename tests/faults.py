@@ -22,9 +22,8 @@ from typing import Any
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
+import haarline  # noqa: E402
 from live_server import LiveServer, wait_for  # noqa: E402
-
-import analysis  # noqa: E402
 
 
 def job(i: int) -> dict[str, Any]:
@@ -40,8 +39,8 @@ def job(i: int) -> dict[str, Any]:
 
 
 def expected(body: dict[str, Any]) -> dict[str, Any]:
-    report = analysis.analyze(
-        analysis.parse_circuit(body["circuit"]), analysis.AnalysisOptions(**body["options"])
+    report = haarline.analyze(
+        haarline.parse_circuit(body["circuit"]), haarline.AnalysisOptions(**body["options"])
     )
     report.pop("timings")
     return json.loads(json.dumps(report))

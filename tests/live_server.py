@@ -19,9 +19,8 @@ from typing import Any
 
 import httpx2 as httpx
 import psutil
-
-from service.keys import issue_key
-from service.store import Store
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.store import Store
 
 REPO = Path(__file__).resolve().parent.parent
 
@@ -78,7 +77,14 @@ class LiveServer:
             "HAARLINE_WORKERS": str(self.workers),
             **self.env,
         }
-        command = [sys.executable, "-m", "service.cli", "serve", "--port", str(self.port)]
+        command = [
+            sys.executable,
+            "-m",
+            "haarline.service.cli.main",
+            "serve",
+            "--port",
+            str(self.port),
+        ]
         with open(self.log, "ab") as out:
             self.proc = subprocess.Popen(
                 [*command, "--log-level", self.log_level],

@@ -3,7 +3,7 @@
 Every gate becomes a full 2**n x 2**n matrix built with np.kron, applied to one state at a
 time. Gate matrices are written out here from the textbook definitions (Nielsen & Chuang,
 Quantum Computation and Quantum Information, 2000, ch. 4), independently of
-analysis.gates, with rotations taken as scipy.linalg.expm(-1j * theta / 2 * G).
+haarline.circuit.gates, with rotations taken as scipy.linalg.expm(-1j * theta / 2 * G).
 """
 
 from __future__ import annotations

@@ -13,13 +13,12 @@ from concurrent.futures import ThreadPoolExecutor
 import httpx2 as httpx
 import pytest
 from fastapi.testclient import TestClient
+from haarline.service.api import keys
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key, verify_key
+from haarline.service.jobs.store import Store
+from haarline.service.settings import Settings
 from live_server import LiveServer
-
-from service import keys
-from service.app import create_app
-from service.keys import issue_key, verify_key
-from service.settings import Settings
-from service.store import Store
 
 PNG = b"\x89PNG\r\n\x1a\n" + b"\0" * 16
 

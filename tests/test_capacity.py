@@ -2,10 +2,9 @@
 
 import numpy as np
 import pytest
-
-from analysis import expand, parse_circuit
-from analysis.capacity import capacity, quantum_fisher, state_jacobian
-from analysis.engine import run
+from haarline import expand, parse_circuit
+from haarline.engine.statevector import run
+from haarline.metrics.capacity import capacity, quantum_fisher, state_jacobian
 
 
 @pytest.mark.parametrize("n", [1, 2, 3, 6])

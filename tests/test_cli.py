@@ -13,11 +13,10 @@ import subprocess
 import sys
 from pathlib import Path
 
+import haarline
 import pytest
-
-import analysis
-from analysis.circuit import MAX_DESCRIPTION_BYTES
-from service import cli
+from haarline.circuit.model import MAX_DESCRIPTION_BYTES
+from haarline.service.cli import main as cli
 
 REPO = Path(__file__).resolve().parent.parent
 FAST = ["--pairs", "50", "--samples", "20"]
@@ -55,7 +54,7 @@ def run(capsys, *argv: str) -> tuple[int, str, str]:
 
 def run_process(*argv: str, stdin: bytes | None = None) -> subprocess.CompletedProcess:
     return subprocess.run(
-        [sys.executable, "-m", "service.cli", *argv],
+        [sys.executable, "-m", "haarline.service.cli.main", *argv],
         input=stdin,
         capture_output=True,
         cwd=REPO,
@@ -272,7 +271,7 @@ def test_usage_errors_return_2_and_help_returns_0(capsys):
     assert run(capsys)[0] == 2  # no command
     assert run(capsys, "frobnicate")[0] == 2
     code, out, _ = run(capsys, "--version")
-    assert code == 0 and out.strip() == f"haarline {analysis.__version__}"
+    assert code == 0 and out.strip() == f"haarline {haarline.__version__}"
     code, out, _ = run(capsys, "check", "--help")
     assert code == 0 and "FILE" in out
 
@@ -345,7 +344,7 @@ def test_unknown_ref_lists_valid_names(capsys):
     code, out, err = run(capsys, "check", "ref:sim2019-99")
     assert code == 2 and out == ""
     line = assert_one_error_line(err, "ref:sim2019-99", "'sim2019-99'")
-    for name in analysis.reference_names():
+    for name in haarline.reference_names():
         assert name in line
 
 

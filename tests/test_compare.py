@@ -2,8 +2,8 @@
 
 import json
 
-from analysis import compare_reports
-from service import cli
+from haarline import compare_reports
+from haarline.service.cli import main as cli
 
 FAST = ["--pairs", "400", "--samples", "100"]
 

@@ -1,13 +1,12 @@
 """Admission estimates: every metric the analysis can run is counted before it runs."""
 
 import pytest
-
-from analysis.circuit import parse_circuit
-from analysis.cost import PRODUCT_COST, _as_sums, estimate
-from analysis.options import METRICS, AnalysisOptions
-from analysis.program import expand
-from analysis.references import load_reference
-from service.settings import Settings
+from haarline.circuit.model import parse_circuit
+from haarline.circuit.program import expand
+from haarline.circuit.references import load_reference
+from haarline.report.options import METRICS, AnalysisOptions
+from haarline.report.workload import PRODUCT_COST, _as_sums, estimate
+from haarline.service.settings import Settings
 
 BUDGET = 1 << 30
 

@@ -7,10 +7,9 @@ import pytest
 distributed = pytest.importorskip("distributed", reason="the 'dask' extra is not installed")
 
 from fastapi.testclient import TestClient  # noqa: E402
-
-from service.app import create_app  # noqa: E402
-from service.keys import issue_key  # noqa: E402
-from service.settings import Settings  # noqa: E402
+from haarline.service.api.app import create_app  # noqa: E402
+from haarline.service.api.keys import issue_key  # noqa: E402
+from haarline.service.settings import Settings  # noqa: E402
 
 OPTS = {"pairs": 300, "samples": 100, "seed": 21}
 

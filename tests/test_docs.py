@@ -4,7 +4,7 @@ layout names every module."""
 import re
 from pathlib import Path
 
-from service.cli import build_parser
+from haarline.service.cli.main import build_parser
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -29,11 +29,37 @@ def test_readme_lists_every_analyze_option():
                 assert f"`{flag}" in text, flag
 
 
-def test_developers_layout_names_every_module():
+def _layout_tree() -> set[str]:
+    """Paths the layout block of DEVELOPERS.md names, from its indentation (2 per level)."""
     text = (ROOT / "DEVELOPERS.md").read_text()
-    layout = text.split("## Layout", 1)[1].split("```")[1]
-    named = set(re.findall(r"\w+\.py", layout))
-    for package in ("analysis", "service", "service/routes"):
-        for path in sorted((ROOT / package).glob("*.py")):
-            if path.name != "__init__.py":
-                assert path.name in named, f"{package}/{path.name}"
+    block = text.split("## Layout", 1)[1].split("```")[1]
+    named: set[str] = set()
+    stack: list[str] = []
+    for line in block.splitlines():
+        if not line.strip():
+            continue
+        depth = (len(line) - len(line.lstrip(" "))) // 2
+        first = re.split(r"\s{2,}", line.strip())[0]
+        items = [item.strip() for item in first.split(",")]
+        for item in items:
+            if re.fullmatch(r"\w+/", item):
+                stack = [*stack[:depth], item.rstrip("/")]
+                named.add("/".join(stack))
+            elif re.fullmatch(r"\w+\.py", item):
+                named.add("/".join([*stack[:depth], item]))
+    return named
+
+
+def test_developers_layout_names_every_module_in_its_folder():
+    named = _layout_tree()
+    missing = []
+    for folder in ("analysis", "service"):
+        for path in sorted((ROOT / folder).rglob("*.py")):
+            rel = path.relative_to(ROOT).as_posix()
+            if path.name == "__init__.py" and path.parent.name != "analysis":
+                rel = path.parent.relative_to(ROOT).as_posix()  # a package: its folder
+            if rel not in named:
+                missing.append(rel)
+    assert missing == []
+    stale = sorted(n for n in named if n.split("/")[0] in ("analysis", "service"))
+    assert [n for n in stale if not (ROOT / n).exists()] == []

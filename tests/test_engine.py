@@ -2,10 +2,9 @@
 
 import numpy as np
 import pytest
+from haarline import GATES, LimitError, expand, parse_circuit, rows_per_chunk, run
+from haarline.circuit.model import TWO_QUBIT_PATTERNS
 from reference_sim import simulate as dense_simulate
-
-from analysis import GATES, LimitError, expand, parse_circuit, rows_per_chunk, run
-from analysis.circuit import TWO_QUBIT_PATTERNS
 
 
 def random_description(rng: np.random.Generator, n: int, steps: int = 10) -> dict:
@@ -123,9 +122,9 @@ def test_memory_budget_too_small_for_one_state():
 # The per-gate path (run_steps) is the one checked against the dense reference above; the
 # fused schedule must agree with it to rounding, whatever the segment size and tile size.
 
-from analysis._fusion import build_schedule  # noqa: E402
-from analysis._tiles import execute  # noqa: E402
-from analysis.engine import compile_program, run_steps, zero_states  # noqa: E402
+from haarline.engine._fusion import build_schedule  # noqa: E402
+from haarline.engine._tiles import execute  # noqa: E402
+from haarline.engine.statevector import compile_program, run_steps, zero_states  # noqa: E402
 
 
 def _fused(plan, thetas, *, capacity=None, tile=1 << 17, dtype=np.complex128):
@@ -203,9 +202,9 @@ RING = parse_circuit(
 
 
 def test_metrics_with_two_workers_are_bit_identical():
-    from analysis import entangling_capability, fidelities
-    from analysis._batching import worker_count
-    from analysis.gradient_variance import gradient_samples
+    from haarline import entangling_capability, fidelities
+    from haarline.engine.batching import worker_count
+    from haarline.metrics.gradient_variance import gradient_samples
 
     program = expand(RING)
     # big enough that the work really goes to the pool
@@ -229,14 +228,14 @@ def test_metrics_with_two_workers_are_bit_identical():
 
 
 def test_bad_worker_count_is_an_option_error():
-    from analysis import OptionError, fidelities
+    from haarline import OptionError, fidelities
 
     with pytest.raises(OptionError, match="workers"):
         fidelities(expand(RING), pairs=10, seed=1, workers=0)
 
 
 def test_single_precision_through_the_metrics():
-    from analysis import entangling_capability, expressibility
+    from haarline import entangling_capability, expressibility
 
     program = expand(RING)
     double = expressibility(program, pairs=500, seed=2)

@@ -5,9 +5,7 @@ import warnings
 
 import numpy as np
 import pytest
-from scipy import stats
-
-from analysis import (
+from haarline import (
     entangling_capability,
     expand,
     haar_meyer_wallach,
@@ -16,7 +14,8 @@ from analysis import (
     qubit_purities,
     run,
 )
-from analysis.entanglement import summarize_meyer_wallach
+from haarline.metrics.entanglement import summarize_meyer_wallach
+from scipy import stats
 
 
 def program(desc):

@@ -8,9 +8,7 @@ import math
 
 import numpy as np
 import pytest
-from scipy import stats
-
-from analysis import (
+from haarline import (
     divergence_from_haar,
     expand,
     expressibility,
@@ -19,7 +17,8 @@ from analysis import (
     parse_circuit,
     plugin_bias,
 )
-from analysis.expressibility import kl_from_counts
+from haarline.metrics.expressibility import kl_from_counts
+from scipy import stats
 
 K = 75
 EDGES = np.linspace(0.0, 1.0, K + 1)

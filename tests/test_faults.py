@@ -23,11 +23,10 @@ import time
 import psutil
 from fastapi.testclient import TestClient
 from faults import run_cycles
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key
+from haarline.service.settings import Settings
 from live_server import LiveServer, wait_for
-
-from service.app import create_app
-from service.keys import issue_key
-from service.settings import Settings
 
 SMALL = {"reference": "rx-product", "options": {"pairs": 100, "samples": 50}}
 SLOW = {

@@ -30,11 +30,10 @@ from pathlib import Path
 
 import pytest
 import schemathesis
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key
+from haarline.service.settings import Settings
 from hypothesis import HealthCheck, settings
-
-from service.app import create_app
-from service.keys import issue_key
-from service.settings import Settings
 
 EXAMPLES = int(os.environ.get("HAARLINE_FUZZ_EXAMPLES", "4"))
 # the coverage phase adds several hundred boundary cases per body route: make fuzz only

@@ -2,10 +2,9 @@
 
 import numpy as np
 import pytest
+from haarline import GATES, gate_matrix, lookup
 from reference_sim import PAULI
 from reference_sim import gate as textbook_gate
-
-from analysis import GATES, gate_matrix, lookup
 
 ANGLES = [0.0, 0.3, -1.7, np.pi, 2 * np.pi - 0.01]
 

@@ -23,9 +23,8 @@ import os
 from pathlib import Path
 from typing import Any
 
+import haarline
 import pytest
-
-import analysis as haarline
 
 GOLDEN = Path(__file__).parent / "golden"
 DEMO = Path(__file__).parents[1] / "examples" / "ring-classifier.json"

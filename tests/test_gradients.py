@@ -2,11 +2,10 @@
 
 import numpy as np
 import pytest
+from haarline import expand, parse_circuit
+from haarline.metrics.gradients import adjoint_gradients, cost_values, shift_gradients
+from haarline.metrics.observables import make_observable
 from test_engine import random_description
-
-from analysis import expand, parse_circuit
-from analysis.gradients import adjoint_gradients, cost_values, shift_gradients
-from analysis.observables import make_observable
 
 COSTS = ["global", "local", "zz"]
 

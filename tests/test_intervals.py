@@ -5,17 +5,16 @@ import math
 
 import numpy as np
 import pytest
-from scipy import stats
-
-from analysis import expand, parse_circuit
-from analysis._intervals import (
+from haarline import expand, parse_circuit
+from haarline.metrics.gradient_variance import summarize_gradients
+from haarline.metrics.intervals import (
     log_symmetric_interval,
     mean_interval,
     t_quantile,
     variance_standard_error,
 )
-from analysis.gradient_variance import summarize_gradients
-from analysis.sampled_loss import loss_variance
+from haarline.metrics.sampled_loss import loss_variance
+from scipy import stats
 
 
 @pytest.mark.parametrize("n", [2, 3, 7, 40, 2000])

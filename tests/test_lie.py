@@ -17,21 +17,16 @@ import itertools
 import json
 import math
 
+import haarline
 import numpy as np
 import pytest
-from reference_sim import embed, gate
-from scipy.linalg import expm
-
-import analysis
-from analysis import expand, parse_circuit
-from analysis.algebra import generate_algebra, independent_count
-from analysis.gates import GATES
-from analysis.generators import circuit_generators, rotation_generator
-from analysis.ideals import simple_algebra_names
-from analysis.lie import growth_fit, lie_diagnosis
-from analysis.lie_plot import algebra_dimension_png, algebra_dimension_series
-from analysis.lie_variance import observable_expansion, predict_variance
-from analysis.pauli import (
+from haarline import expand, parse_circuit
+from haarline.circuit.gates import GATES
+from haarline.lie.algebra import generate_algebra, independent_count
+from haarline.lie.diagnosis import growth_fit, lie_diagnosis
+from haarline.lie.generators import circuit_generators, rotation_generator
+from haarline.lie.ideals import simple_algebra_names
+from haarline.lie.pauli import (
     PauliExpansion,
     anticommutes,
     bracket,
@@ -43,7 +38,11 @@ from analysis.pauli import (
     pauli_values,
     product_phase,
 )
-from analysis.sampled_loss import deep_layers, deep_loss_variance, loss_variance
+from haarline.lie.variance import observable_expansion, predict_variance
+from haarline.metrics.sampled_loss import deep_layers, deep_loss_variance, loss_variance
+from haarline.plots.algebra import algebra_dimension_png, algebra_dimension_series
+from reference_sim import embed, gate
+from scipy.linalg import expm
 
 
 def strings(n):
@@ -671,29 +670,24 @@ def test_plot_draws_the_report_numbers():
 
 
 def test_public_names_are_exported():
-    from analysis import (
-        algebra,
-        generators,
-        ideals,
-        lie,
-        lie_plot,
-        lie_variance,
-        pauli,
-        sampled_loss,
-    )
+    from haarline.lie import algebra, generators, ideals, pauli
+    from haarline.lie import diagnosis as lie
+    from haarline.lie import variance as lie_variance
+    from haarline.metrics import sampled_loss
+    from haarline.plots import algebra as lie_plot
 
     for module in (algebra, generators, ideals, lie, lie_plot, lie_variance, pauli, sampled_loss):
         for name in module.__all__:
             assert hasattr(module, name)
             if not name.isupper():
-                assert name in analysis.__all__, name
+                assert name in haarline.__all__, name
 
 
 def test_report_key_lie_with_sampled_deep_variance(capsys):
     # rx, rz on all + cx chain generates all of su(2^n) (Larocca et al., Quantum 6, 824,
     # 2022); for a Pauli observable on a pure state the deep-circuit loss variance is
     # 1/(2^n + 1) (Ragone et al. 2024). The report puts the sampled value beside it.
-    from service import cli
+    from haarline.service.cli import main as cli
 
     assert (
         cli.main(
@@ -720,4 +714,4 @@ def test_report_key_lie_with_sampled_deep_variance(capsys):
         assert predicted == pytest.approx(1 / (2**n + 1), rel=1e-9)
         lo, hi = point["sampled"]["interval"]
         assert lo <= predicted <= hi
-    assert "algebra.png" in analysis.plot_files(report)
+    assert "algebra.png" in haarline.plot_files(report)

@@ -2,10 +2,12 @@
 
 import json
 import re
+from pathlib import Path
 
-from service.openapi_export import TARGET, render
+from haarline.service.api.openapi_export import render
 
-NOTES = TARGET.parent
+NOTES = Path(__file__).parents[1] / "openapi-notes"
+TARGET = NOTES / "openapi.json"
 
 
 def test_exported_openapi_document_is_current():
@@ -101,12 +103,11 @@ def test_problem_responses_are_problem_json_with_the_problem_schema():
 def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(tmp_path):
     """Provoke each status the table lists; no probe may get one the operation does not list."""
     from fastapi.testclient import TestClient
-
-    from service.app import create_app
-    from service.deps import get_store
-    from service.keys import issue_key
-    from service.settings import Settings
-    from service.store import Store
+    from haarline.service.api.app import create_app
+    from haarline.service.api.deps import get_store
+    from haarline.service.api.keys import issue_key
+    from haarline.service.jobs.store import Store
+    from haarline.service.settings import Settings
 
     ops = declared()
     cfg = Settings.from_env(

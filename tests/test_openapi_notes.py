@@ -22,9 +22,8 @@ import urllib.request
 from pathlib import Path
 
 import pytest
-
-from service.keys import issue_key
-from service.store import Store
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.store import Store
 
 REPO = Path(__file__).resolve().parent.parent
 NOTES = REPO / "openapi-notes"
@@ -178,7 +177,7 @@ def server():
         log = root / "server.log"
         with open(log, "wb") as err:
             proc = subprocess.Popen(
-                [sys.executable, "-m", "service.cli", "serve", "--port", str(port)]
+                [sys.executable, "-m", "haarline.service.cli.main", "serve", "--port", str(port)]
                 + ["--data-dir", str(data), "--log-level", "warning"],
                 cwd=REPO,
                 env=env,

@@ -6,13 +6,13 @@ import time
 
 import pytest
 from fastapi.testclient import TestClient
-
-from service import cli
-from service.app import create_app
-from service.keys import issue_key
-from service.page import job_page, reproduce_command
-from service.settings import Settings
-from service.tokens import TokenError, check_token, make_token
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key
+from haarline.service.api.page import job_page, reproduce_command
+from haarline.service.api.tokens import check_token, make_token
+from haarline.service.cli import main as cli
+from haarline.service.errors import TokenError
+from haarline.service.settings import Settings
 
 SMALL = {
     "pairs": 300,

@@ -15,13 +15,13 @@ import math
 import struct
 from pathlib import Path
 
+import haarline
 import matplotlib
 import matplotlib.image
 import numpy as np
 import pytest
-
-import analysis
-from analysis import _plotdata, _plotstyle
+from haarline.plots import _data as _plotdata
+from haarline.plots import _style as _plotstyle
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 PX_PER_METRE_150_DPI = round(150 / 0.0254)  # 5906, the pHYs value of a 150 dpi PNG
@@ -32,18 +32,18 @@ PX_PER_METRE_150_DPI = round(150 / 0.0254)  # 5906, the pHYs value of a 150 dpi 
 
 @pytest.fixture(scope="module")
 def circuit():
-    return analysis.load_reference("ry-cz-ring")
+    return haarline.load_reference("ry-cz-ring")
 
 
 @pytest.fixture(scope="module")
 def program(circuit):
-    return analysis.expand(circuit)
+    return haarline.expand(circuit)
 
 
 @pytest.fixture(scope="module")
 def report(circuit):
     """Every metric, a qubit scan, a depth scan and a layer sweep, at small sample sizes."""
-    options = analysis.AnalysisOptions(
+    options = haarline.AnalysisOptions(
         metrics=["expressibility", "entanglement", "trainability", "capacity"],
         pairs=300,
         bins=40,
@@ -54,21 +54,21 @@ def report(circuit):
         layers_sweep=[1, 2],
         seed=5,
     )
-    return analysis.analyze(circuit, options)
+    return haarline.analyze(circuit, options)
 
 
 @pytest.fixture(scope="module")
 def one_qubit_report():
-    c = analysis.parse_circuit(
+    c = haarline.parse_circuit(
         {"name": "single", "qubits": 1, "layers": 2, "layer": [{"gate": "rx"}, {"gate": "rz"}]}
     )
-    options = analysis.AnalysisOptions(pairs=200, bins=20, samples=50, layers_sweep=[1, 2])
-    return analysis.analyze(c, options)
+    options = haarline.AnalysisOptions(pairs=200, bins=20, samples=50, layers_sweep=[1, 2])
+    return haarline.analyze(c, options)
 
 
 @pytest.fixture(scope="module")
 def files(report, program):
-    return analysis.plot_files(report, program)
+    return haarline.plot_files(report, program)
 
 
 def png_chunks(png):
@@ -89,7 +89,7 @@ def decoded(png):
 
 
 def test_fidelity_series_is_the_report_histogram(report):
-    s = analysis.fidelity_series(report)
+    s = haarline.fidelity_series(report)
     expr = report["expressibility"]
     assert s["name"] == "ry-cz-ring"
     np.testing.assert_array_equal(s["circuit"], expr["histogram"])
@@ -110,16 +110,16 @@ def test_log_panel_follows_the_span_of_the_exact_haar_masses(report, one_qubit_r
     # Haar bin masses from the CDF 1 - (1-F)^(N-1): the first bin holds 1 - (1-1/K)^(N-1),
     # the last (1/K)^(N-1); for one qubit (N = 2) every bin holds 1/K.
     r = report if qubits == 4 else one_qubit_report
-    s = analysis.fidelity_series(r)
+    s = haarline.fidelity_series(r)
     n_dim, k = 2**qubits, s["bins"]
     first, last = 1 - (1 - 1 / k) ** (n_dim - 1), (1 / k) ** (n_dim - 1)
     assert s["haar"][0] == pytest.approx(first) and s["haar"][-1] == pytest.approx(last)
-    assert s["log_panel"] == (math.log10(first / last) > analysis.plots.LOG_PANEL_DECADES)
+    assert s["log_panel"] == (math.log10(first / last) > haarline.plots.figures.LOG_PANEL_DECADES)
     assert s["log_panel"] == (qubits == 4)
 
 
 def test_meyer_wallach_series_is_the_report_distribution(report):
-    s = analysis.meyer_wallach_series(report)
+    s = haarline.meyer_wallach_series(report)
     ent = report["entanglement"]
     np.testing.assert_array_equal(s["fractions"], ent["distribution"])
     np.testing.assert_allclose(s["edges"], np.linspace(0, 1, 21))
@@ -129,7 +129,7 @@ def test_meyer_wallach_series_is_the_report_distribution(report):
 
 
 def test_variance_series_is_the_report_scan_and_its_fits(report):
-    s = analysis.variance_series(report)
+    s = haarline.variance_series(report)
     train = report["trainability"]
     for key, rows in (("points", train["points"]), ("layer_points", train["layer_points"])):
         np.testing.assert_array_equal(s[key]["qubits"], [p["qubits"] for p in rows])
@@ -151,12 +151,12 @@ def test_variance_series_without_fit_or_layer_points(report):
     r = copy.deepcopy(report)
     r["trainability"]["fit"] = None
     r["trainability"]["layer_points"] = []
-    s = analysis.variance_series(r)
+    s = haarline.variance_series(r)
     assert s["fits"] == {} and s["layer_points"]["qubits"].size == 0
 
 
 def test_sweep_series_is_the_report_rows(report):
-    s = analysis.sweep_series(report)
+    s = haarline.sweep_series(report)
     rows = report["sweep"]
     np.testing.assert_array_equal(s["layers"], [1, 2])
     np.testing.assert_array_equal(s["kl"]["value"], [r["kl"] for r in rows])
@@ -174,14 +174,14 @@ def test_sweep_series_without_entanglement_uses_the_haar_formula(report):
     r["entanglement"] = None
     for row in r["sweep"]:
         row.pop("kl"), row.pop("kl_interval")
-    s = analysis.sweep_series(r)
+    s = haarline.sweep_series(r)
     assert s["kl"] is None and s["meyer_wallach"]["haar"] == pytest.approx(14 / 17)
 
 
 def test_comparison_series_labels_repeats_apart(report, one_qubit_report):
     other = copy.deepcopy(report)
     other["circuit"]["layers"] = 5
-    entries = analysis.comparison_series([report, other, report, one_qubit_report])
+    entries = haarline.comparison_series([report, other, report, one_qubit_report])
     assert [e["label"] for e in entries] == [
         "ry-cz-ring (3 layers) #1",
         "ry-cz-ring (5 layers)",
@@ -201,7 +201,7 @@ def test_comparison_series_labels_repeats_apart(report, one_qubit_report):
 
 
 def greedy_steps(program):
-    """Depth rule of analysis.program.facts, written out again: one step after the latest
+    """Depth rule of haarline.circuit.program.facts, written out again: one step after the latest
     gate on any of the gate's qubits."""
     level, steps = [0] * program.qubits, []
     for op in program.operations:
@@ -233,13 +233,13 @@ ZOO = {
     "source", ["ry-cz-ring", "sim2019-05", "ry-cx-bricks", "zz-x-ring", "rx-product", "zoo"]
 )
 def test_diagram_layout_places_every_gate_in_its_greedy_step(source):
-    c = analysis.parse_circuit(ZOO) if source == "zoo" else analysis.load_reference(source)
-    program = analysis.expand(c)
-    lay = analysis.diagram_layout(program, max_columns=1000)
+    c = haarline.parse_circuit(ZOO) if source == "zoo" else haarline.load_reference(source)
+    program = haarline.expand(c)
+    lay = haarline.diagram_layout(program, max_columns=1000)
     gates = lay["gates"]
     assert [g["index"] for g in gates] == list(range(len(program.operations)))
     assert [g["step"] for g in gates] == greedy_steps(program)
-    assert lay["depth"] == analysis.facts(program)["depth"]
+    assert lay["depth"] == haarline.facts(program)["depth"]
     assert lay["hidden_gates"] == 0 and lay["note"] == ""
     for g, op in zip(gates, program.operations, strict=True):
         assert g["qubits"] == op.qubits
@@ -262,8 +262,8 @@ def test_diagram_layout_places_every_gate_in_its_greedy_step(source):
 
 
 def test_diagram_layout_of_the_zoo_spreads_crossing_gates():
-    program = analysis.expand(analysis.parse_circuit(ZOO))
-    lay = analysis.diagram_layout(program)
+    program = haarline.expand(haarline.parse_circuit(ZOO))
+    lay = haarline.diagram_layout(program)
     assert lay["total_columns"] > lay["depth"]  # rzz (0,2) and (1,3) share a step
     names = {(g["gate"], g["name"], g["angle"]) for g in lay["gates"]}
     assert ("crx", "rx", "θ2") in names and ("cy", "y", "") in names
@@ -271,8 +271,8 @@ def test_diagram_layout_of_the_zoo_spreads_crossing_gates():
 
 
 def test_diagram_layout_cuts_wide_programs_at_a_layer_end():
-    program = analysis.expand(analysis.load_reference("rx-product"), layers=30)
-    lay = analysis.diagram_layout(program, max_columns=18)
+    program = haarline.expand(haarline.load_reference("rx-product"), layers=30)
+    lay = haarline.diagram_layout(program, max_columns=18)
     assert lay["columns"] == 18 and lay["total_columns"] == 30
     assert len(lay["gates"]) == 18 * 4 and lay["hidden_gates"] == 12 * 4
     assert lay["hidden_layers"] == 12 and lay["hidden_steps"] == 12
@@ -282,7 +282,7 @@ def test_diagram_layout_cuts_wide_programs_at_a_layer_end():
 
 def test_diagram_layout_rejects_no_room():
     with pytest.raises(ValueError, match="max_columns must be at least 1, got 0"):
-        analysis.diagram_layout(analysis.expand(analysis.parse_circuit(ZOO)), max_columns=0)
+        haarline.diagram_layout(haarline.expand(haarline.parse_circuit(ZOO)), max_columns=0)
 
 
 # --------------------------------------------------------------------------------- PNGs
@@ -315,8 +315,8 @@ def test_each_png_decodes_at_900_px_and_150_dpi_without_metadata(files, name):
 @pytest.mark.parametrize(
     ("name", "draw"),
     [
-        ("fidelity.png", analysis.fidelity_histogram_png),
-        ("trainability.png", analysis.variance_scan_png),
+        ("fidelity.png", haarline.fidelity_histogram_png),
+        ("trainability.png", haarline.variance_scan_png),
     ],
 )
 def test_same_report_gives_the_same_bytes(files, report, name, draw):
@@ -326,22 +326,22 @@ def test_same_report_gives_the_same_bytes(files, report, name, draw):
 
 
 def test_same_program_gives_the_same_bytes(files, circuit):
-    assert analysis.circuit_diagram_png(analysis.expand(circuit)) == files["circuit.png"]
+    assert haarline.circuit_diagram_png(haarline.expand(circuit)) == files["circuit.png"]
 
 
 def test_comparison_png_is_deterministic_and_decodes(report, one_qubit_report):
-    first = analysis.comparison_png([report, one_qubit_report])
-    assert analysis.comparison_png([report, one_qubit_report]) == first
+    first = haarline.comparison_png([report, one_qubit_report])
+    assert haarline.comparison_png([report, one_qubit_report]) == first
     assert abs(decoded(first).shape[1] - 900) <= 3
 
 
 def test_single_panel_fidelity_for_one_qubit(one_qubit_report):
-    assert abs(decoded(analysis.fidelity_histogram_png(one_qubit_report)).shape[1] - 900) <= 3
+    assert abs(decoded(haarline.fidelity_histogram_png(one_qubit_report)).shape[1] - 900) <= 3
 
 
 def test_user_rc_settings_change_nothing_and_are_restored(files, report):
     with matplotlib.rc_context({"font.size": 19.0, "axes.facecolor": "#ff0000"}):
-        png = analysis.meyer_wallach_png(report)
+        png = haarline.meyer_wallach_png(report)
         assert matplotlib.rcParams["font.size"] == 19.0
     assert png == files["entanglement.png"]
     assert matplotlib.rcParams["font.size"] == matplotlib.rcParamsDefault["font.size"]
@@ -362,18 +362,18 @@ def without(report, *path):
 @pytest.mark.parametrize(
     ("draw", "path", "message"),
     [
-        (analysis.fidelity_histogram_png, ("expressibility",), "'expressibility'"),
-        (analysis.fidelity_series, ("expressibility", "haar"), "'expressibility.haar'"),
-        (analysis.fidelity_series, ("circuit", "name"), "'circuit.name'"),
-        (analysis.meyer_wallach_png, ("entanglement",), "'entanglement'"),
+        (haarline.fidelity_histogram_png, ("expressibility",), "'expressibility'"),
+        (haarline.fidelity_series, ("expressibility", "haar"), "'expressibility.haar'"),
+        (haarline.fidelity_series, ("circuit", "name"), "'circuit.name'"),
+        (haarline.meyer_wallach_png, ("entanglement",), "'entanglement'"),
         (
-            analysis.meyer_wallach_series,
+            haarline.meyer_wallach_series,
             ("entanglement", "distribution"),
             "'entanglement.distribution'",
         ),
-        (analysis.variance_scan_png, ("trainability",), "'trainability'"),
-        (analysis.variance_series, ("trainability", "points"), "'trainability.points'"),
-        (analysis.sweep_png, ("sweep",), "'sweep'"),
+        (haarline.variance_scan_png, ("trainability",), "'trainability'"),
+        (haarline.variance_series, ("trainability", "points"), "'trainability.points'"),
+        (haarline.sweep_png, ("sweep",), "'sweep'"),
     ],
 )
 def test_missing_data_names_the_report_key(report, draw, path, message):
@@ -383,58 +383,63 @@ def test_missing_data_names_the_report_key(report, draw, path, message):
 
 def test_missing_metric_says_how_to_get_it(report):
     with pytest.raises(ValueError, match="analyze with the expressibility metric"):
-        analysis.fidelity_series(without(report, "expressibility"))
+        haarline.fidelity_series(without(report, "expressibility"))
 
 
 def test_bad_data_is_described(report):
     r = copy.deepcopy(report)
     r["expressibility"]["haar"] = r["expressibility"]["haar"][:-1]
     with pytest.raises(ValueError, match="differ in length"):
-        analysis.fidelity_series(r)
+        haarline.fidelity_series(r)
     r["expressibility"]["haar"] = ["a"]
     with pytest.raises(ValueError, match="'expressibility.haar': expected a list of numbers"):
-        analysis.fidelity_series(r)
+        haarline.fidelity_series(r)
     r = copy.deepcopy(report)
     r["sweep"] = []
     with pytest.raises(ValueError, match="'sweep' is empty"):
-        analysis.sweep_series(r)
+        haarline.sweep_series(r)
 
 
 def test_comparison_needs_something_to_compare(report):
     with pytest.raises(ValueError, match="at least one report"):
-        analysis.comparison_series([])
+        haarline.comparison_series([])
     bare = copy.deepcopy(report)
     bare["expressibility"] = bare["trainability"] = None
     with pytest.raises(ValueError, match="nothing to compare"):
-        analysis.comparison_png([bare])
+        haarline.comparison_png([bare])
 
 
 def test_plot_files_skips_what_is_absent(report, program):
     bare = copy.deepcopy(report)
     for key in ("expressibility", "entanglement", "trainability", "sweep"):
         bare[key] = None
-    assert analysis.plot_files(bare) == {}
+    assert haarline.plot_files(bare) == {}
 
 
 def test_public_names_are_exported():
     for module in (_plotstyle, _plotdata):
         for name in module.__all__:
             assert hasattr(module, name)
-    for module in (analysis.plots, analysis.scan_plots, analysis.comparison_plot, analysis.diagram):
+    for module in (
+        haarline.plots.figures,
+        haarline.plots.scans,
+        haarline.plots.comparison,
+        haarline.plots.diagram,
+    ):
         for name in module.__all__:
             if not name.isupper():
-                assert name in analysis.__all__, name
+                assert name in haarline.__all__, name
 
 
 @pytest.mark.parametrize(
     "module",
     [
-        analysis.plots,
-        analysis.scan_plots,
-        analysis.comparison_plot,
-        analysis.diagram,
-        analysis._plotstyle,
-        analysis._plotdata,
+        haarline.plots.figures,
+        haarline.plots.scans,
+        haarline.plots.comparison,
+        haarline.plots.diagram,
+        haarline.plots._style,
+        haarline.plots._data,
     ],
 )
 def test_plot_modules_import_matplotlib_only_when_drawing(module):

@@ -4,9 +4,8 @@ import copy
 import json
 
 import pytest
-
-from analysis.policy import PolicyError, evaluate_policy, load_policy, parse_policy
-from service import cli
+from haarline.report.policy import PolicyError, evaluate_policy, load_policy, parse_policy
+from haarline.service.cli import main as cli
 
 REPORT = {
     "expressibility": {"kl": 0.03, "interval": [0.02, 0.04], "bias": 0.004},
@@ -172,7 +171,7 @@ def test_cli_policy_in_json_report(capsys, tmp_path):
 
 
 def test_a_rule_on_the_lie_metric_needs_it_requested():
-    from analysis.policy import check_metrics
+    from haarline.report.policy import check_metrics
 
     policy = parse_policy({"rules": [{"metric": "lie.points[0].dimension", "fail_above": 10}]})
     with pytest.raises(PolicyError, match="needs the lie metric"):

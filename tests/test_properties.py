@@ -36,18 +36,17 @@ parameters with other qubits, and only the distributions (not the samples) agree
 
 import json
 
+import haarline
 import numpy as np
+from haarline.circuit.gates import GATES
+from haarline.circuit.model import TWO_QUBIT_PATTERNS
+from haarline.circuit.program import expand
+from haarline.engine.sampling import draw_angles
+from haarline.engine.statevector import run
+from haarline.metrics.entanglement import meyer_wallach
+from haarline.metrics.gradient_variance import gradient_samples, summarize_gradients
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-import analysis
-from analysis.circuit import TWO_QUBIT_PATTERNS
-from analysis.engine import run
-from analysis.entanglement import meyer_wallach
-from analysis.gates import GATES
-from analysis.gradient_variance import gradient_samples, summarize_gradients
-from analysis.program import expand
-from analysis.sampling import draw_angles
 
 QUICK = settings(max_examples=20, deadline=None, derandomize=True)
 NAMES = sorted(GATES) + ["cnot"]
@@ -125,7 +124,7 @@ def relabel(description: dict, pi: list[int]) -> dict:
 @QUICK
 @given(descriptions(), st.integers(0, 2**32 - 1))
 def test_every_circuit_is_unitary_and_keeps_the_norm(description, seed):
-    program = expand(analysis.parse_circuit(description))
+    program = expand(haarline.parse_circuit(description))
     dim = program.dimension
     theta = draw_angles(seed, 0, 0, 1, program.parameters)
     # row j starts as basis state e_j; all rows share theta, so the rows are U e_j
@@ -141,9 +140,9 @@ def test_every_circuit_is_unitary_and_keeps_the_norm(description, seed):
 @QUICK
 @given(descriptions(), st.integers(0, 2**32 - 1))
 def test_metrics_stay_in_their_ranges(description, seed):
-    program = expand(analysis.parse_circuit(description))
+    program = expand(haarline.parse_circuit(description))
     n, p = program.qubits, program.parameters
-    expr = analysis.expressibility(program, pairs=40, bins=12, seed=seed)
+    expr = haarline.expressibility(program, pairs=40, bins=12, seed=seed)
     assert expr.kl >= 0 and expr.corrected >= 0 and expr.bias >= 0
     assert 0 <= expr.interval[0] <= expr.interval[1]
     assert abs(sum(expr.histogram) - 1) < 1e-12 and abs(sum(expr.haar) - 1) < 1e-9
@@ -152,7 +151,7 @@ def test_metrics_stay_in_their_ranges(description, seed):
     states = run(program, draw_angles(seed, 1, 0, 30, p))
     values = meyer_wallach(states, n)
     assert np.all((values >= 0) & (values <= 1))
-    ent = analysis.entangling_capability(program, samples=30, seed=seed)
+    ent = haarline.entangling_capability(program, samples=30, seed=seed)
     assert 0 <= ent.interval[0] <= ent.meyer_wallach <= ent.interval[1] <= 1 and ent.std >= 0
 
     for cost in ("global", "local") + (("zz",) if n >= 2 else ()):
@@ -161,7 +160,7 @@ def test_metrics_stay_in_their_ranges(description, seed):
         assert point.variance >= 0 and point.smallest >= 0 and point.largest >= point.smallest
         assert 0 <= point.interval[0] <= point.interval[1]
 
-    cap = analysis.capacity(program, points=2, seed=seed).to_dict()
+    cap = haarline.capacity(program, points=2, seed=seed).to_dict()
     assert 0 <= cap["qfi_rank"] <= min(p, 2 ** (n + 1) - 2)
     assert cap["redundant"] == p - cap["qfi_rank"]
 
@@ -198,7 +197,7 @@ def test_relabelling_qubits_changes_no_metric(drawn, seed):
     description, pi = drawn
     keeps_zz = sorted(pi[:2]) == [0, 1]
     cost = "zz" if keeps_zz and seed % 3 == 0 else ("global", "local")[seed % 2]
-    options = analysis.AnalysisOptions(
+    options = haarline.AnalysisOptions(
         metrics=["expressibility", "entanglement", "trainability", "capacity"],
         pairs=40,
         bins=12,
@@ -208,8 +207,8 @@ def test_relabelling_qubits_changes_no_metric(drawn, seed):
         cost=cost,
         seed=seed,
     )
-    one = analysis.analyze(analysis.parse_circuit(description), options)
-    other = analysis.analyze(analysis.parse_circuit(relabel(description, pi)), options)
+    one = haarline.analyze(haarline.parse_circuit(description), options)
+    other = haarline.analyze(haarline.parse_circuit(relabel(description, pi)), options)
     for report in (one, other):
         del report["timings"]
     assert_same(one, other)
@@ -221,13 +220,13 @@ def test_patterns_are_not_relabelled_sample_by_sample():
     base = {"qubits": 2, "layer": [{"gate": "ry"}, {"gate": "rx", "on": [0]}]}
     moved = relabel(base, [1, 0])  # 'all' stays 'all'; rx moves to qubit 1
     theta = np.array([[0.3, 1.1, 2.0]])
-    a = run(expand(analysis.parse_circuit(base)), theta)
-    b = run(expand(analysis.parse_circuit(moved)), theta)
+    a = run(expand(haarline.parse_circuit(base)), theta)
+    b = run(expand(haarline.parse_circuit(moved)), theta)
     swapped = a.reshape(2, 2).T.reshape(1, 4)  # P_pi psi: exchange the two qubits
     assert not np.allclose(b, swapped)
     explicit = {"qubits": 2, "layer": [{"gate": "ry", "on": [0, 1]}, {"gate": "rx", "on": [0]}]}
-    c = run(expand(analysis.parse_circuit(explicit)), theta)
-    d = run(expand(analysis.parse_circuit(relabel(explicit, [1, 0]))), theta)
+    c = run(expand(haarline.parse_circuit(explicit)), theta)
+    d = run(expand(haarline.parse_circuit(relabel(explicit, [1, 0]))), theta)
     np.testing.assert_allclose(d, c.reshape(2, 2).T.reshape(1, 4), atol=1e-14)
 
 
@@ -237,9 +236,9 @@ def test_patterns_are_not_relabelled_sample_by_sample():
 @QUICK
 @given(descriptions())
 def test_descriptions_survive_a_json_round_trip(description):
-    circuit = analysis.parse_circuit(description)
+    circuit = haarline.parse_circuit(description)
     text = json.dumps(circuit.model_dump(mode="json", exclude_none=True))
-    again = analysis.parse_circuit_text(text)
+    again = haarline.parse_circuit_text(text)
     assert again == circuit
     assert expand(again) == expand(circuit)
 
@@ -247,7 +246,7 @@ def test_descriptions_survive_a_json_round_trip(description):
 @settings(max_examples=10, deadline=None, derandomize=True)
 @given(descriptions(max_qubits=3), st.integers(0, 2**32 - 1))
 def test_reports_survive_a_json_round_trip(description, seed):
-    options = analysis.AnalysisOptions(
+    options = haarline.AnalysisOptions(
         metrics=["expressibility", "entanglement", "trainability", "capacity"],
         pairs=20,
         samples=20,
@@ -256,7 +255,7 @@ def test_reports_survive_a_json_round_trip(description, seed):
         layers_sweep=[1, 2],
         seed=seed,
     )
-    report = analysis.analyze(analysis.parse_circuit(description), options)
+    report = haarline.analyze(haarline.parse_circuit(description), options)
     text = json.dumps(report, allow_nan=False)
     assert json.loads(text) == report  # only JSON types: no tuples, no NaN
     assert json.dumps(json.loads(text), allow_nan=False) == text

@@ -1,4 +1,4 @@
-"""OpenQASM import and export (analysis.qasm).
+"""OpenQASM import and export (haarline.circuit.qasm.parse).
 
 The hand-written programs below follow the examples of the OpenQASM 3 specification
 (openqasm.com, "Language" chapter) for the features haarline reads; the section named beside
@@ -11,18 +11,17 @@ from __future__ import annotations
 import math
 import re
 
+import haarline
 import numpy as np
 import pytest
+from haarline import CircuitError, Operation, Program, expand, gate_matrix, parse_circuit, run
+from haarline.circuit.qasm.export import to_qasm
+from haarline.circuit.qasm.parse import MAX_QASM_BYTES, STANDARD_GATES, parse_qasm
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from reference_sim import simulate
 from scipy.linalg import sqrtm
 from test_engine import random_description
-
-import analysis
-from analysis import CircuitError, Operation, Program, expand, gate_matrix, parse_circuit, run
-from analysis.qasm import MAX_QASM_BYTES, STANDARD_GATES, parse_qasm
-from analysis.qasm_export import to_qasm
 
 HEAD = 'OPENQASM 3.0;\ninclude "stdgates.inc";\n'
 
@@ -406,7 +405,7 @@ def strip_steps(value):
     return value
 
 
-OPTIONS = analysis.AnalysisOptions(
+OPTIONS = haarline.AnalysisOptions(
     metrics=["expressibility", "entanglement", "trainability", "capacity"],
     pairs=120,
     samples=60,
@@ -419,8 +418,8 @@ OPTIONS = analysis.AnalysisOptions(
 def check_same_report(circuit) -> None:
     metrics = OPTIONS.metrics if expand(circuit).parameters else ["expressibility", "entanglement"]
     options = OPTIONS.model_copy(update={"scan": [circuit.qubits], "metrics": metrics})
-    first = analysis.analyze(circuit, options)
-    again = analysis.analyze(parse_qasm(to_qasm(expand(circuit))), options)
+    first = haarline.analyze(circuit, options)
+    again = haarline.analyze(parse_qasm(to_qasm(expand(circuit))), options)
     assert same_numbers(first["expressibility"], again["expressibility"])
     assert same_numbers(first["entanglement"], again["entanglement"])
     if "capacity" not in metrics:
@@ -434,9 +433,9 @@ def check_same_report(circuit) -> None:
         assert first["capacity"]["qfi_rank"] == again["capacity"]["qfi_rank"]
 
 
-@pytest.mark.parametrize("name", analysis.reference_names())
+@pytest.mark.parametrize("name", haarline.reference_names())
 def test_reference_circuits_round_trip(name):
-    circuit = analysis.load_reference(name)
+    circuit = haarline.load_reference(name)
     again = check_round_trip(circuit, seed=len(name))
     assert again.name == circuit.name
     check_same_report(circuit)
@@ -462,7 +461,7 @@ def test_random_round_trips_cover_every_gate_share_and_angle():
             keys |= {k for step in data["layer"] for k in step} | {
                 f"share={step['share']}" for step in data["layer"] if "share" in step
             }
-    assert gates == set(analysis.GATES)
+    assert gates == set(haarline.GATES)
     assert {"angle", "share=step", "share=layers", "reverse"} <= keys
 
 
@@ -691,7 +690,7 @@ TOKENS = (
 ).split("|")
 
 VALID = [text for text, *_ in SPEC_PROGRAMS.values()] + [
-    to_qasm(expand(analysis.load_reference("zz-x-ring"))),
+    to_qasm(expand(haarline.load_reference("zz-x-ring"))),
     to_qasm(expand(parse_circuit(random_description(np.random.default_rng(3), 3)))),
 ]
 
@@ -752,7 +751,7 @@ def test_mutated_programs_give_only_circuit_errors(text, edits):
 def test_cli_export_then_analyze_gives_the_same_numbers(tmp_path, capsys):
     import json
 
-    from service import cli
+    from haarline.service.cli import main as cli
 
     out = tmp_path / "ring.qasm"
     assert (
@@ -764,16 +763,16 @@ def test_cli_export_then_analyze_gives_the_same_numbers(tmp_path, capsys):
     from_qasm = json.loads(capsys.readouterr().out)
     assert cli.main(["analyze", "ref:ry-cz-ring", *flags]) == 0  # 3 layers, for contrast
     capsys.readouterr()
-    one_layer = analysis.analyze(
-        analysis.load_reference("ry-cz-ring").with_size(layers=1),
-        analysis.AnalysisOptions(pairs=300, samples=100),
+    one_layer = haarline.analyze(
+        haarline.load_reference("ry-cz-ring").with_size(layers=1),
+        haarline.AnalysisOptions(pairs=300, samples=100),
     )
     assert from_qasm["expressibility"]["kl"] == one_layer["expressibility"]["kl"]
     assert from_qasm["entanglement"] == json.loads(json.dumps(one_layer["entanglement"]))
 
 
 def test_cli_rejects_unsupported_qasm_with_line_and_column(tmp_path, capsys):
-    from service import cli
+    from haarline.service.cli import main as cli
 
     bad = tmp_path / "bad.qasm"
     bad.write_text('OPENQASM 3.0;\ninclude "stdgates.inc";\nqubit[2] q;\nreset q[0];\n')
@@ -785,9 +784,8 @@ def test_cli_rejects_unsupported_qasm_with_line_and_column(tmp_path, capsys):
 
 def test_service_accepts_a_qasm_body(tmp_path):
     from fastapi.testclient import TestClient
-
-    from service.app import create_app
-    from service.settings import Settings
+    from haarline.service.api.app import create_app
+    from haarline.service.settings import Settings
 
     program = (
         'OPENQASM 3.0;\ninclude "stdgates.inc";\ninput angle a;\nqubit[2] q;\n'

@@ -9,12 +9,11 @@ import sys
 import time
 from pathlib import Path
 
+import haarline
 import httpx2 as httpx
 import pytest
-
-import analysis
-from service.keys import issue_key
-from service.store import Store
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.store import Store
 
 REPO = Path(__file__).resolve().parent.parent
 
@@ -33,7 +32,7 @@ def start(data: Path, port: int) -> subprocess.Popen:
             [
                 sys.executable,
                 "-m",
-                "service.cli",
+                "haarline.service.cli.main",
                 "serve",
                 "--port",
                 str(port),
@@ -100,8 +99,8 @@ def test_round_trip_through_a_real_server(server):
     url = r.headers["location"]
     assert wait_state(c, url, ("succeeded", "failed"))["state"] == "succeeded"
     report = c.get(f"{url}/report").json()
-    want = analysis.analyze(
-        analysis.load_reference("ry-cx-bricks"), analysis.AnalysisOptions(**opts)
+    want = haarline.analyze(
+        haarline.load_reference("ry-cx-bricks"), haarline.AnalysisOptions(**opts)
     )
     assert report["expressibility"] == json.loads(json.dumps(want["expressibility"]))
     assert report["entanglement"] == json.loads(json.dumps(want["entanglement"]))
@@ -136,8 +135,8 @@ def test_sigkill_mid_job_then_restart_loses_nothing(server):
     assert any(e["detail"] == "requeued after a restart" for e in job["events"])
     assert wait_state(c, queued_url, ("succeeded", "failed"))["state"] == "succeeded"
     report = c.get(f"{url}/report").json()
-    want = analysis.analyze(
-        analysis.parse_circuit(body["circuit"]), analysis.AnalysisOptions(**opts)
+    want = haarline.analyze(
+        haarline.parse_circuit(body["circuit"]), haarline.AnalysisOptions(**opts)
     )
     assert report["expressibility"]["kl"] == want["expressibility"]["kl"]
     assert report["expressibility"]["histogram"] == want["expressibility"]["histogram"]

@@ -3,14 +3,13 @@
 import json
 import time
 
+import haarline
 import pytest
 from fastapi.testclient import TestClient
-
-import analysis
-from service.app import create_app
-from service.keys import issue_key
-from service.settings import Settings
-from service.store import Store
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.store import Store
+from haarline.service.settings import Settings
 
 SMALL = {"pairs": 300, "samples": 100, "seed": 5}
 
@@ -60,8 +59,8 @@ def test_submit_poll_fetch_and_equal_to_the_cli(client):
     assert job["state"] == "succeeded" and job["progress"]["fraction"] == 1.0
     assert [e["state"] for e in job["events"]] == ["queued", "running", "succeeded"]
     report = client.get(f"{url}/report").json()
-    cli_report = analysis.analyze(
-        analysis.load_reference("ry-cz-ring"), analysis.AnalysisOptions(**SMALL)
+    cli_report = haarline.analyze(
+        haarline.load_reference("ry-cz-ring"), haarline.AnalysisOptions(**SMALL)
     )
     strip = lambda r: {k: v for k, v in r.items() if k != "timings"}  # noqa: E731
     assert strip(report) == strip(json.loads(json.dumps(cli_report)))
@@ -287,15 +286,15 @@ def test_plot_names_cannot_escape(client):
 
 
 def test_dev_mode_refuses_a_public_address(tmp_path):
-    from service.settings import SettingsError
+    from haarline.service.errors import SettingsError
 
     with pytest.raises(SettingsError, match="loopback"):
         Settings.from_env({}, data_dir=str(tmp_path), dev_mode=True, host="0.0.0.0")
 
 
 def test_keys_commands(tmp_path, capsys):
-    from service import cli
-    from service.keys import verify_key
+    from haarline.service.api.keys import verify_key
+    from haarline.service.cli import main as cli
 
     data = str(tmp_path / "keys")
     assert cli.main(["keys", "--data-dir", data, "add", "review-bot"]) == 0

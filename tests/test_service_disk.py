@@ -14,12 +14,11 @@ from contextlib import contextmanager
 
 import pytest
 from fastapi.testclient import TestClient
-
-from service.app import create_app
-from service.deps import get_store
-from service.keys import issue_key
-from service.settings import Settings
-from service.store import Store
+from haarline.service.api.app import create_app
+from haarline.service.api.deps import get_store
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.store import Store
+from haarline.service.settings import Settings
 
 SMALL = {"reference": "rx-product", "options": {"pairs": 100, "samples": 50}}
 

@@ -9,13 +9,17 @@ import sqlite3
 
 import pytest
 from fastapi.testclient import TestClient
-
-from service.app import create_app
-from service.backoff import RETRY_AFTER_MAX, RETRY_AFTER_MIN, clamp_seconds, queue_wait
-from service.deps import get_store
-from service.keys import issue_key
-from service.settings import Settings
-from service.store import Store
+from haarline.service.api.app import create_app
+from haarline.service.api.deps import get_store
+from haarline.service.api.keys import issue_key
+from haarline.service.jobs.backoff import (
+    RETRY_AFTER_MAX,
+    RETRY_AFTER_MIN,
+    clamp_seconds,
+    queue_wait,
+)
+from haarline.service.jobs.store import Store
+from haarline.service.settings import Settings
 
 
 def make_app(tmp_path, **settings):

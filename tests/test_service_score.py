@@ -9,14 +9,13 @@ import json
 import threading
 import time
 
+import haarline
 import psutil
 import pytest
 from fastapi.testclient import TestClient
-
-import analysis
-from service.app import create_app
-from service.keys import issue_key
-from service.settings import Settings
+from haarline.service.api.app import create_app
+from haarline.service.api.keys import issue_key
+from haarline.service.settings import Settings
 
 SMALL = {"reference": "ry-cz-ring", "options": {"pairs": 300, "samples": 100, "seed": 5}}
 # a minute or more of work: 2 * 2e6 pairs * 48 gates * 2^8 amplitudes
@@ -71,8 +70,8 @@ def gone(pid):
 
 
 def expected(body):
-    options = analysis.AnalysisOptions(**body["options"])
-    report = analysis.analyze(analysis.load_reference(body["reference"]), options)
+    options = haarline.AnalysisOptions(**body["options"])
+    report = haarline.analyze(haarline.load_reference(body["reference"]), options)
     return json.loads(json.dumps(report))
 
 
@@ -162,7 +161,7 @@ def test_a_dead_score_process_is_a_503_and_is_replaced(make_client):
 
 
 def test_score_settings_are_validated(tmp_path):
-    from service.settings import SettingsError
+    from haarline.service.errors import SettingsError
 
     for name, value in [("SCORE_TIMEOUT", "0"), ("SCORE_TIMEOUT", "601"), ("SCORE_WORKERS", "0")]:
         with pytest.raises(SettingsError, match=f"HAARLINE_{name}"):

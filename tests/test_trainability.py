@@ -4,11 +4,10 @@ import math
 
 import numpy as np
 import pytest
-
-from analysis import parse_circuit
-from analysis.gradient_variance import VariancePoint, summarize_gradients
-from analysis.plateau import fit_decay, verdict
-from analysis.trainability import trainability
+from haarline import parse_circuit
+from haarline.metrics.gradient_variance import VariancePoint, summarize_gradients
+from haarline.metrics.plateau import fit_decay, verdict
+from haarline.metrics.trainability import trainability
 
 RX_PRODUCT = parse_circuit({"qubits": 2, "layer": [{"gate": "rx"}]})
 
@@ -100,14 +99,14 @@ def test_summary_statistics():
 
 
 def test_pauli_sum_cost_cannot_scan():
-    from analysis import OptionError
+    from haarline import OptionError
 
     with pytest.raises(OptionError, match="fixed to its qubit count"):
         trainability(RX_PRODUCT, cost=[[1.0, "ZZ"]], scan=[2, 3])
 
 
 def test_scan_point_errors_name_the_size_and_the_scan():
-    from analysis import CircuitError
+    from haarline import CircuitError
 
     fixed = parse_circuit({"qubits": 3, "layer": [{"gate": "ry", "on": [2]}]})
     with pytest.raises(CircuitError) as info:

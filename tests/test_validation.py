@@ -4,7 +4,7 @@ Every rejection must say where (the JSON path of the offending field), what was 
 and what is allowed (DESIGN.md section 3). The positive tests pin the placement
 patterns, ``reverse``, parameter sharing and the ``cnot`` alias to the documented rules.
 The last part throws random malformed input at the parser and the expander: the only
-exception allowed out is ``analysis.CircuitError``.
+exception allowed out is ``haarline.CircuitError``.
 """
 
 from __future__ import annotations
@@ -12,18 +12,17 @@ from __future__ import annotations
 import json
 import math
 
+import haarline
 import pytest
 import yaml
+from haarline import CircuitError, OptionError, expand, facts, parse_circuit, parse_circuit_text
+from haarline.circuit.gates import ALIASES, GATES
+from haarline.circuit.loading import load_circuit
+from haarline.circuit.model import MAX_DESCRIPTION_BYTES, MAX_LAYERS
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-import analysis
-from analysis import CircuitError, OptionError, expand, facts, parse_circuit, parse_circuit_text
-from analysis.circuit import MAX_DESCRIPTION_BYTES, MAX_LAYERS
-from analysis.gates import ALIASES, GATES
-from analysis.loading import load_circuit
-
-MAX_QUBITS = analysis.MAX_QUBITS
+MAX_QUBITS = haarline.MAX_QUBITS
 
 # --------------------------------------------------------------------------- helpers
 
@@ -149,7 +148,7 @@ def test_two_qubit_pattern_on_a_one_qubit_gate():
 
 def test_all_on_a_two_qubit_gate():
     problem = rejected(base(layer=[{"gate": "cz", "on": "all"}]), "layer[0].on", '"all"', "'cz'")
-    for pattern in analysis.circuit.TWO_QUBIT_PATTERNS:
+    for pattern in haarline.circuit.model.TWO_QUBIT_PATTERNS:
         assert repr(pattern) in problem.message
 
 
@@ -717,7 +716,7 @@ def placed(pattern: str, n: int, *, reverse: bool = False) -> list[tuple[int, ..
 @pytest.mark.parametrize("n", [2, 3, 4, 5, 6])
 def test_placement_patterns(pattern, n):
     assert placed(pattern, n) == PATTERNS[pattern][n]
-    assert analysis.placement(pattern, n) == PATTERNS[pattern][n]
+    assert haarline.placement(pattern, n) == PATTERNS[pattern][n]
 
 
 @pytest.mark.parametrize("pattern", sorted(PATTERNS))
@@ -857,7 +856,7 @@ def test_cnot_takes_no_angle():
 )
 def test_bad_options(data, path, words):
     with pytest.raises(OptionError) as info:
-        analysis.parse_options(data)
+        haarline.parse_options(data)
     problem = only_problem(info.value)
     assert problem.path == path
     for word in words:
@@ -866,7 +865,7 @@ def test_bad_options(data, path, words):
 
 def test_option_errors_use_the_callers_names():
     with pytest.raises(OptionError) as info:
-        analysis.parse_options({"bins": 1}, names={"bins": "--bins"})
+        haarline.parse_options({"bins": 1}, names={"bins": "--bins"})
     assert str(info.value) == "--bins: got 1; allowed range is 2..100000"
 
 
@@ -904,7 +903,7 @@ junk = st.recursive(
 def steps(draw, *, section: str = "layer"):
     gate = draw(st.sampled_from(sorted([*GATES, *ALIASES])))
     step: dict = {"gate": gate}
-    two = analysis.lookup(gate).qubits == 2
+    two = haarline.lookup(gate).qubits == 2
     choice = draw(st.integers(0, 3))
     if choice == 1:
         step["on"] = draw(st.sampled_from(PATTERN_WORDS[:6]))
@@ -916,7 +915,7 @@ def steps(draw, *, section: str = "layer"):
         )
     if two and draw(st.booleans()):
         step["reverse"] = draw(st.booleans())
-    if analysis.lookup(gate).takes_angle:
+    if haarline.lookup(gate).takes_angle:
         extra = draw(st.integers(0, 2))
         if extra == 1:
             step["angle"] = draw(st.floats(-10, 10))

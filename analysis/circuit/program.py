@@ -1,0 +1,348 @@
+"""Expansion of a description into an ordered gate program, and its static facts.
+
+:func:`expand` resolves every placement pattern at the description's qubit count
+(:mod:`haarline.circuit.placements`), checks each step's angle options, assigns trainable
+parameter indices in order of first use, and checks the size of the result. The result,
+a :class:`Program`, is what the engine runs. :func:`facts` gives its sizes, gate counts
+and depth; :func:`time_steps` holds the depth rule, which the circuit diagram's layout
+(:mod:`haarline.plots.diagram_layout`) follows too.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from dataclasses import dataclass, field
+from typing import Any
+
+from haarline.circuit.gates import lookup
+from haarline.circuit.model import MAX_LAYERS, MAX_QUBITS, Circuit, Step, _describe
+from haarline.circuit.placements import step_targets
+from haarline.errors import CircuitError, Problem
+
+__all__ = [
+    "MAX_OPERATIONS",
+    "Operation",
+    "Program",
+    "expand",
+    "expand_at",
+    "facts",
+    "time_steps",
+]
+
+MAX_OPERATIONS = 200_000
+"""Largest number of gate applications an expanded program may hold."""
+
+
+@dataclass(frozen=True)
+class Operation:
+    """One gate application.
+
+    Attributes
+    ----------
+    gate : str
+        Canonical gate name.
+    qubits : tuple of int
+        Qubits in the gate's own order (control first for controlled gates).
+    param : int or None
+        Index of the trainable parameter that gives the angle, if any.
+    angle : float or None
+        Fixed angle (radians) for a parameterized gate with ``angle`` set.
+    step : str
+        JSON path of the step that produced it, e.g. ``"layer[1]"``.
+    layer : int or None
+        Repetition index (0-based) for steps of ``layer``; ``None`` for prepare/finish.
+    """
+
+    gate: str
+    qubits: tuple[int, ...]
+    param: int | None = None
+    angle: float | None = None
+    step: str = ""
+    layer: int | None = None
+
+
+@dataclass(frozen=True)
+class Program:
+    """An expanded, validated circuit: what the engine runs.
+
+    ``parameters`` is the length of the parameter vector θ; operation ``k`` with
+    ``param = p`` uses angle ``θ[p]``. ``parameter_steps[p]`` is the JSON path of the step
+    that introduced parameter ``p`` and ``parameter_names[p]`` its ``param`` name (or
+    ``None``).
+    """
+
+    name: str
+    qubits: int
+    layers: int
+    operations: tuple[Operation, ...]
+    parameters: int
+    parameter_steps: tuple[str, ...] = field(default=())
+    parameter_names: tuple[str | None, ...] = field(default=())
+
+    @property
+    def dimension(self) -> int:
+        """Hilbert-space dimension ``2**qubits``."""
+        return 1 << self.qubits
+
+
+def _check_step(step: Step, path: str, section: str) -> None:
+    spec = lookup(step.gate)
+    if not spec.takes_angle:
+        for key in ("angle", "share", "param"):
+            if getattr(step, key) is not None:
+                raise CircuitError(
+                    [
+                        Problem(
+                            f"{path}.{key}",
+                            f"the gate {step.gate!r} has no "
+                            "angle; only rx ry rz crx cry crz rxx ryy rzz take "
+                            f"'{key}'",
+                        )
+                    ]
+                )
+    if step.angle is not None and step.share is not None:
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.share",
+                    "a fixed 'angle' has no parameter to share; give either 'angle' or 'share'",
+                )
+            ]
+        )
+    if step.param is not None and (step.angle is not None or step.share is not None):
+        other = "angle" if step.angle is not None else "share"
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.param",
+                    f"a named parameter cannot be combined with '{other}'; give one of "
+                    "'angle', 'share' or 'param'",
+                )
+            ]
+        )
+    if step.share == "layers" and section != "layer":
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.share",
+                    f"'layers' shares a parameter across "
+                    f"repetitions of 'layer'; {section!r} runs once (use "
+                    "'step' or leave it out)",
+                )
+            ]
+        )
+
+
+def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = None) -> Program:
+    """Expand a description into a :class:`Program`.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        A validated description (see :func:`haarline.circuit.model.parse_circuit`).
+    qubits, layers : int, optional
+        Instantiate at another qubit count or layer count (patterns re-resolved).
+
+    Returns
+    -------
+    Program
+
+    Raises
+    ------
+    CircuitError
+        Naming the JSON path of the first step that cannot be placed.
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> c = parse_circuit({"qubits": 3, "layers": 2,
+    ...                    "layer": [{"gate": "ry"}, {"gate": "cz", "on": "chain"}]})
+    >>> p = expand(c)
+    >>> p.parameters, len(p.operations)
+    (6, 10)
+    """
+    n = circuit.qubits if qubits is None else qubits
+    reps = circuit.layers if layers is None else layers
+    if not (type(n) is int and 1 <= n <= MAX_QUBITS):
+        raise CircuitError(
+            [Problem("qubits", f"got {_describe(n)}; allowed range is 1..{MAX_QUBITS}")]
+        )
+    if not (type(reps) is int and 1 <= reps <= MAX_LAYERS):
+        raise CircuitError(
+            [Problem("layers", f"got {_describe(reps)}; allowed range is 1..{MAX_LAYERS}")]
+        )
+    sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
+    targets: dict[str, list[tuple[int, ...]]] = {}
+    for section, steps in sections:
+        for i, step in enumerate(steps):
+            path = f"{section}[{i}]"
+            _check_step(step, path, section)
+            targets[path] = step_targets(step, path, n)
+
+    total = (
+        sum(len(targets[f"prepare[{i}]"]) for i in range(len(circuit.prepare)))
+        + reps * sum(len(targets[f"layer[{i}]"]) for i in range(len(circuit.layer)))
+        + sum(len(targets[f"finish[{i}]"]) for i in range(len(circuit.finish)))
+    )
+    if total == 0:
+        raise CircuitError(
+            [
+                Problem(
+                    "layer",
+                    "the circuit has no gates: give at least one step "
+                    "in 'prepare', 'layer' or 'finish' that places a gate",
+                )
+            ]
+        )
+    if total > MAX_OPERATIONS:
+        raise CircuitError(
+            [
+                Problem(
+                    "layers",
+                    f"the circuit expands to {total} gate applications;"
+                    f" the limit is {MAX_OPERATIONS}",
+                )
+            ]
+        )
+
+    ops: list[Operation] = []
+    owners: list[str] = []
+    shared: dict[tuple[str, int], int] = {}
+
+    names: list[str | None] = []
+    named: dict[str, int] = {}
+
+    def new_param(path: str, name: str | None = None) -> int:
+        owners.append(path)
+        names.append(name)
+        return len(owners) - 1
+
+    def emit(section: str, steps: list[Step], layer: int | None) -> None:
+        for i, step in enumerate(steps):
+            path = f"{section}[{i}]"
+            spec = lookup(step.gate)
+            step_param: int | None = None
+            for k, qs in enumerate(targets[path]):
+                param: int | None = None
+                if spec.takes_angle and step.angle is None:
+                    if step.param is not None:
+                        if step.param not in named:
+                            named[step.param] = new_param(path, step.param)
+                        param = named[step.param]
+                    elif step.share == "step":
+                        if step_param is None:
+                            step_param = new_param(path)
+                        param = step_param
+                    elif step.share == "layers":
+                        key = (path, k)
+                        if key not in shared:
+                            shared[key] = new_param(path)
+                        param = shared[key]
+                    else:
+                        param = new_param(path)
+                ops.append(Operation(spec.name, qs, param, step.angle, path, layer))
+
+    emit("prepare", circuit.prepare, None)
+    for rep in range(reps):
+        emit("layer", circuit.layer, rep)
+    emit("finish", circuit.finish, None)
+    return Program(
+        name=circuit.name,
+        qubits=n,
+        layers=reps,
+        operations=tuple(ops),
+        parameters=len(owners),
+        parameter_steps=tuple(owners),
+        parameter_names=tuple(names),
+    )
+
+
+def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -> Program:
+    """:func:`expand` at another size, with the size in every error message.
+
+    Scans and deep versions instantiate a description at sizes the user did not write; a
+    problem found there is reported as ``"at {qubits} qubits, {layers} layers{during}: ..."``
+    (``during`` names the work, e.g. ``" (trainability scan)"``).
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> c = parse_circuit({"qubits": 3, "layer": [{"gate": "cz", "on": [[0, 2]]}]})
+    >>> expand_at(c, 2, 1)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    haarline.errors.CircuitError: layer[0].on[0][1]: at 2 qubits, 1 layers: qubit 2 is out ...
+    """
+    try:
+        return expand(circuit, qubits=qubits, layers=layers)
+    except CircuitError as exc:
+        raise CircuitError(
+            [
+                Problem(p.path, f"at {qubits} qubits, {layers} layers{during}: {p.message}")
+                for p in exc.problems
+            ],
+            source=exc.source,
+        ) from exc
+
+
+def time_steps(program: Program) -> list[int]:
+    """The time step of every operation, in program order: the one rule for depth.
+
+    A greedy schedule: each gate, in program order, goes one step after the latest gate on
+    any of its qubits (common practice). Steps count from 1; the largest is the depth.
+    Gates of one step never share a qubit. Cost ``O(G)``.
+
+    Parameters
+    ----------
+    program : Program
+        An expanded program.
+
+    Returns
+    -------
+    list of int
+        ``steps[k]`` is the time step of ``program.operations[k]``; empty for no operations.
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> p = expand(parse_circuit({"qubits": 3, "layer": [{"gate": "h"},
+    ...                                                  {"gate": "cx", "on": "chain"}]}))
+    >>> time_steps(p)
+    [1, 1, 1, 2, 3]
+    """
+    level = [0] * program.qubits
+    steps: list[int] = []
+    for op in program.operations:
+        t = max(level[q] for q in op.qubits) + 1
+        for q in op.qubits:
+            level[q] = t
+        steps.append(t)
+    return steps
+
+
+def facts(program: Program) -> dict[str, Any]:
+    """Static facts of a program: sizes, gate counts and depth.
+
+    Depth is the number of time steps of the greedy schedule of :func:`time_steps`.
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> p = expand(parse_circuit({"qubits": 3, "layer": [{"gate": "h"},
+    ...                                                  {"gate": "cx", "on": "chain"}]}))
+    >>> f = facts(p)
+    >>> f["gates"], f["two_qubit_gates"], f["depth"]
+    (5, 2, 3)
+    """
+    counts = Counter(op.gate for op in program.operations)
+    return {
+        "name": program.name,
+        "qubits": program.qubits,
+        "layers": program.layers,
+        "parameters": program.parameters,
+        "gates": len(program.operations),
+        "gate_counts": dict(sorted(counts.items())),
+        "two_qubit_gates": sum(1 for op in program.operations if len(op.qubits) == 2),
+        "fixed_angle_gates": sum(1 for op in program.operations if op.angle is not None),
+        "depth": max(time_steps(program), default=0),
+    }

@@ -1,0 +1,1 @@
+"""OpenQASM 3 in (:mod:`.parse`) and out (:mod:`.export`)."""

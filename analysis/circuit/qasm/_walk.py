@@ -1,0 +1,227 @@
+"""The walk over one OpenQASM program's statements that collects format-1 steps.
+
+:class:`Reader` handles the top-level declarations (include, the one qubit register,
+inputs), runs gate calls, barriers and ``for`` loops, bounds the work, and turns each gate
+application into a format-1 step (``on`` explicit, ``angle`` or ``param``). What a gate
+name means is :mod:`haarline.circuit.qasm._gates`; the entry point and the supported subset are
+:mod:`haarline.circuit.qasm.parse`.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import ChainMap
+from collections.abc import Iterable
+from typing import Any
+
+from haarline.circuit.model import MAX_QUBITS, MAX_STEPS
+from haarline.circuit.qasm._gates import Application, GateBook
+from haarline.circuit.qasm._syntax import _CONSTANTS, Scope, _angle, _Fail, _integer, _Value
+from haarline.circuit.qasm._unsupported import TYPE_WORDS, no_annotations, reject
+from openqasm3 import ast
+
+__all__ = ["Reader"]
+
+_MAX_WORK = 100_000
+"""Statements and loop iterations run while reading one program."""
+
+_PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")
+
+
+class Reader:
+    """Walk the syntax tree of one program and collect format-1 steps."""
+
+    def __init__(self, version: str | None):
+        self.register: tuple[str, int, bool] | None = None  # name, size, declared as one qubit
+        self.inputs: dict[str, int | _Value] = {}
+        self.constants: dict[str, int | _Value] = {k: _Value(v) for k, v in _CONSTANTS.items()}
+        self.scope: ChainMap[str, int | _Value] = ChainMap(self.inputs, self.constants)
+        self.steps: list[dict[str, Any]] = []
+        self.work = 0
+        self.book = GateBook(version, self.constants, self._tick)
+
+    def read(self, program: ast.Program) -> list[dict[str, Any]]:
+        """Read the program; return its format-1 steps in program order."""
+        for statement in program.statements:
+            no_annotations(statement)
+            if isinstance(statement, ast.Include):
+                self._include(statement)
+            elif isinstance(statement, ast.QubitDeclaration):
+                self._register(statement)
+            elif isinstance(statement, ast.IODeclaration):
+                self._input(statement)
+            elif isinstance(statement, ast.QuantumGateDefinition):
+                self.book.define(statement)
+            else:
+                self._run(statement, self.scope)
+        if self.register is None:
+            raise _Fail(None, "no qubit register is declared (expected 'qubit[n] q;')")
+        if not self.steps:
+            raise _Fail(None, "the program applies no gates")
+        return self.steps
+
+    def _tick(self, node: Any) -> None:
+        self.work += 1
+        if self.work > _MAX_WORK:
+            raise _Fail(
+                node,
+                f"the program runs more than {_MAX_WORK} statements and loop iterations; "
+                f"haarline reads at most {MAX_STEPS} gate applications",
+            )
+
+    def _run(self, statement: Any, scope: Scope) -> None:
+        self._tick(statement)
+        no_annotations(statement)
+        if isinstance(statement, ast.QuantumGate):
+            self._call(statement, scope)
+        elif isinstance(statement, ast.QuantumBarrier):
+            pass  # a barrier only orders gates; it does not change the state
+        elif isinstance(statement, ast.ForInLoop):
+            self._loop(statement, scope)
+        else:
+            reject(statement)
+
+    def _include(self, statement: ast.Include) -> None:
+        if statement.filename not in ("stdgates.inc", "qelib1.inc"):
+            raise _Fail(
+                statement,
+                f'include "{statement.filename}" is not supported; only "stdgates.inc" '
+                '(or "qelib1.inc") can be included',
+            )
+        self.book.standard = True
+
+    def _register(self, statement: ast.QubitDeclaration) -> None:
+        name = statement.qubit.name
+        if self.register is not None:
+            raise _Fail(
+                statement,
+                f"a second qubit register '{name}' is declared; haarline reads programs with "
+                f"exactly one register (the first is '{self.register[0]}')",
+            )
+        if name in self.scope:
+            raise _Fail(statement, f"the name '{name}' is already used")
+        size = 1 if statement.size is None else _integer(statement.size, {})
+        if not 1 <= size <= MAX_QUBITS:
+            raise _Fail(
+                statement,
+                f"register '{name}' has {size} qubits; the allowed range is 1..{MAX_QUBITS}",
+            )
+        self.register = (name, size, statement.size is None)
+
+    def _input(self, statement: ast.IODeclaration) -> None:
+        if statement.io_identifier.name != "input":
+            raise _Fail(statement, "output declarations are not supported")
+        kind = statement.type
+        if not isinstance(kind, (ast.AngleType, ast.FloatType)):
+            word = TYPE_WORDS.get(type(kind), type(kind).__name__)
+            raise _Fail(
+                statement,
+                f"input of type {word} is not supported; only 'input angle[...]' and "
+                "'input float[...]' become parameters",
+            )
+        name = statement.identifier.name
+        if name in self.scope or (self.register and name == self.register[0]):
+            raise _Fail(statement, f"the name '{name}' is already used")
+        if not _PARAM_NAME.fullmatch(name):
+            raise _Fail(
+                statement,
+                f"the input name '{name}' cannot be a parameter name; use ASCII letters, digits "
+                "and _, starting with a letter or _, at most 64 characters",
+            )
+        self.inputs[name] = _Value.of_input(name)
+
+    def _call(self, statement: ast.QuantumGate, scope: Scope) -> None:
+        callee = self.book.checked_call(statement)
+        args = [_angle(a, scope) for a in statement.arguments]
+        operands = [self._operand(o, scope) for o in statement.qubits]
+        targets: list[tuple[int, ...]]
+        if len(operands) == 1:
+            targets = [(q,) for q in operands[0]]
+        elif any(len(o) != 1 for o in operands):
+            raise _Fail(
+                statement,
+                "a gate on more than one qubit needs single qubits such as q[0]; a whole "
+                "register is accepted only by one-qubit gates",
+            )
+        else:
+            targets = [tuple(o[0] for o in operands)]
+        for target in targets:
+            self.book.apply(callee, args, target, statement, "", self._emit)
+
+    def _operand(self, node: Any, scope: Scope) -> list[int]:
+        if self.register is None:
+            raise _Fail(node, "no qubit register is declared before this point")
+        reg, size, single = self.register
+        name = node.name if isinstance(node, ast.Identifier) else node.name.name
+        if name.startswith("$"):
+            raise _Fail(node, f"physical qubits such as {name} are not supported")
+        if name != reg:
+            raise _Fail(node, f"unknown qubit register '{name}' (the register is '{reg}')")
+        if isinstance(node, ast.Identifier):
+            return list(range(size))
+        if single:
+            raise _Fail(node, f"'{reg}' is a single qubit, not a register; write {reg}")
+        index = node.indices[0] if len(node.indices) == 1 else None
+        if not isinstance(index, list) or len(index) != 1:
+            raise _Fail(node, f"only single indices such as {reg}[0] are supported")
+        if isinstance(index[0], ast.RangeDefinition):
+            raise _Fail(node, f"register slices such as {reg}[0:2] are not supported")
+        i = _integer(index[0], scope)
+        if not -size <= i < size:
+            raise _Fail(
+                node,
+                f"qubit {reg}[{i}] is out of range for {size} qubit{'s' if size != 1 else ''} "
+                f"(0..{size - 1})",
+            )
+        return [i % size]
+
+    def _emit(self, app: Application) -> None:
+        if len(self.steps) >= MAX_STEPS:
+            raise _Fail(
+                app.node,
+                f"the program applies more than {MAX_STEPS} gates{app.via}; haarline reads at "
+                f"most {MAX_STEPS} gate applications (format 1 allows {MAX_STEPS} steps in "
+                "'layer')",
+            )
+        on: list[Any] = [app.qubits[0]] if len(app.qubits) == 1 else [list(app.qubits)]
+        step: dict[str, Any] = {"gate": app.gate, "on": on}
+        if app.angle is not None:
+            value = app.angle
+            if not value.terms:
+                step["angle"] = value.constant
+            elif value.constant == 0.0 and len(value.terms) == 1 and value.terms[0][1] == 1.0:
+                step["param"] = value.terms[0][0]
+            else:
+                raise _Fail(
+                    app.node,
+                    f"the angle {value} cannot be represented{app.via}: a haarline step takes a "
+                    "number or one input exactly as declared, not a scaled or shifted input "
+                    "(declare a separate input for this angle)",
+                )
+        self.steps.append(step)
+
+    def _loop(self, statement: ast.ForInLoop, scope: Scope) -> None:
+        if not isinstance(statement.type, (ast.IntType, ast.UintType)):
+            word = TYPE_WORDS.get(type(statement.type), type(statement.type).__name__)
+            raise _Fail(statement, f"loop variables of type {word} are not supported; use int")
+        var = statement.identifier.name
+        if var in scope or (self.register and var == self.register[0]) or var in self.book.gates:
+            raise _Fail(statement, f"the loop variable '{var}' hides another name")
+        for value in self._loop_values(statement.set_declaration, scope):
+            self._tick(statement)
+            inner: Scope = ChainMap({var: value}, scope)
+            for child in statement.block:
+                self._run(child, inner)
+
+    def _loop_values(self, spec: Any, scope: Scope) -> Iterable[int]:
+        if isinstance(spec, ast.DiscreteSet):
+            return [_integer(v, scope) for v in spec.values]
+        if isinstance(spec, ast.RangeDefinition):
+            if spec.start is None or spec.end is None:
+                raise _Fail(spec, "a loop range needs a start and an end, as in [0:3]")
+            start, end = _integer(spec.start, scope), _integer(spec.end, scope)
+            step = 1 if spec.step is None else _integer(spec.step, scope)
+            if step == 0:
+                raise _Fail(spec, "a loop range cannot have step 0")
+            return range(start, end + (1 if step > 0 else -1), step)
+        raise _Fail(spec, "loops run over a range [a:b] or a set {a, b, ...} of integers")

@@ -1,0 +1,126 @@
+"""Operation sequences of the kernel forms, bound to views of a tile.
+
+Each form of :mod:`haarline.engine._coefficients` becomes a short list of in-place numpy calls
+on the two halves (or quarters) of a tile that a kernel mixes; each call takes the tile's
+coefficient table ``c`` (one row per slot) and reads its coefficients from it, or uses the
+constants of fixed gates (multiplications by 0 and 1 are skipped).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+__all__ = ["Op", "ops_2x2"]
+
+Op = Callable[[NDArray], None]
+"""One bound operation: called with the tile's coefficient table."""
+
+
+def _is(value: object, target: complex) -> bool:
+    return isinstance(value, complex) and value == target
+
+
+def ops_2x2(kind: str, coefs: tuple, a: NDArray, b: NDArray, u: NDArray, v: NDArray) -> list[Op]:
+    """Operations for ``(a, b) <- M (a, b)`` in place.
+
+    ``u``, ``v`` are temporaries of the same shape; ``coefs`` holds constants or indices
+    into the tile's coefficient table.
+    """
+
+    def get(c: NDArray, x: Any) -> Any:
+        return x if isinstance(x, complex) else c[x]
+
+    ops: list[Op] = []
+    if kind == "diag1":
+        (d1,) = coefs
+        if not _is(d1, 1):
+            ops.append(lambda c: np.multiply(b, get(c, d1), out=b))
+        return ops
+    if kind == "diag":  # a * diag(1, r): the factor a goes to the running scale
+        (r,) = coefs
+        if _is(r, -1):
+            ops.append(lambda c: np.negative(b, out=b))
+        elif not _is(r, 1):
+            ops.append(lambda c: np.multiply(b, get(c, r), out=b))
+        return ops
+    if kind == "diag2":
+        d0, d1 = coefs
+        if not _is(d0, 1):
+            ops.append(lambda c: np.multiply(a, get(c, d0), out=a))
+        if not _is(d1, 1):
+            ops.append(lambda c: np.multiply(b, get(c, d1), out=b))
+        return ops
+    if kind == "shear_diag":  # [[1, beta], [gamma, 1]], then diag(1, r)
+        beta, gamma, r = coefs
+        return ops_2x2("shear", (beta, gamma), a, b, u, v) + ops_2x2("diag", (r,), a, b, u, v)
+    if kind == "shear":  # [[1, beta], [gamma, 1]]
+        beta, gamma = coefs
+
+        def shear(c: NDArray) -> None:
+            np.multiply(b, get(c, beta), out=u)
+            np.multiply(a, get(c, gamma), out=v)
+            np.add(a, u, out=a)
+            np.add(b, v, out=b)
+
+        return [shear]
+    m00, m01, m10, m11 = coefs
+    if all(isinstance(x, complex) for x in coefs):
+        return _ops_fixed(m00, m01, m10, m11, a, b, u, v)
+
+    def general(c: NDArray) -> None:
+        np.multiply(a, get(c, m00), out=u)
+        np.multiply(b, get(c, m01), out=v)
+        np.add(u, v, out=u)
+        np.multiply(a, get(c, m10), out=v)
+        np.multiply(b, get(c, m11), out=b)
+        np.add(b, v, out=b)
+        np.copyto(a, u)
+
+    return [general]
+
+
+def _ops_fixed(
+    m00: complex,
+    m01: complex,
+    m10: complex,
+    m11: complex,
+    a,
+    b,
+    u,
+    v,  # noqa: ANN001
+) -> list[Op]:
+    """A fixed 2x2 in place, skipping multiplications by 0 and 1."""
+
+    def scaled(x: NDArray, m: complex, out: NDArray) -> None:
+        if m == 1:
+            np.copyto(out, x)
+        elif m == -1:
+            np.negative(x, out=out)
+        else:
+            np.multiply(x, m, out=out)
+
+    def fixed(c: NDArray) -> None:
+        # new a into u
+        if m00 != 0:
+            scaled(a, m00, u)
+            if m01 != 0:
+                scaled(b, m01, v)
+                np.add(u, v, out=u)
+        else:
+            scaled(b, m01, u)
+        # new b in place
+        if m11 == 0:
+            scaled(a, m10, b)
+        else:
+            if m11 != 1:
+                scaled(b, m11, b)
+            if m10 != 0:
+                scaled(a, m10, v)
+                np.add(b, v, out=b)
+        np.copyto(a, u)
+
+    return [fixed]

@@ -1,0 +1,422 @@
+"""Apply a :class:`~haarline.engine._fusion.Schedule` to a batch of states, one tile at a time.
+
+For each segment the batch is visited in *tiles* of about :data:`TILE_AMPLITUDES`
+amplitudes. A tile is gathered into a contiguous scratch array of shape
+``(2**len(Q), columns)``: one row per value of the segment's qubits ``Q`` (in index
+order), and one column per sample (circuits of up to 12 qubits: the whole state is one
+column) or per value of the lowest qubits outside ``Q`` (larger circuits: one sample,
+and every value of the remaining qubits is its own tile). Every kernel of the segment
+then runs on the scratch array, which stays in the CPU caches, with long contiguous inner
+loops whatever qubit it acts on, and the tile is written back. Memory is streamed twice
+per segment instead of several times per gate. Scratch arrays come from a small
+per-thread pool, so a run allocates (and page-faults) almost nothing.
+
+Kernels whose form leaves out a per-sample factor (shear and diagonal forms, see
+:mod:`haarline.engine._coefficients`) have it multiplied in when the tile is written back, a
+copy that happens anyway. Should a sample's running factor fall below :func:`_tiny`
+inside a segment (rotations at θ ≈ π), its column is rescaled right there, so nothing
+overflows.
+
+Every amplitude of sample ``k`` sees the same floating-point operations in the same order
+whatever the batch size, tile size or layout (numpy's elementwise loops give the same
+result for an element wherever it sits in an array), so the numbers never depend on
+chunking or on how samples are split between processes.
+"""
+
+from __future__ import annotations
+
+import threading
+
+import numpy as np
+from haarline.engine._coefficients import Form, evaluate
+from haarline.engine._fusion import Schedule, Segment
+from haarline.engine._ops import Op, ops_2x2
+from numpy.typing import NDArray
+
+__all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "TILE_AMPLITUDES", "execute", "scratch"]
+
+TILE_AMPLITUDES = 1 << 18
+"""Amplitudes per tile (4 MiB in double precision; the kernels' temporaries add as much
+again, and a permutation kernel a second tile). Measured on the reference machine, numpy's
+per-call cost and its inner loops over short rows matter more than the cache level: 2**18
+ran as fast as 2**17 and faster than L2-sized tiles. Speed only: the numbers never depend
+on it."""
+
+COEFFICIENT_BYTES = 16 << 20
+"""Most bytes of per-sample coefficients evaluated at once (bounds the columns of a tile
+of a long circuit on few qubits)."""
+
+BUFFER_SIZE = 256
+"""numpy's ufunc buffer size while a schedule runs. With the default (8192 elements)
+numpy copies strided operands whose contiguous runs are shorter than about 4096
+elements through its buffers, which makes an in-place multiply on a tile's half-view
+three times slower; with 256 it works on them directly. Copies only: the numbers do not
+change."""
+
+
+def _tiny(dtype: np.dtype) -> float:
+    """Running factor below which a sample's tile column is rescaled mid-segment."""
+    return 1e-150 if np.dtype(dtype).itemsize == 16 else 1e-18
+
+
+class _Pool:
+    """Per-thread flat scratch arrays, shared by every bound tile of that thread."""
+
+    def __init__(self) -> None:
+        self.arrays: dict[tuple[str, int, int], NDArray] = {}
+
+    def get(self, dtype: np.dtype, index: int, size: int) -> NDArray:
+        key = (np.dtype(dtype).str, index, size)
+        arr = self.arrays.get(key)
+        if arr is None:
+            arr = self.arrays[key] = np.empty(size, dtype=dtype)
+        return arr
+
+
+class _Tile:
+    """A segment's operations bound to scratch arrays of one tile shape."""
+
+    def __init__(
+        self, seg: Segment, forms: list[Form], columns: int, dtype: np.dtype, pool: _Pool, size: int
+    ) -> None:
+        rows = 1 << len(seg.qubits)
+        self.rows, self.columns = rows, columns
+        n_amp = rows * columns
+        self.buffers = [pool.get(dtype, i, size)[:n_amp].reshape(rows, columns) for i in (0, 1)]
+        self.temps = [pool.get(dtype, i, max(1, size // 2)) for i in (2, 3)]
+        self.local = {q: i for i, q in enumerate(seg.qubits)}
+        self.groups: list[list[Op]] = []  # operations of each kernel
+        self.holder: list[int] = []  # which buffer holds the data after each kernel
+        current = 0
+        for form in forms:
+            self.groups.append([])
+            current = self._bind(form, current, dtype)
+            self.holder.append(current)
+        self.ops = [op for group in self.groups for op in group]
+        self.final = current
+
+    def _temp(self, i: int, shape: tuple[int, ...]) -> NDArray:
+        size = int(np.prod(shape))
+        return self.temps[i][:size].reshape(shape)
+
+    def _halves(self, buf: NDArray, q: int) -> tuple[NDArray, NDArray]:
+        k = len(self.local)
+        p = self.local[q]
+        v = buf.reshape(1 << p, 2, 1 << (k - p - 1), self.columns)
+        return v[:, 0], v[:, 1]
+
+    def _quarters(self, buf: NDArray, first: int, second: int) -> dict[tuple[int, int], NDArray]:
+        k = len(self.local)
+        p1, p2 = self.local[first], self.local[second]
+        lo, hi = min(p1, p2), max(p1, p2)
+        v = buf.reshape(1 << lo, 2, 1 << (hi - lo - 1), 2, 1 << (k - hi - 1), self.columns)
+        out = {}
+        for bf in (0, 1):
+            for bs in (0, 1):
+                b_lo, b_hi = (bf, bs) if p1 < p2 else (bs, bf)
+                out[(bf, bs)] = v[:, b_lo, :, b_hi]
+        return out
+
+    def _bind(self, form: Form, current: int, dtype: np.dtype) -> int:
+        buf = self.buffers[current]
+        k = form.kernel
+        add = self.groups[-1].append
+        if form.kind == "perm":
+            assert k.perm is not None and k.phase is not None
+            identity = np.array_equal(k.perm, np.arange(len(k.perm)))
+            phase = None if np.all(k.phase == 1) else k.phase.astype(dtype)[:, None]
+            if identity:
+                if phase is not None:
+
+                    def rephase(c: NDArray, buf: NDArray = buf, ph: NDArray = phase) -> None:
+                        np.multiply(buf, ph, out=buf)
+
+                    add(rephase)
+                return current
+            other = self.buffers[1 - current]
+            perm = k.perm.astype(np.intp)
+
+            def permute(c: NDArray, src=buf, dst=other, perm=perm, ph=phase) -> None:  # noqa: ANN001
+                np.take(src, perm, axis=0, out=dst, mode="clip")
+                if ph is not None:
+                    np.multiply(dst, ph, out=dst)
+
+            add(permute)
+            return 1 - current
+        if form.kind == "phase":
+            start, rows = form.coefs
+
+            def phases(
+                c: NDArray, buf: NDArray = buf, lo: int = start, hi: int = start + rows
+            ) -> None:
+                np.multiply(buf, c[lo:hi], out=buf)
+
+            add(phases)
+            return current
+        if k.kind == "one":
+            a, b = self._halves(buf, k.qubits[0])
+            u, v = self._temp(0, a.shape), self._temp(1, a.shape)
+            for op in ops_2x2(form.kind, form.coefs, a, b, u, v):
+                add(op)
+            return current
+        quarters = self._quarters(buf, *k.qubits)
+        shape = quarters[(0, 0)].shape
+        u, v = self._temp(0, shape), self._temp(1, shape)
+        if form.kind.startswith("c-"):
+            for op in ops_2x2(form.kind[2:], form.coefs, quarters[(1, 0)], quarters[(1, 1)], u, v):
+                add(op)
+            return current
+        if form.kind == "diag4":
+            for key, r in zip([(0, 1), (1, 0), (1, 1)], form.coefs, strict=True):
+                for op in ops_2x2("diag", (r,), quarters[key], quarters[key], u, v):
+                    add(op)
+            return current
+        if form.kind == "swap":
+
+            def swap(c: NDArray, x=quarters[(0, 1)], y=quarters[(1, 0)], t=u) -> None:  # noqa: ANN001
+                np.copyto(t, x)
+                np.copyto(x, y)
+                np.copyto(y, t)
+
+            add(swap)
+            return current
+        if form.kind == "pairs":
+            outer, inner = form.coefs
+            for op in ops_2x2("shear", (outer, outer), quarters[(0, 0)], quarters[(1, 1)], u, v):
+                add(op)
+            for op in ops_2x2("shear", (inner, inner), quarters[(0, 1)], quarters[(1, 0)], u, v):
+                add(op)
+            return current
+        # general 4x4 (not used by today's gate table beyond swap, kept for new gates)
+        order = [(0, 0), (0, 1), (1, 0), (1, 1)]
+        subs = [quarters[key] for key in order]
+        olds = [np.empty(shape, dtype=dtype) for _ in range(4)]
+        if len(form.coefs) == 1:
+            fixed = form.coefs[0]
+            entries = [[complex(fixed[i, j]) for j in range(4)] for i in range(4)]
+        else:
+            entries = [[form.coefs[4 * i + j] for j in range(4)] for i in range(4)]
+
+        def general4(c: NDArray) -> None:
+            for s, o in zip(subs, olds, strict=True):
+                np.copyto(o, s)
+            for i in range(4):
+                subs[i][...] = 0
+                for j in range(4):
+                    e = entries[i][j]
+                    if isinstance(e, complex):
+                        if e == 0:
+                            continue
+                        np.multiply(olds[j], e, out=u)
+                    else:
+                        np.multiply(olds[j], c[e], out=u)
+                    np.add(subs[i], u, out=subs[i])
+
+        add(general4)
+        return current
+
+
+# -- gather and scatter -------------------------------------------------------------------
+
+
+def _layout(n: int, local: tuple[int, ...], tile_log: int):  # noqa: ANN202
+    """How one state of a large circuit is cut into a segment's tiles.
+
+    Returns the reshape of the state into runs of adjacent qubits, the transpose that
+    puts the (tile-selecting, local, column) runs in that order, the number of selecting
+    runs and the column count.
+    """
+    others = [q for q in range(n) if q not in local]
+    width = max(0, min(len(others), tile_log - len(local)))
+    columns = set(others[len(others) - width :])
+    cls = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
+    runs: list[tuple[str, int]] = []
+    for c in cls:
+        if runs and runs[-1][0] == c:
+            runs[-1] = (c, runs[-1][1] + 1)
+        else:
+            runs.append((c, 1))
+    shape = tuple(1 << size for _, size in runs)
+    order = [i for kind in "fqw" for i, (c, _) in enumerate(runs) if c == kind]
+    select = sum(1 for c, _ in runs if c == "f")
+    return shape, tuple(order), select, 1 << width
+
+
+_local = threading.local()
+
+
+def _state() -> tuple[_Pool, dict]:
+    pool = getattr(_local, "pool", None)
+    if pool is None:
+        pool = _local.pool = _Pool()
+        _local.tiles = {}
+    return pool, _local.tiles
+
+
+def scratch(dtype: np.dtype, index: int, size: int) -> NDArray:
+    """A flat scratch array of ``size`` elements from the per-thread pool.
+
+    Indices 0-3 are the tiles'; the gate-by-gate path uses 10 and up.
+    """
+    pool, _ = _state()
+    return pool.get(dtype, index, _power_of_two(size))[:size]
+
+
+def _bound(
+    schedule: Schedule, s: int, forms: list[Form], columns: int, dtype: np.dtype, size: int
+) -> _Tile:
+    """Bound operations of segment ``s`` for a tile width, reused between calls (LRU)."""
+    pool, tiles = _state()
+    key = (id(schedule), s, columns, np.dtype(dtype).str, size)
+    entry = tiles.pop(key, None)
+    if entry is None or entry[0] is not schedule:
+        entry = (schedule, _Tile(schedule.segments[s], forms, columns, dtype, pool, size))
+    tiles[key] = entry
+    while len(tiles) > 64:
+        tiles.pop(next(iter(tiles)))
+    return entry[1]
+
+
+def _power_of_two(x: int) -> int:
+    """Smallest power of two >= x (pool arrays come in a few sizes)."""
+    return 1 << max(0, (x - 1).bit_length())
+
+
+def _slots(plan, schedule: Schedule, s: int, dtype: np.dtype) -> int:  # noqa: ANN001
+    """Coefficient slots of segment ``s`` (one dry evaluation, kept with the schedule)."""
+    key = ("slots", s)
+    if key not in schedule.extra:
+        _, table = evaluate(plan, schedule.segments[s], np.zeros((1, plan.parameters)), dtype)
+        schedule.extra[key] = table.shape[0]
+    return schedule.extra[key]
+
+
+def _scale(forms: list[Form], table: NDArray, dtype: np.dtype):  # noqa: ANN202
+    """Running per-sample factor of a segment, and rare mid-segment rescales.
+
+    The factor has shape (w,) (or is None); the rescales ``{column: [(kernel position,
+    multiplier), ...]}`` keep it above :func:`_tiny`.
+    """
+    tiny = _tiny(dtype)
+    width = table.shape[1]
+    scale = None
+    marks: dict[int, list] = {}
+    for pos, form in enumerate(forms):
+        f = form.factor
+        if f is None:
+            continue
+        value = table[f] if isinstance(f, int) else np.full(width, f, dtype=dtype)
+        scale = value.copy() if scale is None else scale * value
+        low = np.flatnonzero(np.abs(scale) < tiny)
+        for i in low.tolist():
+            marks.setdefault(i, []).append((pos, scale[i]))
+        scale[low] = 1.0
+    return scale, marks
+
+
+def execute(
+    plan,  # noqa: ANN001
+    schedule: Schedule,
+    thetas: NDArray,
+    states: NDArray,
+    *,
+    tile: int = TILE_AMPLITUDES,
+) -> None:
+    """Apply ``schedule`` in place to ``states`` (shape ``(B, 2**n)``, C-contiguous).
+
+    ``tile`` (amplitudes per tile, a power of two) changes speed only.
+    """
+    if states.shape[0] == 0:
+        return
+    old = np.getbufsize()
+    np.setbufsize(BUFFER_SIZE)
+    try:
+        for s in range(len(schedule.segments)):
+            if len(schedule.segments[s].qubits) == schedule.qubits:
+                _by_samples(plan, schedule, s, thetas, states, tile)
+            else:
+                _by_tiles(plan, schedule, s, thetas, states, tile)
+    finally:
+        np.setbufsize(old)
+
+
+def _by_samples(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> None:  # noqa: ANN001
+    """A segment over every qubit: tiles are blocks of samples, one column each."""
+    seg = schedule.segments[s]
+    n = schedule.qubits
+    batch = states.shape[0]
+    dtype = states.dtype
+    slots = _slots(plan, schedule, s, dtype)
+    limit = max(1, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize))
+    width = max(1, min(batch, max(64, tile >> n), limit))
+    for b0 in range(0, batch, width):
+        b1 = min(batch, b0 + width)
+        forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
+        work = _bound(schedule, s, forms, b1 - b0, dtype, _power_of_two((b1 - b0) << n))
+        np.copyto(work.buffers[0], states[b0:b1].T)
+        scale, marks = _scale(forms, table, dtype)
+        _run_ops(work, table, [(i, e) for i, es in marks.items() for e in es], column=True)
+        out = work.buffers[work.final]
+        if scale is None:
+            np.copyto(states[b0:b1], out.T)
+        else:
+            np.multiply(out.T, scale[:, None], out=states[b0:b1])
+
+
+def _by_tiles(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> None:  # noqa: ANN001
+    """A segment of a larger circuit: tiles are slices of one sample's state."""
+    seg = schedule.segments[s]
+    n = schedule.qubits
+    batch = states.shape[0]
+    dtype = states.dtype
+    shape, order, select, columns = _layout(n, seg.qubits, tile.bit_length() - 1)
+    fshape = tuple(shape[i] for i in order[:select])
+    inner = tuple(shape[i] for i in order[select:])
+    ones = (1,) * len(inner)
+    size = _power_of_two(columns << len(seg.qubits))
+    slots = _slots(plan, schedule, s, dtype)
+    width = max(1, min(batch, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize)))
+    for b0 in range(0, batch, width):
+        b1 = min(batch, b0 + width)
+        forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
+        work = _bound(schedule, s, forms, columns, dtype, size)
+        first = work.buffers[0].reshape(inner)
+        out = work.buffers[work.final].reshape(inner)
+        scale, marks = _scale(forms, table, dtype)
+        for i in range(b1 - b0):
+            c = table[:, i : i + 1]
+            events = [(None, e) for e in marks.get(i, ())]
+            factor = None if scale is None else scale[i : i + 1].reshape(ones)
+            view = states[b0 + i].reshape(shape).transpose(order)
+            for f in np.ndindex(*fshape):
+                part = view[f]
+                np.copyto(first, part)
+                _run_ops(work, c, events, column=False)
+                if factor is None:
+                    np.copyto(part, out)
+                else:
+                    np.multiply(out, factor, out=part)
+
+
+def _run_ops(tile: _Tile, c: NDArray, events: list, *, column: bool) -> None:
+    """Run a tile's operations.
+
+    ``events`` are rare mid-segment rescales ``(column or None, (kernel position,
+    multiplier))``.
+    """
+    if not events:
+        for op in tile.ops:
+            op(c)
+        return
+    by_pos: dict[int, list] = {}
+    for col, (pos, mult) in events:
+        by_pos.setdefault(pos, []).append((col, mult))
+    for pos, group in enumerate(tile.groups):
+        for op in group:
+            op(c)
+        for col, mult in by_pos.get(pos, ()):
+            buf = tile.buffers[tile.holder[pos]]
+            if column:
+                buf[:, col] *= mult
+            else:
+                buf *= mult

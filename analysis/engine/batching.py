@@ -1,0 +1,256 @@
+"""Shared loops: simulate parameter vectors chunk by chunk, optionally in worker processes.
+
+Sample ``k`` of a stream always gets row ``k`` of the stream's random parameters
+(:mod:`haarline.engine.sampling`) and the engine applies the same operations to it whatever the
+chunk, so a per-sample result is a pure function of ``(program, seed, stream, k)``.
+:func:`sample_map` and :func:`block_map` use that: with ``workers > 1`` they cut the
+samples into blocks of whole :data:`~haarline.engine.sampling.BLOCK_SIZE` rows, compute the
+blocks in a pool of worker processes and put the results back in sample order, so the
+numbers are bit-identical to a single worker's.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import threading
+from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import Future, ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
+from typing import Any
+
+import numpy as np
+from haarline.circuit.program import Program
+from haarline.engine.sampling import BLOCK_SIZE, draw_angles
+from haarline.engine.statevector import Plan, compile_program, rows_per_chunk, run
+from haarline.errors import OptionError, Problem
+from numpy.typing import NDArray
+
+__all__ = [
+    "MAX_WORKERS",
+    "PARALLEL_WORK",
+    "Progress",
+    "block_map",
+    "blocks_for",
+    "check_workers",
+    "chunked_states",
+    "sample_map",
+    "worker_count",
+]
+
+Progress = Callable[[str, int, int], None]
+"""Progress callback: ``(stage, done, total)``."""
+
+MAX_WORKERS = 64
+"""Most worker processes a sampled metric may use."""
+
+PARALLEL_WORK = 1 << 21
+"""Gate applications x amplitudes below which a call runs in-process even when workers
+are asked for: a round trip to the pool costs more than such work (and the numbers are
+the same either way)."""
+
+BLOCKS_PER_WORKER = 2
+"""Blocks handed to each worker (two, so that a slow block does not idle the others for
+long; every block costs a round trip to a worker)."""
+
+
+def worker_count(workers: int, program: Program, samples: int, per_sample: int = 1) -> int:
+    """The worker processes a call actually uses: ``workers``, or 1 for small work.
+
+    The work of a sample is estimated as ``per_sample`` circuit runs of ``G`` gates on
+    ``2**n`` amplitudes.
+    """
+    work = samples * per_sample * max(1, len(program.operations)) << program.qubits
+    return 1 if work < PARALLEL_WORK else workers
+
+
+def check_workers(workers: int) -> int:
+    """Validate a worker count; raise :class:`~haarline.errors.OptionError` otherwise."""
+    if isinstance(workers, bool) or not isinstance(workers, int) or not 1 <= workers <= MAX_WORKERS:
+        raise OptionError(
+            [Problem("workers", f"expected an integer from 1 to {MAX_WORKERS}, got {workers!r}")]
+        )
+    return workers
+
+
+def chunked_states(
+    program: Program,
+    *,
+    count: int,
+    copies: int,
+    seed: int,
+    stream: int | tuple[int, ...],
+    memory_budget: int,
+    dtype: type = np.complex128,
+    progress: Progress | None = None,
+    stage: str = "",
+    start: int = 0,
+) -> Iterator[tuple[int, NDArray]]:
+    """Yield ``(offset, states)`` with ``states`` of shape ``(rows, copies, 2**n)``.
+
+    Sample ``start + offset + i`` uses row ``start + offset + i`` of the stream, of width
+    ``copies * P``: ``copies`` independent parameter vectors (2 for fidelity pairs). The
+    chunk size follows from the memory budget; the numbers do not. The yielded array is
+    reused for the next chunk: use it before asking for the next one.
+    """
+    plan: Plan = compile_program(program)
+    p = program.parameters
+    rows = max(1, min(count, rows_per_chunk(program.qubits, memory_budget, dtype) // copies))
+    buffer: NDArray = np.empty((rows * copies, 1 << program.qubits), dtype=dtype)
+    done = 0
+    if progress is not None:
+        progress(stage, 0, count)
+    while done < count:
+        k = min(rows, count - done)
+        thetas = draw_angles(seed, stream, start + done, k, copies * p).reshape(k * copies, p)
+        states = buffer[: k * copies]
+        states.fill(0)
+        states[:, 0] = 1.0
+        run(plan, thetas, states=states)
+        yield done, states.reshape(k, copies, -1)
+        done += k
+        if progress is not None:
+            progress(stage, done, count)
+
+
+def _sample_block(
+    func: Callable[[NDArray, int], NDArray],
+    program: Program,
+    start: int,
+    count: int,
+    options: dict[str, Any],
+) -> NDArray:
+    """Values of samples ``start .. start+count-1`` (runs in a worker process)."""
+    out: NDArray | None = None
+    for offset, states in chunked_states(program, count=count, start=start, **options):
+        values = func(states, program.qubits)
+        if out is None:
+            out = np.empty((count, *values.shape[1:]), dtype=values.dtype)
+        out[offset : offset + len(values)] = values
+    assert out is not None
+    return out
+
+
+def sample_map(
+    func: Callable[[NDArray, int], NDArray],
+    program: Program,
+    *,
+    count: int,
+    copies: int,
+    seed: int,
+    stream: int | tuple[int, ...],
+    memory_budget: int,
+    dtype: type = np.complex128,
+    workers: int = 1,
+    progress: Progress | None = None,
+    stage: str = "",
+) -> NDArray:
+    """``func(states, n)`` for every sample, in sample order: an array ``(count, ...)``.
+
+    ``func`` maps a chunk of states ``(rows, copies, 2**n)`` to one value (or row of
+    values) per sample; it must be a module-level function when ``workers > 1``. With
+    ``workers`` processes each holds its own chunk, so each gets ``memory_budget /
+    workers``.
+    """
+    workers = worker_count(check_workers(workers), program, count, copies)
+    if count <= 0:
+        return np.empty(0)
+    options: dict[str, Any] = {
+        "copies": copies,
+        "seed": seed,
+        "stream": stream,
+        "memory_budget": memory_budget // workers,
+        "dtype": dtype,
+    }
+    if workers == 1:
+        options.update(progress=progress, stage=stage)
+        return _sample_block(func, program, 0, count, options)
+    parts = block_map(
+        _sample_block,
+        [(func, program, s, c, options) for s, c in blocks_for(count, workers)],
+        workers=workers,
+        progress=progress,
+        stage=stage,
+        sizes=[c for _, c in blocks_for(count, workers)],
+    )
+    return np.concatenate(parts)
+
+
+def blocks_for(count: int, workers: int) -> list[tuple[int, int]]:
+    """Cut ``count`` samples into ``(start, count)`` blocks of whole sampling blocks.
+
+    Examples
+    --------
+    >>> blocks_for(300, 2)
+    [(0, 128), (128, 128), (256, 44)]
+    """
+    if workers <= 1:
+        return [(0, count)]
+    per = -(-count // (workers * BLOCKS_PER_WORKER))
+    per = max(BLOCK_SIZE, -(-per // BLOCK_SIZE) * BLOCK_SIZE)
+    return [(s, min(per, count - s)) for s in range(0, count, per)]
+
+
+_pools: dict[int, ProcessPoolExecutor] = {}
+_pools_lock = threading.Lock()
+
+
+def _pool(workers: int) -> ProcessPoolExecutor:
+    """A process pool of ``workers`` processes, started once and kept for later calls.
+
+    Workers are started with ``spawn`` (no state inherited from the caller), like the
+    service's own pool; the first call pays their start-up (about a second). As with any
+    ``spawn`` pool, a script that asks for ``workers > 1`` must guard its entry point
+    with ``if __name__ == "__main__":``.
+    """
+    with _pools_lock:
+        pool = _pools.get(workers)
+        if pool is None:
+            pool = _pools[workers] = ProcessPoolExecutor(
+                max_workers=workers,
+                mp_context=multiprocessing.get_context("spawn"),
+            )
+        return pool
+
+
+def block_map(
+    func: Callable[..., Any],
+    tasks: Sequence[tuple],
+    *,
+    workers: int,
+    progress: Progress | None = None,
+    stage: str = "",
+    sizes: Sequence[int] | None = None,
+) -> list[Any]:
+    """``[func(*task) for task in tasks]``, computed by ``workers`` processes.
+
+    ``func`` and the task arguments must be picklable (module-level functions, plain
+    data). ``sizes`` (samples per task) drives the progress callback.
+    """
+    workers = check_workers(workers)
+    sizes = list(sizes) if sizes is not None else [1] * len(tasks)
+    total = sum(sizes)
+    if progress is not None:
+        progress(stage, 0, total)
+    if workers == 1 or len(tasks) <= 1:
+        out, done = [], 0
+        for task, size in zip(tasks, sizes, strict=True):
+            out.append(func(*task))
+            done += size
+            if progress is not None:
+                progress(stage, done, total)
+        return out
+    pool = _pool(workers)
+    try:
+        futures: list[Future] = [pool.submit(func, *task) for task in tasks]
+        done = 0
+        for future, size in zip(futures, sizes, strict=True):
+            future.result()
+            done += size
+            if progress is not None:
+                progress(stage, done, total)
+    except BrokenProcessPool:
+        with _pools_lock:  # a dead pool is not kept for the next call
+            if _pools.get(workers) is pool:
+                del _pools[workers]
+        raise
+    return [f.result() for f in futures]

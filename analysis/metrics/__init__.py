@@ -1,0 +1,4 @@
+"""One module per metric.
+
+And the statistics they share: Haar values, intervals, cost operators, gradients.
+"""

@@ -1,0 +1,107 @@
+"""Turning a request body into a stored request, after admission control.
+
+Resolves the circuit source (description, OpenQASM program or reference name), checks it
+at every size the options ask for, estimates cost and memory, and builds the canonical
+request whose hash identifies identical work.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from typing import Any
+
+import haarline
+from haarline.service.api.schemas import AnalysisCreate, CircuitSource, CompareCreate
+from haarline.service.errors import OverLimit
+from haarline.service.jobs.worker import circuit_of
+from haarline.service.settings import Settings
+
+__all__ = ["admit_analysis", "admit_compare", "request_hash"]
+
+
+def _resolve(source: CircuitSource, path: str) -> tuple[haarline.Circuit, dict[str, Any]]:
+    spec: dict[str, Any] = {
+        "circuit": source.circuit.model_dump(mode="json", exclude_none=True)
+        if source.circuit is not None
+        else None,
+        "qasm": source.qasm,
+        "reference": source.reference,
+    }
+    field = (
+        "circuit"
+        if source.circuit is not None
+        else ("reference" if source.reference is not None else "qasm")
+    )
+    try:
+        circuit = circuit_of(spec)
+        haarline.expand(circuit)
+    except haarline.InputError as exc:
+        # name the field that held the circuit: circuit.layer[0]…, reference, qasm
+        exc.body_path = field if path == "(root)" else f"{path}.{field}"  # type: ignore[attr-defined]
+        raise
+    stored: dict[str, Any] = {"circuit": circuit.model_dump(mode="json", exclude_none=True)}
+    if source.reference:
+        stored["reference"] = source.reference
+    return circuit, stored
+
+
+_PART = {"layers_sweep": "the layer sweep"} | {m: f"the {m} metric" for m in haarline.METRICS}
+
+
+def _check_limits(estimate: haarline.Estimate, settings: Settings, cap: float, route: str) -> None:
+    if estimate.cost > cap:
+        hint = (
+            "lower pairs, samples, grad_samples or the scan, or submit it as a job with "
+            "POST /v1/analyses"
+            if route == "score"
+            else "lower pairs, samples, grad_samples, the scan or the qubit count"
+        )
+        top = estimate.largest()
+        if top is not None:
+            share = estimate.parts[top] / estimate.cost
+            hint = f"{_PART.get(top, top)} accounts for {share:.0%} of it; {hint}"
+        raise OverLimit("cost (amplitude-gate updates)", cap, estimate.cost, hint)
+    if estimate.memory > settings.max_memory_bytes:
+        raise OverLimit(
+            "memory (bytes)",
+            settings.max_memory_bytes,
+            estimate.memory,
+            "lower the qubit count or the capacity points",
+        )
+
+
+def request_hash(kind: str, request: dict[str, Any]) -> str:
+    """Canonical hash of (kind, circuit(s), options, seed, version)."""
+    body = {"kind": kind, "version": haarline.__version__, **request}
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"), allow_nan=False)
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def admit_analysis(
+    body: AnalysisCreate, settings: Settings, *, route: str = "job"
+) -> tuple[dict[str, Any], haarline.Estimate]:
+    """Validate, estimate and canonicalize an analysis request."""
+    circuit, stored = _resolve(body, "(root)")
+    options = body.options
+    estimate = haarline.estimate(circuit, options, memory_budget=settings.memory_budget)
+    cap = settings.max_score_cost if route == "score" else settings.max_cost
+    _check_limits(estimate, settings, cap, route)
+    return {**stored, "options": options.model_dump(mode="json")}, estimate
+
+
+def admit_compare(
+    body: CompareCreate, settings: Settings
+) -> tuple[dict[str, Any], haarline.Estimate]:
+    """Validate, estimate and canonicalize a comparison request."""
+    circuits = []
+    total_cost, memory = 0.0, 0
+    for i, source in enumerate(body.circuits):
+        circuit, stored = _resolve(source, f"circuits[{i}]")
+        est = haarline.estimate(circuit, body.options, memory_budget=settings.memory_budget)
+        total_cost += est.cost
+        memory = max(memory, est.memory)
+        circuits.append(stored)
+    estimate = haarline.Estimate(cost=total_cost, memory=memory)
+    _check_limits(estimate, settings, settings.max_cost, "job")
+    return {"circuits": circuits, "options": body.options.model_dump(mode="json")}, estimate

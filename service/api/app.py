@@ -1,0 +1,52 @@
+"""The application factory: it only assembles settings, store, runner, routes and handlers."""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+
+import haarline
+from fastapi import FastAPI
+from haarline.service.api.limits import BodyLimit
+from haarline.service.api.problems import install_handlers, install_openapi
+from haarline.service.api.routes import jobs, meta, pages
+from haarline.service.jobs.executor import Runner
+from haarline.service.jobs.store import Store
+from haarline.service.settings import Settings
+
+__all__ = ["create_app"]
+
+log = logging.getLogger("haarline.service")
+
+
+def create_app(settings: Settings | None = None, *, start_runner: bool = True) -> FastAPI:
+    """Build the service from settings (default: from ``HAARLINE_*`` variables)."""
+    settings = settings or Settings.from_env()
+    store = Store(settings.database)
+    store.initialize()
+    runner = Runner(settings, store)
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        if settings.dev_mode:
+            log.warning("DEVELOPMENT MODE: no API keys are checked; loopback only")
+        if start_runner:
+            runner.start()
+        yield
+        runner.stop()
+
+    app = FastAPI(
+        title="haarline",
+        version=haarline.__version__,
+        summary="Score parameterized quantum circuits: expressibility, entangling capability, "
+        "trainability and capacity.",
+        lifespan=lifespan,
+    )
+    app.state.settings, app.state.store, app.state.runner = settings, store, runner
+    install_handlers(app)
+    install_openapi(app)
+    for router in (jobs.analyses, jobs.comparisons, pages.router, meta.v1, meta.health):
+        app.include_router(router)
+    app.add_middleware(BodyLimit, limit=settings.max_body_bytes, timeout=settings.read_timeout)
+    return app

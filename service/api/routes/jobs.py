@@ -1,0 +1,242 @@
+"""Job routes: create, read, list, cancel, and fetch report, summary and plots.
+
+The same routes serve analyses (``/v1/analyses``) and comparisons (``/v1/comparisons``).
+A key sees only its own jobs: another key's job id answers 404, exactly like an unknown id.
+"""
+
+import re
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Header, HTTPException, Query, Response
+from fastapi.responses import JSONResponse
+from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
+from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from haarline.service.api.problems import problem_response, problem_responses
+from haarline.service.api.schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
+from haarline.service.jobs.backoff import full_queue_wait
+from haarline.service.jobs.space import require_free_space
+
+__all__ = ["analyses", "comparisons"]
+
+PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
+MAX_OFFSET = 1_000_000_000
+"""Largest listing offset (SQLite integers stop at 2**63 - 1; a 422 rather than a 500)."""
+
+IdempotencyKey = Annotated[
+    str | None,
+    Header(
+        alias="Idempotency-Key",
+        max_length=200,
+        description="Retrying a POST with the same key returns the first job.",
+    ),
+]
+
+
+def _owned(store: Any, job_id: str, caller: str, kind: str) -> dict[str, Any]:
+    job = store.get_job(job_id, owner=caller) if re.fullmatch(r"[0-9a-f]{32}", job_id) else None
+    if job is None or job["kind"] != kind:
+        raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
+    return job
+
+
+def _get(store: Any, job_id: str) -> dict[str, Any]:
+    job = store.get_job(job_id)
+    if job is None:
+        raise HTTPException(404, f"no job {job_id!r}")
+    return job  # type: ignore[no-any-return]
+
+
+def _finished(store: Any, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
+    if job["state"] != "succeeded":
+        what = {
+            "queued": "is queued",
+            "running": f"is running ({job['fraction']:.0%}, {job['stage']})",
+            "failed": f"failed: {job['error']}",
+            "cancelled": "was cancelled",
+        }[job["state"]]
+        raise HTTPException(409, f"job {job['id']} {what}; it has no result")
+    result = store.result(job["id"])
+    if result is None:
+        raise HTTPException(409, f"job {job['id']} has no stored result")
+    return result
+
+
+def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
+    router = APIRouter(prefix=prefix, tags=[plural])
+    base = prefix
+    Body = AnalysisCreate if kind == "analysis" else CompareCreate
+    title = noun.capitalize()
+
+    @router.post(
+        "",
+        status_code=202,
+        response_model=JobPublic,
+        operation_id=f"create{title}",
+        summary=f"Start {'an' if noun[0] in 'aeiou' else 'a'} {noun} job",
+        responses=problem_responses(401, 408, 409, 413, 422, 429, 503),
+    )
+    def create(
+        body: Body,  # type: ignore[valid-type]
+        caller: CallerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        runner: RunnerDep,
+        response: Response,
+        idempotency_key: IdempotencyKey = None,
+    ) -> Any:
+        if kind == "analysis":
+            request, _ = admit_analysis(body, settings)
+        else:
+            request, _ = admit_compare(body, settings)
+        digest = request_hash(kind, request)
+        if idempotency_key is not None:
+            previous = store.find_idempotent(caller, idempotency_key)
+            if previous is not None:
+                if previous["request_hash"] != digest:
+                    return problem_response(
+                        409,
+                        "this Idempotency-Key was used with a different request body",
+                        kind="idempotency-conflict",
+                    )
+                response.status_code = 200
+                response.headers["Location"] = f"{base}/{previous['id']}"
+                response.headers["Idempotent-Replayed"] = "true"
+                return job_public(_get(store, previous["id"]), base)
+        require_free_space(store, settings)  # before the new job is written
+        if store.active_count(caller) >= settings.queue_per_key:
+            return problem_response(
+                429,
+                f"this key already has {settings.queue_per_key} queued or running jobs, the "
+                "limit; retry later",
+                kind="queue-full",
+                headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
+            )
+        job, created = store.create_job(
+            owner=caller,
+            kind=kind,
+            request=request,
+            request_hash=digest,
+            idempotency_key=idempotency_key,
+        )
+        if created:
+            source = store.find_finished(digest)
+            if source is not None and source != job["id"]:
+                store.copy_result(source, job["id"])
+            else:
+                runner.notify()
+        response.headers["Location"] = f"{base}/{job['id']}"
+        return job_public(_get(store, job["id"]), base)
+
+    @router.get(
+        "",
+        response_model=list[JobPublic],
+        operation_id=f"list{plural.capitalize()}",
+        summary=f"List this key's {noun} jobs, newest first",
+        responses=problem_responses(401, 422, 503),
+    )
+    def listing(
+        caller: CallerDep,
+        store: StoreDep,
+        limit: Annotated[int, Query(ge=1, le=200)] = 50,
+        offset: Annotated[int, Query(ge=0, le=MAX_OFFSET)] = 0,
+    ) -> Any:
+        jobs = store.list_jobs(caller, kind=kind, limit=limit, offset=offset)
+        return [job_public(j, base) for j in jobs if j["kind"] == kind]
+
+    @router.get(
+        "/{job_id}",
+        response_model=JobPublic,
+        operation_id=f"get{title}",
+        summary="Status and progress",
+        responses=problem_responses(401, 404, 503),
+    )
+    def status(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+        return job_public(_owned(store, job_id, caller, kind), base)
+
+    @router.delete(
+        "/{job_id}",
+        status_code=202,
+        response_model=JobPublic,
+        operation_id=f"cancel{title}",
+        summary="Cancel a queued or running job",
+        responses=problem_responses(401, 404, 503),
+    )
+    def cancel(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+        _owned(store, job_id, caller, kind)
+        store.request_cancel(job_id)
+        return job_public(_get(store, job_id), base)
+
+    @router.get(
+        "/{job_id}/report",
+        operation_id=f"get{title}Report",
+        summary="The report JSON (report_format 1)"
+        if kind == "analysis"
+        else "The comparison JSON (compare_format 1): ranking and reports",
+        response_class=JSONResponse,
+        responses={
+            200: {
+                "description": "The report object, with the keys the README lists",
+                "content": {"application/json": {"schema": {"type": "object"}}},
+            },
+            **problem_responses(401, 404, 409, 503),
+        },
+    )
+    def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+        result, _ = _finished(store, _owned(store, job_id, caller, kind))
+        return JSONResponse(result)
+
+    @router.get(
+        "/{job_id}/summary",
+        operation_id=f"get{title}Summary",
+        summary="The Markdown summary",
+        response_class=Response,
+        responses={
+            200: {
+                "description": "Markdown text (UTF-8)",
+                "content": {"text/markdown": {"schema": {"type": "string"}}},
+            },
+            **problem_responses(401, 404, 409, 503),
+        },
+    )
+    def summary(job_id: str, caller: CallerDep, store: StoreDep) -> Response:
+        _, markdown = _finished(store, _owned(store, job_id, caller, kind))
+        return Response(markdown, media_type="text/markdown; charset=utf-8")
+
+    @router.get(
+        "/{job_id}/plots",
+        response_model=list[str],
+        operation_id=f"list{title}Plots",
+        summary="Names of the PNG plots",
+        responses=problem_responses(401, 404, 409, 503),
+    )
+    def plots(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+        job = _owned(store, job_id, caller, kind)
+        _finished(store, job)
+        return store.artifact_names(job_id)
+
+    @router.get(
+        "/{job_id}/plots/{name}",
+        operation_id=f"get{title}Plot",
+        summary="One PNG plot",
+        response_class=Response,
+        responses={
+            200: {
+                "description": "A PNG image",
+                "content": {"image/png": {"schema": {"type": "string", "format": "binary"}}},
+            },
+            **problem_responses(401, 404, 409, 503),
+        },
+    )
+    def plot(job_id: str, name: str, caller: CallerDep, store: StoreDep) -> Response:
+        job = _owned(store, job_id, caller, kind)
+        _finished(store, job)
+        content = store.artifact(job_id, name) if PLOT_NAME.fullmatch(name) else None
+        if content is None:
+            raise HTTPException(404, f"no plot {name!r}; see {base}/{job_id}/plots")
+        return Response(content, media_type="image/png")
+
+    return router
+
+
+analyses = _router("analysis", "/v1/analyses", "analysis", "analyses")
+comparisons = _router("compare", "/v1/comparisons", "comparison", "comparisons")

@@ -1,0 +1,164 @@
+"""Report pages and the signed links that open them without an API key.
+
+``GET /v1/analyses/{id}/page`` (and ``/v1/comparisons/{id}/page``) answers the owner's key
+or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is expired,
+tampered with or made for another job: 403. The page is self-contained (PNGs inlined), so
+a token never needs to open anything but the page itself.
+"""
+
+import os
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from fastapi.responses import HTMLResponse
+from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
+from haarline.service.api.deps import DEV_OWNER, CallerDep, SettingsDep, StoreDep
+from haarline.service.api.keys import verify_key
+from haarline.service.api.page import comparison_page, job_page, report_page
+from haarline.service.api.problems import problem_responses
+from haarline.service.api.tokens import MAX_TTL, check_token, load_secret, make_token
+from haarline.service.errors import TokenError
+from pydantic import BaseModel, Field
+
+__all__ = ["router"]
+
+router = APIRouter(tags=["pages"])
+_bearer = HTTPBearer(auto_error=False)
+
+KINDS = {"analyses": "analysis", "comparisons": "compare"}
+
+
+class ShareCreate(BaseModel):
+    """Body of ``POST …/share``."""
+
+    ttl_seconds: int = Field(
+        default=86_400, ge=60, le=MAX_TTL, description="How long the link works (60 s to 7 days)."
+    )
+
+
+class SharePublic(BaseModel):
+    """A signed link to one job's page."""
+
+    url: str
+    expires: int = Field(description="Unix time after which the link stops working.")
+
+
+def _secret(request: Request) -> bytes:
+    state = request.app.state
+    if getattr(state, "page_secret", None) is None:
+        state.page_secret = load_secret(
+            state.settings.data_dir, os.environ.get("HAARLINE_PAGE_SECRET")
+        )
+    return state.page_secret  # type: ignore[no-any-return]
+
+
+def _job(store: Any, job_id: str, kind: str) -> dict[str, Any]:
+    job = store.get_job(job_id) if len(job_id) == 32 and job_id.isalnum() else None
+    if job is None or job["kind"] != kind:
+        raise HTTPException(404, f"no such job {job_id!r}")
+    return job  # type: ignore[no-any-return]
+
+
+def _render(store: Any, job: dict[str, Any]) -> str:
+    if job["state"] != "succeeded":
+        return job_page(job)
+    result = store.result(job["id"])
+    if result is None:
+        return job_page({**job, "state": "failed", "error": "the stored result is missing"})
+    report, _ = result
+    images = {name: store.artifact(job["id"], name) for name in store.artifact_names(job["id"])}
+    if job["kind"] == "compare":
+        return comparison_page(report, images)
+    request = job["request"]
+    source = f"{request['reference']}.json" if request.get("reference") else "circuit.json"
+    return report_page(report, images, description=request.get("circuit"), source=source)
+
+
+def _page_route(collection: str) -> None:
+    kind = KINDS[collection]
+    noun = "Analysis" if kind == "analysis" else "Comparison"
+
+    @router.get(
+        f"/v1/{collection}/{{job_id}}/page",
+        response_class=HTMLResponse,
+        operation_id=f"get{noun}Page",
+        summary="The self-contained HTML report page (key or share token)",
+        # the key is optional here: a share token in the query opens the page too (the
+        # key's requirement comes from the dependency; this adds "or nothing")
+        openapi_extra={"security": [{}]},
+        responses={
+            200: {"content": {"text/html": {}}},
+            **problem_responses(401, 403, 404, 422, 503),
+        },
+    )
+    def page(
+        job_id: str,
+        request: Request,
+        settings: SettingsDep,
+        store: StoreDep,
+        credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(_bearer)],
+        token: Annotated[str | None, Query(max_length=300)] = None,
+    ) -> HTMLResponse:
+        if token is not None:
+            try:
+                check_token(_secret(request), token, job_id)
+            except TokenError as exc:
+                raise HTTPException(403, f"this link does not open the page: {exc}") from None
+            job = _job(store, job_id, kind)
+        else:
+            if settings.dev_mode:
+                owner = DEV_OWNER
+            elif credentials is None:
+                raise HTTPException(
+                    401,
+                    "an API key or a share token is required",
+                    headers={"WWW-Authenticate": "Bearer"},
+                )
+            else:
+                owner = verify_key(store, credentials.credentials) or ""
+                if not owner:
+                    raise HTTPException(
+                        401,
+                        "the API key is not valid or was revoked",
+                        headers={"WWW-Authenticate": "Bearer"},
+                    )
+            job = _job(store, job_id, kind)
+            if job["owner"] != owner:
+                raise HTTPException(404, f"no such job {job_id!r}")
+        return HTMLResponse(
+            _render(store, job),
+            headers={
+                "Cache-Control": "no-store",
+                "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
+                "'unsafe-inline'; base-uri 'none'; form-action 'none'",
+                "X-Content-Type-Options": "nosniff",
+                "Referrer-Policy": "no-referrer",
+            },
+        )
+
+    @router.post(
+        f"/v1/{collection}/{{job_id}}/share",
+        response_model=SharePublic,
+        operation_id=f"share{noun}Page",
+        summary="A short-lived signed link to this job's page, for reviewers without a key",
+        responses=problem_responses(401, 404, 408, 413, 422, 503),
+    )
+    def share(
+        job_id: str,
+        request: Request,
+        caller: CallerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        body: ShareCreate | None = None,
+    ) -> SharePublic:
+        job = _job(store, job_id, kind)
+        if job["owner"] != caller:
+            raise HTTPException(404, f"no such job {job_id!r}")
+        ttl = (body or ShareCreate()).ttl_seconds
+        token, expires = make_token(_secret(request), job_id, ttl)
+        url = f"{settings.base_url}/v1/{collection}/{job_id}/page?token={token}"
+        return SharePublic(url=url, expires=expires)
+
+
+_page_route("analyses")
+_page_route("comparisons")

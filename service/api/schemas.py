@@ -1,0 +1,214 @@
+"""Request and response bodies of the REST service, suffixed by role."""
+
+from __future__ import annotations
+
+from typing import Any, Literal
+
+from haarline import AnalysisOptions, Circuit
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+__all__ = [
+    "AnalysisCreate",
+    "CheckCreate",
+    "CircuitSource",
+    "CompareCreate",
+    "EventPublic",
+    "JobLinks",
+    "JobPublic",
+    "ProblemDetail",
+    "ProblemEntry",
+    "ProgressPublic",
+    "ReadyPublic",
+    "ReferencePublic",
+    "job_public",
+]
+
+MAX_QASM_CHARS = 1_000_000
+MAX_NESTING = 32
+"""Deepest nesting of arrays and objects a request body may have (a description needs ~8)."""
+
+
+def _nesting(value: Any) -> int:
+    """Depth of nested lists and dicts, counted without recursion."""
+    deepest, todo = 0, [(value, 1)]
+    while todo:
+        item, depth = todo.pop()
+        if isinstance(item, dict | list):
+            deepest = max(deepest, depth)
+            if depth > MAX_NESTING:
+                break
+            children = item.values() if isinstance(item, dict) else item
+            todo.extend((child, depth + 1) for child in children)
+    return deepest
+
+
+class _Body(BaseModel):
+    """A request body: refuses absurd nesting before any field is looked at.
+
+    Fields typed ``Any`` (a step's ``on``, the cost) accept any JSON, and serializing a value
+    nested hundreds of levels deep fails inside pydantic; such a body is a 422 here instead.
+    """
+
+    @model_validator(mode="before")
+    @classmethod
+    def _shallow(cls, data: Any) -> Any:
+        if _nesting(data) > MAX_NESTING:
+            raise ValueError(
+                f"the body nests arrays and objects more than {MAX_NESTING} levels deep"
+            )
+        return data
+
+
+class CircuitSource(_Body):
+    """Exactly one of: a format-1 description, an OpenQASM 3 program, or a reference name."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    circuit: Circuit | None = Field(default=None, description="A format-1 description.")
+    qasm: str | None = Field(
+        default=None, max_length=MAX_QASM_CHARS, description="An OpenQASM 3 program."
+    )
+    reference: str | None = Field(
+        default=None,
+        max_length=100,
+        description="Name of a bundled reference circuit (see GET /v1/references).",
+    )
+
+    @model_validator(mode="after")
+    def _exactly_one(self) -> CircuitSource:
+        given = [k for k in ("circuit", "qasm", "reference") if getattr(self, k) is not None]
+        if len(given) != 1:
+            raise ValueError(
+                "give exactly one of 'circuit', 'qasm' or 'reference'"
+                + (f" (got {', '.join(given)})" if given else "")
+            )
+        return self
+
+
+class AnalysisCreate(CircuitSource):
+    """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
+
+    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+
+
+class CompareCreate(_Body):
+    """Body of ``POST /v1/comparisons``."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    circuits: list[CircuitSource] = Field(min_length=2, max_length=20)
+    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+
+
+class CheckCreate(CircuitSource):
+    """Body of ``POST /v1/check``: a description, optionally at another size."""
+
+    qubits: int | None = Field(default=None, ge=1, le=24)
+    layers: int | None = Field(default=None, ge=1, le=10_000)
+
+
+class ProgressPublic(BaseModel):
+    """How far a job is."""
+
+    fraction: float = Field(ge=0, le=1)
+    stage: str
+
+
+class EventPublic(BaseModel):
+    """One state change of a job."""
+
+    state: str
+    at: float
+    detail: str | None = None
+
+
+class JobLinks(BaseModel):
+    """Where a job's outputs are."""
+
+    self: str
+    report: str
+    summary: str
+    plots: str
+
+
+class JobPublic(BaseModel):
+    """A job as its owner sees it."""
+
+    id: str
+    kind: Literal["analysis", "compare"]
+    state: Literal["queued", "running", "succeeded", "failed", "cancelled"]
+    progress: ProgressPublic
+    cached: bool = Field(description="Answered from the stored result of an identical request.")
+    error: str | None = None
+    attempts: int
+    created: float
+    updated: float
+    events: list[EventPublic] = Field(default_factory=list)
+    links: JobLinks
+
+
+class ReferencePublic(BaseModel):
+    """A bundled reference circuit."""
+
+    name: str
+    qubits: int
+    layers: int
+    parameters: int
+    description: str
+
+
+class ProblemEntry(BaseModel):
+    """One field problem."""
+
+    path: str
+    message: str
+
+
+class ProblemDetail(BaseModel):
+    """RFC 9457 problem details, with the field paths of validation problems."""
+
+    type: str = "about:blank"
+    title: str
+    status: int
+    detail: str
+    instance: str | None = None
+    errors: list[ProblemEntry] = Field(default_factory=list)
+    limit: float | None = Field(
+        default=None,
+        description="over-limit: the cost or memory limit; score-timeout: the limit in seconds.",
+    )
+    estimate: float | None = Field(default=None, description="over-limit: the estimate.")
+    free_bytes: int | None = Field(
+        default=None, description="low-disk-space: free bytes in the data directory."
+    )
+    min_free_bytes: int | None = Field(
+        default=None, description="low-disk-space: the configured minimum."
+    )
+
+
+class ReadyPublic(BaseModel):
+    """The answer of a ready service."""
+
+    status: Literal["ready"] = "ready"
+    free_bytes: int = Field(description="Free bytes on the data directory's file system.")
+    min_free_bytes: int = Field(description="Below this, readiness fails (503).")
+
+
+def job_public(job: dict[str, Any], base: str) -> JobPublic:
+    """Render a stored job for its owner, with links under ``base``."""
+    root = f"{base}/{job['id']}"
+    return JobPublic(
+        id=job["id"],
+        kind=job["kind"],
+        state=job["state"],
+        progress=ProgressPublic(fraction=job["fraction"], stage=job["stage"]),
+        cached=job["cached"],
+        error=job["error"] if job["state"] != "succeeded" else None,
+        attempts=job["attempts"],
+        created=job["created"],
+        updated=job["updated"],
+        events=[EventPublic(**e) for e in job.get("events", [])],
+        links=JobLinks(
+            self=root, report=f"{root}/report", summary=f"{root}/summary", plots=f"{root}/plots"
+        ),
+    )

@@ -1,0 +1,4 @@
+"""The ``haarline`` command line.
+
+Argument parsing, output files, progress, ``serve`` and ``keys``.
+"""

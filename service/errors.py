@@ -1,0 +1,101 @@
+"""Every exception the service raises, in one place.
+
+The core's own tree (input problems, limits, policies) is in :mod:`haarline.errors`; the
+service adds the conditions of a running server. ``api/problems.py`` turns each into its
+HTTP answer, the CLI turns input problems into exit code 2::
+
+    Exception
+    ├── SettingsError        a HAARLINE_* setting is invalid or unsafe (start-up refused)
+    ├── StoreUnavailable     the job store is locked, full or unreadable (503)
+    ├── Unavailable          the service cannot serve now: low disk, busy score pool (503)
+    ├── TimedOut             synchronous work ran past its limit and was stopped (504)
+    ├── OverLimit            estimated work or memory above a configured limit (422)
+    ├── TokenError           a page link is malformed, tampered with or expired (403)
+    ├── JobCancelled         raised inside a running job when its cancel flag is seen
+    └── haarline.errors.HaarlineError
+        └── InputError
+            └── UsageError   a command-line value argparse let through but we cannot use
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from haarline.errors import InputError
+
+__all__ = [
+    "JobCancelled",
+    "OverLimit",
+    "SettingsError",
+    "StoreUnavailable",
+    "TimedOut",
+    "TokenError",
+    "Unavailable",
+    "UsageError",
+]
+
+
+class SettingsError(Exception):
+    """The configuration is invalid or unsafe; the message says which variable."""
+
+
+class StoreUnavailable(Exception):
+    """The database cannot be used right now (locked, full disk, unreadable)."""
+
+
+class Unavailable(Exception):
+    """The service cannot serve the request right now (503, with ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        What is wrong, for the client.
+    kind : str
+        The problem type's last path segment.
+    retry_after : int, optional
+        Seconds to suggest; by default ``HAARLINE_RETRY_AFTER``.
+    **extra
+        Further members of the problem body (numbers the detail quotes).
+    """
+
+    def __init__(self, detail: str, *, kind: str, retry_after: int | None = None, **extra: Any):
+        self.detail, self.kind, self.retry_after, self.extra = detail, kind, retry_after, extra
+        super().__init__(detail)
+
+
+class TimedOut(Exception):
+    """Work that ran past its wall-clock limit and was stopped (504, no ``Retry-After``).
+
+    Parameters
+    ----------
+    detail : str
+        The limit and what to do instead.
+    kind : str
+        The problem type's last path segment.
+    **extra
+        Further members of the problem body (``limit`` in seconds).
+    """
+
+    def __init__(self, detail: str, *, kind: str, **extra: Any):
+        self.detail, self.kind, self.extra = detail, kind, extra
+        super().__init__(detail)
+
+
+class OverLimit(Exception):
+    """Work whose estimated cost or memory exceeds a configured limit."""
+
+    def __init__(self, what: str, limit: float, estimate: float, hint: str):
+        self.what, self.limit, self.estimate, self.hint = what, limit, estimate, hint
+        super().__init__(f"estimated {what} {estimate:.3g} exceeds the limit {limit:.3g}; {hint}")
+
+
+class TokenError(Exception):
+    """The token is malformed, tampered with, expired or for another job."""
+
+
+class JobCancelled(Exception):
+    """Raised inside the analysis when the job's cancel flag is seen."""
+
+
+class UsageError(InputError):
+    """A command-line value that argparse let through but we cannot use."""

@@ -1,0 +1,464 @@
+"""The job store: one SQLite file (WAL mode) with keys, jobs, state changes, results, PNGs.
+
+Every call opens its own short-lived connection, so the store is safe to use from the
+event loop's threads and from worker processes alike; SQLite's locking serialises the
+writes. A database that is locked for longer than the busy timeout, or a full disk, raises
+:class:`StoreUnavailable`, which the service answers with 503.
+
+Job states: ``queued`` → ``running`` → ``succeeded`` | ``failed`` | ``cancelled``. A job is
+never deleted; every state change is recorded in ``events`` with its time.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+import sqlite3
+import time
+import uuid
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+from haarline.service.errors import StoreUnavailable
+
+__all__ = ["ACTIVE_STATES", "FINAL_STATES", "Store", "StoreUnavailable"]
+
+ACTIVE_STATES = ("queued", "running")
+FINAL_STATES = ("succeeded", "failed", "cancelled")
+
+_SCHEMA = """
+CREATE TABLE IF NOT EXISTS keys (
+    id TEXT PRIMARY KEY, name TEXT NOT NULL, hash TEXT NOT NULL,
+    created REAL NOT NULL, revoked REAL
+);
+CREATE TABLE IF NOT EXISTS jobs (
+    id TEXT PRIMARY KEY, owner TEXT NOT NULL, kind TEXT NOT NULL,
+    request TEXT NOT NULL, request_hash TEXT NOT NULL,
+    idempotency_key TEXT, state TEXT NOT NULL, fraction REAL NOT NULL DEFAULT 0,
+    stage TEXT NOT NULL DEFAULT '', error TEXT, cancel INTEGER NOT NULL DEFAULT 0,
+    attempts INTEGER NOT NULL DEFAULT 0, cached INTEGER NOT NULL DEFAULT 0,
+    created REAL NOT NULL, updated REAL NOT NULL
+);
+CREATE UNIQUE INDEX IF NOT EXISTS jobs_idempotency
+    ON jobs(owner, idempotency_key) WHERE idempotency_key IS NOT NULL;
+CREATE INDEX IF NOT EXISTS jobs_state ON jobs(state, created);
+CREATE INDEX IF NOT EXISTS jobs_hash ON jobs(request_hash, state);
+CREATE TABLE IF NOT EXISTS events (
+    job_id TEXT NOT NULL, state TEXT NOT NULL, at REAL NOT NULL, detail TEXT
+);
+CREATE INDEX IF NOT EXISTS events_job ON events(job_id);
+CREATE TABLE IF NOT EXISTS results (
+    job_id TEXT PRIMARY KEY, report TEXT NOT NULL, markdown TEXT NOT NULL
+);
+CREATE TABLE IF NOT EXISTS artifacts (
+    job_id TEXT NOT NULL, name TEXT NOT NULL, content BLOB NOT NULL,
+    PRIMARY KEY (job_id, name)
+);
+"""
+
+
+class Store:
+    """Access to the SQLite job store at ``path``."""
+
+    def __init__(self, path: str | Path, *, timeout: float = 5.0):
+        self.path = str(path)
+        self.timeout = timeout
+
+    @contextmanager
+    def _connect(self) -> Iterator[sqlite3.Connection]:
+        try:
+            conn = sqlite3.connect(self.path, timeout=self.timeout, isolation_level=None)
+        except sqlite3.Error as exc:
+            raise StoreUnavailable(f"cannot open the job store: {exc}") from None
+        try:
+            conn.row_factory = sqlite3.Row
+            conn.execute(f"PRAGMA busy_timeout = {int(self.timeout * 1000)}")
+            yield conn
+        except sqlite3.OperationalError as exc:
+            if getattr(exc, "sqlite_errorname", "") == "SQLITE_FULL":
+                raise StoreUnavailable(
+                    "the job store is unavailable: the disk of the data directory is full "
+                    f"({exc}); retry once space is freed"
+                ) from None
+            raise StoreUnavailable(f"the job store is unavailable: {exc}") from None
+        except sqlite3.DatabaseError as exc:
+            raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
+        finally:
+            conn.close()
+
+    def initialize(self) -> None:
+        """Create the tables (idempotent) and switch the file to WAL mode."""
+        with self._connect() as conn:
+            conn.execute("PRAGMA journal_mode = WAL")
+            conn.executescript(_SCHEMA)
+
+    def ping(self) -> None:
+        """Raise :class:`StoreUnavailable` unless the database answers a write."""
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            conn.execute("SELECT count(*) FROM jobs").fetchone()
+            conn.execute("ROLLBACK")
+
+    def free_bytes(self) -> int:
+        """Free bytes on the file system of the database's directory (for ``/readyz``)."""
+        try:
+            return shutil.disk_usage(Path(self.path).parent).free
+        except OSError as exc:
+            raise StoreUnavailable(
+                f"cannot see the free space of the job store's directory: {exc.strerror}"
+            ) from None
+
+    # --- keys -------------------------------------------------------------------------------
+
+    def add_key(self, key_id: str, name: str, digest: str) -> None:
+        """Store a key's hash (never the key)."""
+        with self._connect() as conn:
+            conn.execute(
+                "INSERT INTO keys (id, name, hash, created) VALUES (?, ?, ?, ?)",
+                (key_id, name, digest, time.time()),
+            )
+
+    def key_hash(self, key_id: str) -> str | None:
+        """The stored hash of an active key, or ``None``."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT hash FROM keys WHERE id = ? AND revoked IS NULL", (key_id,)
+            ).fetchone()
+        return None if row is None else str(row["hash"])
+
+    def list_keys(self) -> list[dict[str, Any]]:
+        """Every key: id, name, created, revoked (no hashes)."""
+        with self._connect() as conn:
+            rows = conn.execute("SELECT id, name, created, revoked FROM keys ORDER BY created")
+            return [dict(r) for r in rows]
+
+    def revoke_key(self, key_id: str) -> bool:
+        """Revoke a key; ``False`` if there is no such active key."""
+        with self._connect() as conn:
+            cur = conn.execute(
+                "UPDATE keys SET revoked = ? WHERE id = ? AND revoked IS NULL",
+                (time.time(), key_id),
+            )
+            return cur.rowcount == 1
+
+    # --- jobs -------------------------------------------------------------------------------
+
+    def create_job(
+        self,
+        *,
+        owner: str,
+        kind: str,
+        request: dict[str, Any],
+        request_hash: str,
+        idempotency_key: str | None = None,
+    ) -> tuple[dict[str, Any], bool]:
+        """Insert a queued job; with an idempotency key already used, return the old one.
+
+        Returns
+        -------
+        (job, created)
+        """
+        now = time.time()
+        job_id = uuid.uuid4().hex
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            if idempotency_key is not None:
+                row = conn.execute(
+                    "SELECT * FROM jobs WHERE owner = ? AND idempotency_key = ?",
+                    (owner, idempotency_key),
+                ).fetchone()
+                if row is not None:
+                    conn.execute("COMMIT")
+                    return _job(row), False
+            conn.execute(
+                "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
+                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, 'queued', ?, ?)",
+                (job_id, owner, kind, json.dumps(request), request_hash, idempotency_key, now, now),
+            )
+            conn.execute(
+                "INSERT INTO events (job_id, state, at) VALUES (?, 'queued', ?)", (job_id, now)
+            )
+            conn.execute("COMMIT")
+        job = self.get_job(job_id)
+        assert job is not None
+        return job, True
+
+    def find_idempotent(self, owner: str, idempotency_key: str) -> dict[str, Any] | None:
+        """The job an owner created with this idempotency key, if any."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT * FROM jobs WHERE owner = ? AND idempotency_key = ?",
+                (owner, idempotency_key),
+            ).fetchone()
+        return None if row is None else _job(row)
+
+    def copy_result(self, source_id: str, job_id: str) -> bool:
+        """Answer ``job_id`` with the stored result of an identical finished request."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            row = conn.execute(
+                "SELECT report, markdown FROM results WHERE job_id = ?", (source_id,)
+            ).fetchone()
+            if row is None:
+                conn.execute("ROLLBACK")
+                return False
+            conn.execute(
+                "INSERT OR REPLACE INTO results (job_id, report, markdown) VALUES (?, ?, ?)",
+                (job_id, row["report"], row["markdown"]),
+            )
+            conn.execute(
+                "INSERT OR REPLACE INTO artifacts (job_id, name, content) "
+                "SELECT ?, name, content FROM artifacts WHERE job_id = ?",
+                (job_id, source_id),
+            )
+            conn.execute(
+                "UPDATE jobs SET state = 'succeeded', fraction = 1, stage = 'done', cached = 1, "
+                "updated = ? WHERE id = ?",
+                (now, job_id),
+            )
+            conn.execute(
+                "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'succeeded', ?, ?)",
+                (job_id, now, "answered from the stored result of an identical request"),
+            )
+            conn.execute("COMMIT")
+        return True
+
+    def find_finished(self, request_hash: str) -> str | None:
+        """Id of a succeeded job with this request hash, if any."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT id FROM jobs WHERE request_hash = ? AND state = 'succeeded' "
+                "ORDER BY created LIMIT 1",
+                (request_hash,),
+            ).fetchone()
+        return None if row is None else str(row["id"])
+
+    def get_job(self, job_id: str, owner: str | None = None) -> dict[str, Any] | None:
+        """A job by id (and, when given, only if ``owner`` owns it)."""
+        with self._connect() as conn:
+            row = conn.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
+            if row is None or (owner is not None and row["owner"] != owner):
+                return None
+            job = _job(row)
+            job["events"] = [
+                dict(e)
+                for e in conn.execute(
+                    "SELECT state, at, detail FROM events WHERE job_id = ? ORDER BY rowid",
+                    (job_id,),
+                )
+            ]
+        return job
+
+    def list_jobs(
+        self, owner: str, *, kind: str | None = None, limit: int = 50, offset: int = 0
+    ) -> list[dict[str, Any]]:
+        """An owner's jobs (of one kind, when given), newest first."""
+        with self._connect() as conn:
+            rows = conn.execute(
+                "SELECT * FROM jobs WHERE owner = ? AND (? IS NULL OR kind = ?) "
+                "ORDER BY created DESC LIMIT ? OFFSET ?",
+                (owner, kind, kind, limit, offset),
+            ).fetchall()
+        return [_job(r) for r in rows]
+
+    def active_count(self, owner: str) -> int:
+        """Queued or running jobs of an owner."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT count(*) FROM jobs WHERE owner = ? AND state IN ('queued', 'running')",
+                (owner,),
+            ).fetchone()
+        return int(row[0])
+
+    def queued_count(self) -> int:
+        """Queued jobs of every owner."""
+        with self._connect() as conn:
+            row = conn.execute("SELECT count(*) FROM jobs WHERE state = 'queued'").fetchone()
+        return int(row[0])
+
+    def mean_run_seconds(self, recent: int = 20) -> float | None:
+        """Mean run time of the ``recent`` newest succeeded jobs that ran; ``None`` if none.
+
+        A job's run time is from its last ``running`` event to its ``succeeded`` event, so
+        time spent queued does not count; jobs answered from the store never ran and do
+        not count either.
+        """
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT avg(done - started) FROM ("
+                " SELECT (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'running')"
+                "   AS started,"
+                " (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'succeeded')"
+                "   AS done"
+                " FROM jobs AS j WHERE j.state = 'succeeded' AND j.cached = 0"
+                " ORDER BY j.created DESC LIMIT ?"
+                ") WHERE started IS NOT NULL AND done IS NOT NULL",
+                (recent,),
+            ).fetchone()
+        return None if row[0] is None else float(row[0])
+
+    def queued(self, limit: int) -> list[str]:
+        """Ids of queued jobs, oldest first."""
+        with self._connect() as conn:
+            rows = conn.execute(
+                "SELECT id FROM jobs WHERE state = 'queued' ORDER BY created LIMIT ?", (limit,)
+            ).fetchall()
+        return [str(r["id"]) for r in rows]
+
+    def requeue_interrupted(self) -> list[str]:
+        """After a restart: put every running job back in the queue; return all active ids."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            rows = conn.execute("SELECT id FROM jobs WHERE state = 'running'").fetchall()
+            for r in rows:
+                conn.execute(
+                    "UPDATE jobs SET state = 'queued', fraction = 0, stage = '', updated = ? "
+                    "WHERE id = ?",
+                    (now, r["id"]),
+                )
+                conn.execute(
+                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'queued', ?, ?)",
+                    (r["id"], now, "requeued after a restart"),
+                )
+            active = conn.execute(
+                "SELECT id FROM jobs WHERE state IN ('queued', 'running') ORDER BY created"
+            ).fetchall()
+            conn.execute("COMMIT")
+        return [str(r["id"]) for r in active]
+
+    def claim(self, job_id: str) -> dict[str, Any] | None:
+        """Move a queued job to running (one attempt more); ``None`` if it is not queued."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            row = conn.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
+            if row is None or row["state"] != "queued" or row["cancel"]:
+                conn.execute("ROLLBACK")
+                return None
+            conn.execute(
+                "UPDATE jobs SET state = 'running', attempts = attempts + 1, stage = 'starting',"
+                " updated = ? WHERE id = ?",
+                (now, job_id),
+            )
+            conn.execute(
+                "INSERT INTO events (job_id, state, at) VALUES (?, 'running', ?)", (job_id, now)
+            )
+            conn.execute("COMMIT")
+        return _job(row)
+
+    def set_progress(self, job_id: str, fraction: float, stage: str) -> bool:
+        """Record progress; return whether a cancel was requested."""
+        with self._connect() as conn:
+            conn.execute(
+                "UPDATE jobs SET fraction = ?, stage = ?, updated = ? WHERE id = ? "
+                "AND state = 'running'",
+                (fraction, stage, time.time(), job_id),
+            )
+            row = conn.execute("SELECT cancel FROM jobs WHERE id = ?", (job_id,)).fetchone()
+        return bool(row and row["cancel"])
+
+    def finish(
+        self,
+        job_id: str,
+        *,
+        report: dict[str, Any],
+        markdown: str,
+        artifacts: dict[str, bytes],
+    ) -> None:
+        """Store the result and mark the job succeeded, in one transaction."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            conn.execute(
+                "INSERT OR REPLACE INTO results (job_id, report, markdown) VALUES (?, ?, ?)",
+                (job_id, json.dumps(report, allow_nan=False), markdown),
+            )
+            for name, content in artifacts.items():
+                conn.execute(
+                    "INSERT OR REPLACE INTO artifacts (job_id, name, content) VALUES (?, ?, ?)",
+                    (job_id, name, content),
+                )
+            conn.execute(
+                "UPDATE jobs SET state = 'succeeded', fraction = 1, stage = 'done', "
+                "updated = ? WHERE id = ? AND state = 'running'",
+                (now, job_id),
+            )
+            conn.execute(
+                "INSERT INTO events (job_id, state, at) VALUES (?, 'succeeded', ?)", (job_id, now)
+            )
+            conn.execute("COMMIT")
+
+    def mark(self, job_id: str, state: str, *, error: str | None = None) -> None:
+        """Move an active job to ``failed``, ``cancelled`` or back to ``queued``."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            cur = conn.execute(
+                "UPDATE jobs SET state = ?, error = ?, updated = ? WHERE id = ? "
+                "AND state IN ('queued', 'running')",
+                (state, error, now, job_id),
+            )
+            if cur.rowcount:
+                conn.execute(
+                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
+                    (job_id, state, now, error),
+                )
+            conn.execute("COMMIT")
+
+    def request_cancel(self, job_id: str) -> str:
+        """Ask a job to stop; a queued job is cancelled at once. Return its state after."""
+        now = time.time()
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            row = conn.execute("SELECT state FROM jobs WHERE id = ?", (job_id,)).fetchone()
+            state = str(row["state"])
+            if state == "queued":
+                conn.execute(
+                    "UPDATE jobs SET state = 'cancelled', cancel = 1, updated = ? WHERE id = ?",
+                    (now, job_id),
+                )
+                conn.execute(
+                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'cancelled', ?, ?)",
+                    (job_id, now, "cancelled before it started"),
+                )
+                state = "cancelled"
+            elif state == "running":
+                conn.execute("UPDATE jobs SET cancel = 1, updated = ? WHERE id = ?", (now, job_id))
+            conn.execute("COMMIT")
+        return state
+
+    def result(self, job_id: str) -> tuple[dict[str, Any], str] | None:
+        """The stored report and Markdown of a finished job."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT report, markdown FROM results WHERE job_id = ?", (job_id,)
+            ).fetchone()
+        return None if row is None else (json.loads(row["report"]), str(row["markdown"]))
+
+    def artifact_names(self, job_id: str) -> list[str]:
+        """Names of a job's stored PNGs."""
+        with self._connect() as conn:
+            rows = conn.execute(
+                "SELECT name FROM artifacts WHERE job_id = ? ORDER BY name", (job_id,)
+            ).fetchall()
+        return [str(r["name"]) for r in rows]
+
+    def artifact(self, job_id: str, name: str) -> bytes | None:
+        """One stored PNG."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT content FROM artifacts WHERE job_id = ? AND name = ?", (job_id, name)
+            ).fetchone()
+        return None if row is None else bytes(row["content"])
+
+
+def _job(row: sqlite3.Row) -> dict[str, Any]:
+    job = dict(row)
+    job["request"] = json.loads(job["request"])
+    job["cancel"] = bool(job["cancel"])
+    job["cached"] = bool(job["cached"])
+    return job

@@ -1,0 +1,162 @@
+"""The unit of work that runs in a worker process (or on a Dask worker).
+
+:func:`execute_job` takes only the database path and the job id, reads the stored request,
+runs the analysis, and writes progress and the result back to the store itself. It needs
+nothing from the parent process, so the same function runs in a local process pool or on
+a Dask cluster that shares the data directory, and a job that was running when the
+service died can simply be run again: its seed makes the result identical.
+
+A local worker process must not outlive the server: if the server is killed outright
+(SIGKILL, out of memory), nothing tells its pool's processes, which would compute on, then
+wait for work for ever. :func:`follow_parent`, the pools' initializer, starts a thread in
+each worker that exits the process as soon as its parent is gone.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+import time
+from typing import Any
+
+import haarline
+from haarline.service.errors import JobCancelled
+from haarline.service.jobs.store import Store
+
+__all__ = [
+    "ORPHAN_EXIT",
+    "PARENT_POLL",
+    "JobCancelled",
+    "execute_job",
+    "follow_parent",
+    "run_request",
+    "warm_up",
+]
+
+PROGRESS_INTERVAL = 0.25
+"""Seconds between progress writes (and cancel checks)."""
+
+PARENT_POLL = 0.5
+"""Seconds between a worker's checks that the server that started it still runs."""
+
+ORPHAN_EXIT = 70
+"""Exit status of a worker that found its server gone."""
+
+
+def _stages(kind: str, request: dict[str, Any]) -> int:
+    """How many progress stages the analysis will report (for the overall fraction)."""
+    options = request.get("options", {})
+    metrics = options.get("metrics") or ["expressibility", "entanglement"]
+    per = sum(m in metrics for m in ("expressibility", "entanglement"))
+    count = per
+    if "trainability" in metrics:
+        count += len(options.get("scan") or [0, 0, 0, 0]) + len(options.get("depth_scan") or [])
+    count += per * len(options.get("layers_sweep") or [])
+    circuits = len(request.get("circuits", [None])) if kind == "compare" else 1
+    return max(1, count * circuits)
+
+
+def circuit_of(spec: dict[str, Any]) -> haarline.Circuit:
+    """The description from a request entry: ``circuit``, ``qasm`` or ``reference``."""
+    if spec.get("circuit") is not None:
+        return haarline.parse_circuit(spec["circuit"])
+    if spec.get("reference"):
+        return haarline.load_reference(spec["reference"])
+    if spec.get("qasm") is not None:
+        return haarline.parse_qasm(spec["qasm"], source="qasm")
+    raise haarline.CircuitError([haarline.Problem("(root)", "no circuit given")])
+
+
+def run_request(
+    kind: str,
+    request: dict[str, Any],
+    *,
+    memory_budget: int,
+    progress: Any = None,
+) -> tuple[dict[str, Any], str, dict[str, bytes]]:
+    """Run one stored request; return (report or comparison, Markdown, PNGs)."""
+    options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
+    if kind == "compare":
+        reports, sources = [], []
+        for i, spec in enumerate(request["circuits"]):
+            circuit = circuit_of(spec)
+            reports.append(
+                haarline.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
+            )
+            sources.append(spec.get("reference") or f"circuits[{i}]")
+        result = haarline.compare_reports(reports, sources)
+        images = haarline.comparison_files(reports)
+        links = [f"plots/{name}" for name in sorted(images)]
+        return result, haarline.compare_markdown(result, images=links), images
+    circuit = circuit_of(request)
+    report = haarline.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
+    images = haarline.plot_files(report, haarline.expand(circuit))
+    # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
+    links = [f"plots/{name}" for name in sorted(images)]
+    return report, haarline.to_markdown(report, images=links, page="page"), images
+
+
+def follow_parent(parent: int, interval: float = PARENT_POLL) -> None:
+    """Exit this process promptly once ``parent`` (the server's pid) is no longer its parent.
+
+    Runs as a process pool's initializer, with the server's pid taken before the workers
+    start. A daemon thread compares :func:`os.getppid` with ``parent`` every ``interval``
+    seconds; when the server has died the worker has been re-parented (to init or a
+    sub-reaper), and the thread ends the process with :func:`os._exit` (status
+    :data:`ORPHAN_EXIT`) at once, whatever it is computing. A job cut off this way is
+    still ``running`` in the store and is queued again when the server restarts.
+    """
+
+    def watch() -> None:
+        while os.getppid() == parent:
+            time.sleep(interval)
+        os._exit(ORPHAN_EXIT)
+
+    threading.Thread(target=watch, name="haarline-follow-parent", daemon=True).start()
+
+
+def warm_up() -> int:
+    """Run first in every new worker process: import the numerical core; return the pid."""
+    return os.getpid()
+
+
+def execute_job(database: str, job_id: str, memory_budget: int) -> str:
+    """Run a claimed job to its end; return its final state."""
+    store = Store(database)
+    job = store.get_job(job_id)
+    if job is None or job["state"] != "running":
+        return "skipped"
+    kind, request = job["kind"], job["request"]
+    total = _stages(kind, request)
+    seen: list[str] = []
+    last = [0.0]
+
+    def progress(stage: str, done: int, count: int) -> None:
+        if not seen or seen[-1] != stage:
+            seen.append(stage)
+        now = time.monotonic()
+        if now - last[0] < PROGRESS_INTERVAL and done < count:
+            return
+        last[0] = now
+        frac = min(1.0, (len(seen) - 1 + (done / count if count else 1.0)) / total)
+        if store.set_progress(job_id, round(frac, 4), stage):
+            raise JobCancelled
+
+    try:
+        result, markdown, images = run_request(
+            kind, request, memory_budget=memory_budget, progress=progress
+        )
+    except JobCancelled:
+        store.mark(job_id, "cancelled", error="cancelled on request")
+        return "cancelled"
+    except (haarline.InputError, haarline.LimitError) as exc:
+        store.mark(job_id, "failed", error=str(exc))
+        return "failed"
+    except MemoryError:
+        store.mark(job_id, "failed", error="out of memory; lower the sample counts or qubits")
+        return "failed"
+    if store.get_job(job_id) and store.set_progress(job_id, 1.0, "storing"):
+        store.mark(job_id, "cancelled", error="cancelled on request")
+        return "cancelled"
+    store.finish(job_id, report=result, markdown=markdown, artifacts=images)
+    return "succeeded"
