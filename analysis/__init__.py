@@ -22,6 +22,7 @@ from haarline.circuit.program import Operation, Program, expand, facts
 from haarline.circuit.qasm.export import to_qasm
 from haarline.circuit.qasm.parse import parse_qasm
 from haarline.circuit.references import load_reference, reference_names
+from haarline.engine.context import Context, Precision, Progress
 from haarline.engine.sampling import Stream, draw_angles
 from haarline.engine.statevector import (
     DEFAULT_MEMORY_BUDGET,
@@ -98,10 +99,12 @@ from haarline.plots.figures import (
 )
 from haarline.plots.scans import sweep_png, sweep_series, variance_scan_png, variance_series
 from haarline.report.assemble import REPORT_FORMAT, analyze
+from haarline.report.metric_row import MetricRow, TableRow, Work
 from haarline.report.options import METRICS, AnalysisOptions, parse_options
 from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from haarline.report.ranking import compare_markdown, compare_reports
-from haarline.report.summary import to_markdown, to_text
+from haarline.report.registry import REGISTRY, progress_stages, requested
+from haarline.report.summary import headline_rows, to_markdown, to_text, verdicts
 from haarline.report.workload import Estimate, estimate
 
 __all__ = [
@@ -110,6 +113,7 @@ __all__ = [
     "MAX_QUBITS",
     "METRICS",
     "NAMED_COSTS",
+    "REGISTRY",
     "REPORT_FORMAT",
     "Algebra",
     "AlgebraPoint",
@@ -118,6 +122,7 @@ __all__ = [
     "Circuit",
     "CircuitError",
     "CircuitGenerators",
+    "Context",
     "Entanglement",
     "Estimate",
     "Expressibility",
@@ -128,19 +133,24 @@ __all__ = [
     "LieDiagnosis",
     "LimitError",
     "LossVariance",
+    "MetricRow",
     "Observable",
     "Operation",
     "OptionError",
     "PauliExpansion",
     "Policy",
+    "Precision",
     "PolicyError",
     "Problem",
     "Program",
+    "Progress",
     "Step",
     "Stream",
+    "TableRow",
     "Trainability",
     "VariancePoint",
     "VariancePrediction",
+    "Work",
     "__version__",
     "adjoint_gradients",
     "algebra_dimension_png",
@@ -182,6 +192,7 @@ __all__ = [
     "haar_bin_masses",
     "haar_meyer_wallach",
     "haar_second_moment",
+    "headline_rows",
     "independent_count",
     "is_clifford",
     "lie_diagnosis",
@@ -209,9 +220,11 @@ __all__ = [
     "plugin_bias",
     "predict_variance",
     "product_phase",
+    "progress_stages",
     "quantum_fisher",
     "qubit_purities",
     "reference_names",
+    "requested",
     "rotation_generator",
     "rows_per_chunk",
     "run",
@@ -226,5 +239,6 @@ __all__ = [
     "trainability",
     "variance_scan_png",
     "variance_series",
+    "verdicts",
     "zero_states",
 ]

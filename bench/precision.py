@@ -22,6 +22,8 @@ from haarline.metrics.gradient_variance import gradient_samples, summarize_gradi
 
 HERE = Path(__file__).resolve().parent
 SINGLE, DOUBLE = np.complex64, np.complex128
+DOUBLE_CONTEXT = haarline.Context(precision="double")
+SINGLE_CONTEXT = haarline.Context(precision="single")
 
 
 def expressibility_rows() -> list[dict]:
@@ -31,8 +33,8 @@ def expressibility_rows() -> list[dict]:
     cases += [("ry-cz-ring", 8, 8), ("rx-rz-cx-chain", 12, 12)]
     for name, n, layers in cases:
         program = haarline.expand(haarline.load_reference(name), qubits=n, layers=layers)
-        f2 = haarline.fidelities(program, pairs=5000, seed=1, dtype=DOUBLE)
-        f1 = haarline.fidelities(program, pairs=5000, seed=1, dtype=SINGLE)
+        f2 = haarline.fidelities(program, pairs=5000, seed=1, context=DOUBLE_CONTEXT)
+        f1 = haarline.fidelities(program, pairs=5000, seed=1, context=SINGLE_CONTEXT)
         with np.errstate(divide="ignore", invalid="ignore"):  # plugin_bias at n = 12
             e2 = haarline.divergence_from_haar(f2, program.qubits, seed=1)
             e1 = haarline.divergence_from_haar(f1, program.qubits, seed=1)
@@ -62,7 +64,7 @@ def meyer_wallach_rows() -> list[dict]:
         thetas = haarline.draw_angles(1, haarline.Stream.ENTANGLEMENT, 0, 2000, program.parameters)
         q2 = meyer_wallach(haarline.run(program, thetas, dtype=DOUBLE), program.qubits)
         q1 = meyer_wallach(haarline.run(program, thetas, dtype=SINGLE), program.qubits)
-        m2 = haarline.entangling_capability(program, samples=2000, seed=1, dtype=DOUBLE)
+        m2 = haarline.entangling_capability(program, samples=2000, seed=1, context=DOUBLE_CONTEXT)
         rows.append(
             {
                 "circuit": name,
@@ -86,8 +88,8 @@ def gradient_rows() -> list[dict]:
     for n in (2, 4, 6, 8, 10, 12):
         for cost in ("zz", "global"):
             program = haarline.expand(circuit, qubits=n, layers=n)
-            c2, g2 = gradient_samples(program, cost, samples=200, seed=1, dtype=DOUBLE)
-            c1, g1 = gradient_samples(program, cost, samples=200, seed=1, dtype=SINGLE)
+            c2, g2 = gradient_samples(program, cost, samples=200, seed=1, context=DOUBLE_CONTEXT)
+            c1, g1 = gradient_samples(program, cost, samples=200, seed=1, context=SINGLE_CONTEXT)
             v2 = summarize_gradients(n, n, c2, g2)
             v1 = summarize_gradients(n, n, c1, g1)
             rows.append(

@@ -45,6 +45,7 @@ sys.path.insert(0, str(HERE))
 import haarline  # noqa: E402
 import plain  # noqa: E402
 from haarline.engine import statevector as engine  # noqa: E402
+from haarline.engine.context import Context  # noqa: E402
 from haarline.engine.sampling import Stream, draw_angles  # noqa: E402
 from haarline.metrics.gradients import adjoint_gradients, shift_gradients  # noqa: E402
 from haarline.metrics.observables import make_observable  # noqa: E402
@@ -298,9 +299,11 @@ def reference_table(cfg: dict[str, Any], workers: int) -> None:
         circuit = haarline.load_reference(name)
         for layers in cfg["references_layers"]:
             program = haarline.expand(circuit, layers=layers)
-            haarline.expressibility(program, pairs=cfg["references_pairs"], seed=1, workers=workers)
+            haarline.expressibility(
+                program, pairs=cfg["references_pairs"], seed=1, context=Context(workers=workers)
+            )
             haarline.entangling_capability(
-                program, samples=cfg["references_samples"], seed=1, workers=workers
+                program, samples=cfg["references_samples"], seed=1, context=Context(workers=workers)
             )
 
 
@@ -323,7 +326,7 @@ def bench_references(cfg: dict[str, Any]) -> dict[str, Any]:
         if workers > 1:  # start the pool once, outside the timing (work big enough for it)
             t = time.perf_counter()
             program = haarline.expand(haarline.load_reference("ry-cz-ring"), qubits=10)
-            haarline.fidelities(program, pairs=512, seed=1, workers=workers)
+            haarline.fidelities(program, pairs=512, seed=1, context=Context(workers=workers))
             start = time.perf_counter() - t
         median, samples = timed(lambda w=workers: reference_table(cfg, w), cfg["repeats"])
         out["runs"].append(
@@ -375,7 +378,9 @@ def status(field):  # this process's own figures (ru_maxrss would include the pa
             if line.startswith(field + ":"):
                 return int(line.split()[1]) * 1024
 before = status("VmRSS")
-haarline.expressibility(program, pairs=pairs, seed=1, memory_budget=budget)
+haarline.expressibility(
+    program, pairs=pairs, seed=1, context=haarline.Context(memory_budget=budget)
+)
 print(json.dumps({"rss_before": before, "peak_rss": status("VmHWM"), "layers": program.layers}))
 """
 

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from haarline import GATES, LimitError, expand, parse_circuit, rows_per_chunk, run
 from haarline.circuit.model import TWO_QUBIT_PATTERNS
+from haarline.engine.context import Context
 from reference_sim import simulate as dense_simulate
 
 
@@ -208,19 +209,19 @@ def test_metrics_with_two_workers_are_bit_identical():
 
     program = expand(RING)
     # big enough that the work really goes to the pool
-    assert worker_count(2, program, 200, 1) == 2
+    assert worker_count(Context(workers=2), program, 200, 1) == 2
     one = fidelities(program, pairs=300, seed=5)
-    two = fidelities(program, pairs=300, seed=5, workers=2)
-    small = fidelities(program, pairs=300, seed=5, memory_budget=3 * 16 * 1024 * 7)
+    two = fidelities(program, pairs=300, seed=5, context=Context(workers=2))
+    small = fidelities(program, pairs=300, seed=5, context=Context(memory_budget=3 * 16 * 1024 * 7))
     np.testing.assert_array_equal(one, two)
     np.testing.assert_array_equal(one, small)
     a = entangling_capability(program, samples=200, seed=5)
-    b = entangling_capability(program, samples=200, seed=5, workers=2)
+    b = entangling_capability(program, samples=200, seed=5, context=Context(workers=2))
     assert a == b
     c1, g1 = gradient_samples(program, "local", samples=150, seed=5)
-    c2, g2 = gradient_samples(program, "local", samples=150, seed=5, workers=2)
+    c2, g2 = gradient_samples(program, "local", samples=150, seed=5, context=Context(workers=2))
     c3, g3 = gradient_samples(
-        program, "local", samples=150, seed=5, memory_budget=3 * 16 * 1024 * 5
+        program, "local", samples=150, seed=5, context=Context(memory_budget=3 * 16 * 1024 * 5)
     )
     np.testing.assert_array_equal(g1, g2)
     np.testing.assert_array_equal(c1, c2)
@@ -231,7 +232,7 @@ def test_bad_worker_count_is_an_option_error():
     from haarline import OptionError, fidelities
 
     with pytest.raises(OptionError, match="workers"):
-        fidelities(expand(RING), pairs=10, seed=1, workers=0)
+        fidelities(expand(RING), pairs=10, seed=1, context=Context(workers=0))
 
 
 def test_single_precision_through_the_metrics():
@@ -239,8 +240,10 @@ def test_single_precision_through_the_metrics():
 
     program = expand(RING)
     double = expressibility(program, pairs=500, seed=2)
-    single = expressibility(program, pairs=500, seed=2, dtype=np.complex64)
+    single = expressibility(program, pairs=500, seed=2, context=Context(precision="single"))
     assert single.kl == pytest.approx(double.kl, abs=1e-3)
     q2 = entangling_capability(program, samples=200, seed=2).meyer_wallach
-    q1 = entangling_capability(program, samples=200, seed=2, dtype=np.complex64).meyer_wallach
+    q1 = entangling_capability(
+        program, samples=200, seed=2, context=Context(precision="single")
+    ).meyer_wallach
     assert q1 == pytest.approx(q2, abs=1e-5)

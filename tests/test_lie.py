@@ -22,6 +22,7 @@ import numpy as np
 import pytest
 from haarline import expand, parse_circuit
 from haarline.circuit.gates import GATES
+from haarline.engine.context import Context
 from haarline.lie.algebra import generate_algebra, independent_count
 from haarline.lie.diagnosis import growth_fit, lie_diagnosis
 from haarline.lie.generators import circuit_generators, rotation_generator
@@ -614,7 +615,7 @@ def test_deep_loss_variance_checks_half_depth():
 def test_loss_variance_does_not_depend_on_chunking():
     program = expand(parse_circuit(ISING_PLUS), layers=4)
     a = loss_variance(program, x0(3), samples=300, seed=9)
-    b = loss_variance(program, x0(3), samples=300, seed=9, memory_budget=3 * 16 * 8 * 7)
+    b = loss_variance(program, x0(3), samples=300, seed=9, context=Context(memory_budget=1 << 16))
     assert a == b
 
 

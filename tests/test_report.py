@@ -6,6 +6,7 @@ import haarline
 import numpy as np
 import pytest
 from haarline import AnalysisOptions, analyze, draw_angles, load_reference, parse_circuit
+from haarline.engine.context import Context
 from haarline.engine.sampling import BLOCK_SIZE
 
 SMALL = AnalysisOptions(pairs=300, samples=200, seed=7)
@@ -65,11 +66,24 @@ def test_keys_are_stable():
     assert r["options"]["seed"] == 7
 
 
-@pytest.mark.parametrize("budget", [3 * 16 * 16 * 2, 3 * 16 * 16 * 37, 1 << 30])
-def test_same_seed_same_report_for_any_chunk_size(budget):
-    # budgets of 2 states, 37 states (not a divisor of the block size) and 1 GiB
-    base = strip(analyze(RING, SMALL))
-    assert strip(analyze(RING, SMALL, memory_budget=budget)) == base
+WIDE = parse_circuit(
+    {
+        "name": "w",
+        "qubits": 10,
+        "layers": 1,
+        "layer": [{"gate": "ry"}, {"gate": "cz", "on": "ring"}],
+    }
+)
+
+
+@pytest.mark.parametrize("rows", [1, 37, None])
+def test_same_seed_same_report_for_any_chunk_size(rows):
+    # at 10 qubits a batch row needs 3 x 1024 x 16 bytes: budgets of 1 state, 37 states
+    # (not a divisor of the block size) and 1 GiB
+    budget = 1 << 30 if rows is None else 3 * 16 * 1024 * rows + 1
+    opts = AnalysisOptions(pairs=150, samples=100, seed=7)
+    base = strip(analyze(WIDE, opts))
+    assert strip(analyze(WIDE, opts, context=Context(memory_budget=max(budget, 1 << 16)))) == base
 
 
 def test_different_seed_different_numbers():
@@ -221,6 +235,10 @@ _MODULE_ONLY = {
     "gradient_samples",
     "summarize_gradients",
     "verdict",
+    "batch_bytes",
+    "count_text",
+    "interval_text",
+    "Section",
 }
 
 
@@ -235,7 +253,7 @@ def test_workers_and_precision_through_analyze():
         grad_samples=40,
     )
     one = strip(analyze(RING, opts))
-    two = strip(analyze(RING, opts, workers=2))
+    two = strip(analyze(RING, opts, context=Context(workers=2)))
     assert one == two
     single = analyze(RING, opts.model_copy(update={"precision": "single"}))
     assert single["options"]["precision"] == "single"

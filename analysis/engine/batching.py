@@ -20,56 +20,33 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
+from haarline.engine.context import Context, Progress
 from haarline.engine.sampling import BLOCK_SIZE, draw_angles
 from haarline.engine.statevector import Plan, compile_program, rows_per_chunk, run
-from haarline.errors import OptionError, Problem
 from numpy.typing import NDArray
 
 __all__ = [
-    "MAX_WORKERS",
-    "PARALLEL_WORK",
-    "Progress",
     "block_map",
     "blocks_for",
-    "check_workers",
     "chunked_states",
     "sample_map",
     "worker_count",
 ]
 
-Progress = Callable[[str, int, int], None]
-"""Progress callback: ``(stage, done, total)``."""
-
-MAX_WORKERS = 64
-"""Most worker processes a sampled metric may use."""
-
-PARALLEL_WORK = 1 << 21
-"""Gate applications x amplitudes below which a call runs in-process even when workers
-are asked for: a round trip to the pool costs more than such work (and the numbers are
-the same either way)."""
 
 BLOCKS_PER_WORKER = 2
 """Blocks handed to each worker (two, so that a slow block does not idle the others for
 long; every block costs a round trip to a worker)."""
 
 
-def worker_count(workers: int, program: Program, samples: int, per_sample: int = 1) -> int:
-    """The worker processes a call actually uses: ``workers``, or 1 for small work.
+def worker_count(context: Context, program: Program, samples: int, per_sample: int = 1) -> int:
+    """The worker processes a call actually uses: the context's, or 1 for small work.
 
     The work of a sample is estimated as ``per_sample`` circuit runs of ``G`` gates on
-    ``2**n`` amplitudes.
+    ``2**n`` amplitudes; below ``context.parallel_from`` the call runs in-process.
     """
     work = samples * per_sample * max(1, len(program.operations)) << program.qubits
-    return 1 if work < PARALLEL_WORK else workers
-
-
-def check_workers(workers: int) -> int:
-    """Validate a worker count; raise :class:`~haarline.errors.OptionError` otherwise."""
-    if isinstance(workers, bool) or not isinstance(workers, int) or not 1 <= workers <= MAX_WORKERS:
-        raise OptionError(
-            [Problem("workers", f"expected an integer from 1 to {MAX_WORKERS}, got {workers!r}")]
-        )
-    return workers
+    return 1 if work < context.parallel_from else context.workers
 
 
 def chunked_states(
@@ -138,39 +115,37 @@ def sample_map(
     copies: int,
     seed: int,
     stream: int | tuple[int, ...],
-    memory_budget: int,
-    dtype: type = np.complex128,
-    workers: int = 1,
-    progress: Progress | None = None,
+    context: Context,
     stage: str = "",
 ) -> NDArray:
     """``func(states, n)`` for every sample, in sample order: an array ``(count, ...)``.
 
     ``func`` maps a chunk of states ``(rows, copies, 2**n)`` to one value (or row of
-    values) per sample; it must be a module-level function when ``workers > 1``. With
-    ``workers`` processes each holds its own chunk, so each gets ``memory_budget /
-    workers``.
+    values) per sample; it must be a module-level function when the context has more
+    than one worker. With ``w`` worker processes each holds its own chunk, so each gets
+    ``memory_budget / w``.
     """
-    workers = worker_count(check_workers(workers), program, count, copies)
+    workers = worker_count(context, program, count, copies)
     if count <= 0:
         return np.empty(0)
+    share = context.for_workers(workers)
     options: dict[str, Any] = {
         "copies": copies,
         "seed": seed,
         "stream": stream,
-        "memory_budget": memory_budget // workers,
-        "dtype": dtype,
+        "memory_budget": share.memory_budget,
+        "dtype": share.dtype,
     }
     if workers == 1:
-        options.update(progress=progress, stage=stage)
+        options.update(progress=context.progress, stage=stage)
         return _sample_block(func, program, 0, count, options)
+    blocks = blocks_for(count, workers)
     parts = block_map(
         _sample_block,
-        [(func, program, s, c, options) for s, c in blocks_for(count, workers)],
-        workers=workers,
-        progress=progress,
+        [(func, program, s, c, options) for s, c in blocks],
+        context=context,
         stage=stage,
-        sizes=[c for _, c in blocks_for(count, workers)],
+        sizes=[c for _, c in blocks],
     )
     return np.concatenate(parts)
 
@@ -216,17 +191,16 @@ def block_map(
     func: Callable[..., Any],
     tasks: Sequence[tuple],
     *,
-    workers: int,
-    progress: Progress | None = None,
+    context: Context,
     stage: str = "",
     sizes: Sequence[int] | None = None,
 ) -> list[Any]:
-    """``[func(*task) for task in tasks]``, computed by ``workers`` processes.
+    """``[func(*task) for task in tasks]``, computed by the context's worker processes.
 
     ``func`` and the task arguments must be picklable (module-level functions, plain
     data). ``sizes`` (samples per task) drives the progress callback.
     """
-    workers = check_workers(workers)
+    workers, progress = context.workers, context.progress
     sizes = list(sizes) if sizes is not None else [1] * len(tasks)
     total = sum(sizes)
     if progress is not None:

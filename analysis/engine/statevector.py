@@ -50,6 +50,7 @@ __all__ = [
     "apply_generator",
     "apply_pauli",
     "apply_step",
+    "batch_bytes",
     "compile_program",
     "rows_per_chunk",
     "run",
@@ -167,6 +168,21 @@ def rows_per_chunk(qubits: int, memory_budget: int, dtype: type = np.complex128)
             f"the memory budget is {memory_budget / 2**20:.0f} MiB"
         )
     return max(1, min(rows, CHUNK_AMPLITUDES >> qubits))
+
+
+def batch_bytes(qubits: int, memory_budget: int, copies: int = 1) -> int:
+    """Peak bytes of the double-precision state batches a sampled loop holds.
+
+    ``copies`` states per sample (three for adjoint gradients). Used by the work estimate
+    (:mod:`haarline.report.workload`) before anything runs.
+
+    Examples
+    --------
+    >>> batch_bytes(10, 1 << 30) == WORK_FACTOR * 256 * 1024 * 16
+    True
+    """
+    rows = min(rows_per_chunk(qubits, memory_budget), max(1, CHUNK_AMPLITUDES >> qubits))
+    return WORK_FACTOR * copies * rows * (1 << qubits) * np.dtype(np.complex128).itemsize
 
 
 def _coefficient(m: NDArray, i: int, j: int, ndim: int) -> NDArray | complex:

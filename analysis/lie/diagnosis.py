@@ -26,7 +26,7 @@ from typing import Any
 import numpy as np
 from haarline.circuit.model import MAX_QUBITS, Circuit
 from haarline.circuit.program import expand_at
-from haarline.engine.batching import Progress
+from haarline.engine.context import Context
 from haarline.lie.algebra import (
     DEFAULT_BUDGET,
     DEFAULT_CAP,
@@ -194,7 +194,7 @@ def lie_diagnosis(
     cap: int = DEFAULT_CAP,
     budget: int = DEFAULT_BUDGET,
     split_limit: int = SPLIT_LIMIT,
-    progress: Progress | None = None,
+    context: Context | None = None,
 ) -> LieDiagnosis:
     """Dynamical Lie algebra of the circuit at each qubit count, and its predictions.
 
@@ -214,8 +214,9 @@ def lie_diagnosis(
         adds no new generator direction (so that the algebra is that of a deep circuit).
     cap, budget, split_limit : int
         Closure limits, see :func:`haarline.lie.algebra.generate_algebra`.
-    progress : callable, optional
-        ``progress(stage, done, total)`` after each qubit count.
+    context : Context, optional
+        Only its progress callback is used: ``("lie", done, total)`` after each qubit
+        count (the closure is not sampled).
 
     Returns
     -------
@@ -239,8 +240,8 @@ def lie_diagnosis(
         else:
             why = f"the Pauli-sum cost acts on {len(cost[0][1])} qubits, not {n}"
         points.append(AlgebraPoint(n, depth, note, gens, algebra, prediction, why))
-        if progress is not None:
-            progress("lie", i, len(counts))
+        if context is not None:
+            context.report("lie", i, len(counts))
         grow = algebra.complete and algebra.dimension <= EXTEND_BELOW
         if not explicit and i == len(counts) and len(counts) > 1 and grow:
             if n < min(EXTEND_TO, MAX_QUBITS):

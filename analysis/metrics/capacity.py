@@ -11,6 +11,11 @@ rank over several random points is reported.
 The state Jacobian comes from one pass that carries, beside ``ψ``, one derivative state
 per parameterized gate (created as ``-i/2 G φ_k`` at gate ``k`` and propagated through the
 rest of the circuit); shared parameters sum their gates' columns.
+
+The QFI is always computed in double precision, whatever the context's precision: the
+rank counts eigenvalues above ``1e-8`` times the largest, below the rounding of single
+precision (about ``1e-7``), so single-precision amplitudes would count rounding noise as
+independent directions. The context's workers share the random points.
 """
 
 from __future__ import annotations
@@ -20,6 +25,8 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
+from haarline.engine.batching import block_map, worker_count
+from haarline.engine.context import Context
 from haarline.engine.sampling import Stream, draw_angles
 from haarline.engine.statevector import apply_generator, apply_step, compile_program
 from numpy.typing import NDArray
@@ -100,6 +107,11 @@ class Capacity:
         return asdict(self)
 
 
+def _fisher_block(program: Program, thetas: NDArray[np.float64]) -> list[NDArray[np.float64]]:
+    """The QFI at each row of ``thetas`` (also run in worker processes)."""
+    return [quantum_fisher(program, theta) for theta in thetas]
+
+
 def _rank(f: NDArray[np.float64], tol: float) -> tuple[int, NDArray[np.floating]]:
     eig = np.linalg.eigvalsh((f + f.T) / 2)[::-1]
     top = eig[0] if eig.size else 0.0
@@ -114,6 +126,7 @@ def capacity(
     points: int = 4,
     seed: int = 1,
     tolerance: float = DEFAULT_RANK_TOLERANCE,
+    context: Context | None = None,
 ) -> Capacity:
     """QFI rank, redundant parameters and the pure-state ceiling.
 
@@ -142,10 +155,20 @@ def capacity(
     ceiling = 2 ** (program.qubits + 1) - 2
     if p == 0:
         return Capacity(0, 0, 0, ceiling, tolerance, 0, [], [], [])
+    context = context or Context()
     thetas = draw_angles(seed, (Stream.CAPACITY, program.qubits, program.layers), 0, points, p)
+    # one Jacobian pass carries P + 1 states
+    workers = min(worker_count(context, program, points, p + 1), points)
+    groups = np.array_split(np.arange(points), workers)
+    parts = block_map(
+        _fisher_block,
+        [(program, thetas[g]) for g in groups],
+        context=context if workers > 1 else Context(progress=context.progress),
+        stage="capacity",
+        sizes=[len(g) for g in groups],
+    )
     best_rank, best_f, best_eig, ranks = -1, None, None, []
-    for theta in thetas:
-        f = quantum_fisher(program, theta)
+    for f in (f for part in parts for f in part):
         rank, eig = _rank(f, tolerance)
         ranks.append(rank)
         if rank > best_rank:

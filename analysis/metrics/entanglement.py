@@ -14,9 +14,9 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
-from haarline.engine.batching import Progress, sample_map
+from haarline.engine.batching import sample_map
+from haarline.engine.context import Context
 from haarline.engine.sampling import Stream
-from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET
 from haarline.metrics.haar import haar_meyer_wallach
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
@@ -121,15 +121,13 @@ def entangling_capability(
     *,
     samples: int = 2000,
     seed: int = 1,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    dtype: type = np.complex128,
-    progress: Progress | None = None,
-    workers: int = 1,
+    context: Context | None = None,
 ) -> Entanglement:
     """Mean Meyer-Wallach value of a program over ``samples`` random parameter vectors.
 
-    ``dtype`` is the engine precision (``complex128`` or ``complex64``); ``workers``
-    processes share the samples, with bit-identical results.
+    The ``context`` (:mod:`haarline.engine.context`) sets the engine precision, the
+    memory budget and the worker processes that share the samples (bit-identical results
+    for any count).
 
     Notes
     -----
@@ -156,10 +154,7 @@ def entangling_capability(
         copies=1,
         seed=seed,
         stream=Stream.ENTANGLEMENT,
-        memory_budget=memory_budget,
-        dtype=dtype,
-        workers=workers,
-        progress=progress,
+        context=context or Context(),
         stage="entanglement",
     )
     return summarize_meyer_wallach(values, program.qubits)

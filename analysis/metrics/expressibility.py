@@ -30,9 +30,9 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
-from haarline.engine.batching import Progress, sample_map
+from haarline.engine.batching import sample_map
+from haarline.engine.context import Context
 from haarline.engine.sampling import Stream, block_rng
-from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET
 from haarline.metrics.haar import haar_bin_log_masses, haar_second_moment
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
@@ -88,15 +88,12 @@ def fidelities(
     *,
     pairs: int,
     seed: int,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    dtype: type = np.complex128,
-    progress: Progress | None = None,
-    workers: int = 1,
+    context: Context | None = None,
 ) -> NDArray[np.float64]:
     """Fidelities ``|⟨ψ(θ)|ψ(φ)⟩|²`` of ``pairs`` independent random parameter pairs.
 
-    ``workers`` processes share the pairs (blocks of 64); the values are bit-identical to
-    one worker's.
+    The context's worker processes share the pairs (blocks of 64); the values are
+    bit-identical to one worker's.
 
     Returns
     -------
@@ -109,10 +106,7 @@ def fidelities(
         copies=2,
         seed=seed,
         stream=Stream.EXPRESSIBILITY,
-        memory_budget=memory_budget,
-        dtype=dtype,
-        workers=workers,
-        progress=progress,
+        context=context or Context(),
         stage="expressibility",
     )
 
@@ -230,10 +224,7 @@ def expressibility(
     pairs: int = 5000,
     bins: int = 75,
     seed: int = 1,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    dtype: type = np.complex128,
-    progress: Progress | None = None,
-    workers: int = 1,
+    context: Context | None = None,
 ) -> Expressibility:
     """Expressibility of a program (Sim, Johnson & Aspuru-Guzik 2019).
 
@@ -247,15 +238,9 @@ def expressibility(
         Number ``K`` of fidelity bins (default 75).
     seed : int
         Seed; pair ``k`` always gets the same parameters (see :mod:`haarline.engine.sampling`).
-    memory_budget : int
-        Bytes available for state batches; changes speed, never the numbers.
-    dtype : numpy complex dtype
-        Engine precision: ``complex128`` (default) or ``complex64`` (about twice as fast
-        on large states; see the README for its measured accuracy).
-    progress : callable, optional
-        ``progress(stage, done, total)``.
-    workers : int
-        Worker processes that share the pairs (default 1); the numbers do not depend on it.
+    context : Context, optional
+        Memory budget, precision, workers and progress (:mod:`haarline.engine.context`);
+        only the precision can move the numbers, by rounding (``bench/precision.json``).
 
     Returns
     -------
@@ -280,13 +265,5 @@ def expressibility(
     >>> bool(np.isclose(e.kl, 3 * np.log(10)))
     True
     """
-    fids = fidelities(
-        program,
-        pairs=pairs,
-        seed=seed,
-        memory_budget=memory_budget,
-        dtype=dtype,
-        progress=progress,
-        workers=workers,
-    )
+    fids = fidelities(program, pairs=pairs, seed=seed, context=context)
     return divergence_from_haar(fids, program.qubits, bins=bins, seed=seed)

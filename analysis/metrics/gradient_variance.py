@@ -16,9 +16,10 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
-from haarline.engine.batching import Progress, block_map, blocks_for, check_workers, worker_count
+from haarline.engine.batching import block_map, blocks_for, worker_count
+from haarline.engine.context import Context, Progress
 from haarline.engine.sampling import Stream, draw_angles
-from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
+from haarline.engine.statevector import compile_program, rows_per_chunk
 from haarline.errors import CircuitError, Problem
 from haarline.metrics.gradients import adjoint_gradients, cost_values, shift_gradients
 from haarline.metrics.intervals import log_symmetric_interval, variance_standard_error
@@ -94,36 +95,33 @@ def gradient_samples(
     *,
     samples: int,
     seed: int,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    progress: Progress | None = None,
     stage: str = "gradients",
     method: str = "adjoint",
-    dtype: type = np.complex128,
-    workers: int = 1,
+    context: Context | None = None,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Costs ``(S,)`` and gradients ``(S, P)`` at ``samples`` random parameter vectors.
 
     Sample ``k`` at ``(n, L)`` uses row ``k`` of stream ``(GRADIENTS, n, L)``, so points of a
-    scan are independent and the numbers never depend on chunking. ``workers`` processes
-    share the samples (blocks of 64, each with ``memory_budget / workers``); the numbers
-    are bit-identical to one worker's. ``dtype`` is the engine precision.
+    scan are independent and the numbers never depend on chunking. The context's worker
+    processes share the samples (blocks of 64, each with its share of the memory budget);
+    the numbers are bit-identical to one worker's.
     """
+    context = context or Context()
     # adjoint differentiation costs about five circuit runs per sample
-    workers = worker_count(check_workers(workers), program, samples, 5)
+    workers = worker_count(context, program, samples, 5)
     make_observable(cost, program.qubits)  # bad costs fail here, not in a worker
+    share = context.for_workers(workers)
+    budget, dtype = share.memory_budget, share.dtype
     if workers == 1:
-        if progress is not None:
-            progress(stage, 0, samples)
+        context.report(stage, 0, samples)
         return _gradient_block(
-            program, cost, 0, samples, seed, memory_budget, method, dtype, progress, stage
+            program, cost, 0, samples, seed, budget, method, dtype, context.progress, stage
         )
     blocks = blocks_for(samples, workers)
-    budget = memory_budget // workers
     parts = block_map(
         _gradient_block,
         [(program, cost, s, c, seed, budget, method, dtype) for s, c in blocks],
-        workers=workers,
-        progress=progress,
+        context=context,
         stage=stage,
         sizes=[c for _, c in blocks],
     )

@@ -15,12 +15,14 @@ from typing import Any
 import numpy as np
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import Program, expand_at
-from haarline.engine.batching import Progress
+from haarline.engine.batching import block_map, blocks_for, worker_count
+from haarline.engine.context import Context, Progress
 from haarline.engine.sampling import Stream, draw_angles
-from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET, compile_program, rows_per_chunk
+from haarline.engine.statevector import compile_program, rows_per_chunk
 from haarline.metrics.gradients import cost_values
 from haarline.metrics.intervals import log_symmetric_interval, variance_standard_error
 from haarline.metrics.observables import make_observable
+from numpy.typing import NDArray
 
 __all__ = [
     "LIE_SAMPLE_QUBITS",
@@ -92,6 +94,37 @@ class LossVariance:
         return out
 
 
+def _loss_block(
+    program: Program,
+    cost: Any,
+    start: int,
+    count: int,
+    seed: int,
+    memory_budget: int,
+    dtype: type,
+    progress: Progress | None = None,
+) -> NDArray[np.float64]:
+    """Costs of samples ``start .. start+count-1`` (also run in worker processes)."""
+    observable = make_observable(cost, program.qubits)
+    plan = compile_program(program)
+    stream = (LOSS_STREAM, program.qubits, program.layers)
+    rows = rows_per_chunk(program.qubits, memory_budget, dtype)
+    costs = np.empty(count)
+    done = 0
+    while done < count:
+        k = min(rows, count - done)
+        thetas = draw_angles(seed, stream, start + done, k, program.parameters)
+        costs[done : done + k] = cost_values(plan, thetas, observable, dtype=dtype)
+        done += k
+        if progress is not None:
+            progress(_stage(program), done, count)
+    return costs
+
+
+def _stage(program: Program) -> str:
+    return f"loss variance n={program.qubits} L={program.layers}"
+
+
 def loss_variance(
     program: Program,
     cost: Any = "global",
@@ -99,8 +132,7 @@ def loss_variance(
     samples: int = 2000,
     seed: int = 1,
     confidence: float = 0.95,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    progress: Progress | None = None,
+    context: Context | None = None,
 ) -> LossVariance:
     """Variance of the cost over random parameters at the program's own depth.
 
@@ -117,10 +149,8 @@ def loss_variance(
         Seed.
     confidence : float
         Coverage of the interval.
-    memory_budget : int
-        Bytes for state batches.
-    progress : callable, optional
-        ``progress(stage, done, total)``.
+    context : Context, optional
+        Memory budget, precision, workers (same numbers for any count) and progress.
 
     Returns
     -------
@@ -137,19 +167,25 @@ def loss_variance(
     """
     if samples < 2:
         raise ValueError(f"samples must be at least 2, got {samples}")
-    observable = make_observable(cost, program.qubits)
-    plan = compile_program(program)
-    stream = (LOSS_STREAM, program.qubits, program.layers)
-    rows = rows_per_chunk(program.qubits, memory_budget)
-    costs = np.empty(samples)
-    done = 0
-    while done < samples:
-        k = min(rows, samples - done)
-        thetas = draw_angles(seed, stream, done, k, program.parameters)
-        costs[done : done + k] = cost_values(plan, thetas, observable)
-        done += k
-        if progress is not None:
-            progress(f"loss variance n={program.qubits} L={program.layers}", done, samples)
+    context = context or Context()
+    make_observable(cost, program.qubits)  # bad costs fail here, not in a worker
+    workers = worker_count(context, program, samples)
+    share = context.for_workers(workers)
+    budget, dtype = share.memory_budget, share.dtype
+    if workers == 1:
+        context.report(_stage(program), 0, samples)
+        costs = _loss_block(program, cost, 0, samples, seed, budget, dtype, context.progress)
+    else:
+        blocks = blocks_for(samples, workers)
+        costs = np.concatenate(
+            block_map(
+                _loss_block,
+                [(program, cost, b, c, seed, budget, dtype) for b, c in blocks],
+                context=context,
+                stage=_stage(program),
+                sizes=[c for _, c in blocks],
+            )
+        )
     s = samples
     y = (costs - costs.mean()) ** 2
     v = float(s / (s - 1) * y.mean())
@@ -179,8 +215,7 @@ def deep_loss_variance(
     samples: int = 2000,
     seed: int = 1,
     confidence: float = 0.95,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    progress: Progress | None = None,
+    context: Context | None = None,
 ) -> LossVariance:
     """Loss variance of a deep version of the circuit, with a half-depth check.
 
@@ -202,8 +237,7 @@ def deep_loss_variance(
         "samples": samples,
         "seed": seed,
         "confidence": confidence,
-        "memory_budget": memory_budget,
-        "progress": progress,
+        "context": context,
     }
     deep = loss_variance(expand_at(circuit, qubits, layers), cost, **options)
     if layers < 2:

@@ -12,11 +12,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import expand_at
-from haarline.engine.batching import Progress
-from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET
+from haarline.engine.context import Context
 from haarline.errors import OptionError, Problem
 from haarline.metrics.gradient_variance import VariancePoint, gradient_samples, summarize_gradients
 from haarline.metrics.plateau import Fit, fit_decay, verdict
@@ -100,11 +98,8 @@ def trainability(
     layer_scan: list[int] | None = None,
     samples: int = 200,
     seed: int = 1,
-    memory_budget: int = DEFAULT_MEMORY_BUDGET,
-    progress: Progress | None = None,
     method: str = "adjoint",
-    dtype: type = np.complex128,
-    workers: int = 1,
+    context: Context | None = None,
 ) -> Trainability:
     """Gradient-variance scan over qubit counts (and, optionally, over layer counts).
 
@@ -124,16 +119,11 @@ def trainability(
         Parameter vectors per point (default 200).
     seed : int
         Seed.
-    memory_budget : int
-        Bytes for state batches; changes speed, never the numbers.
-    progress : callable, optional
-        ``progress(stage, done, total)``.
     method : str
         ``"adjoint"`` (default) or ``"shift"``.
-    dtype : numpy complex dtype
-        Engine precision, ``complex128`` (default) or ``complex64``.
-    workers : int
-        Worker processes sharing each point's samples (default 1); same numbers.
+    context : Context, optional
+        Memory budget, precision, workers (sharing each point's samples; same numbers)
+        and progress (one stage per point).
 
     Returns
     -------
@@ -168,12 +158,9 @@ def trainability(
                 cost,
                 samples=samples,
                 seed=seed,
-                memory_budget=memory_budget,
-                progress=progress,
                 stage=f"gradients n={n} L={layers}",
                 method=method,
-                dtype=dtype,
-                workers=workers,
+                context=context,
             )
             target.append(summarize_gradients(n, layers, c, g))
     fits = fit_decay(points)

@@ -49,7 +49,7 @@ References
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -58,11 +58,13 @@ from haarline.plots import _data as data
 from haarline.plots import _style as style
 from haarline.plots.diagram import circuit_diagram_png
 from haarline.plots.scans import sweep_png, variance_scan_png
+from haarline.report.registry import REGISTRY
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
 
 __all__ = [
+    "DRAWERS",
     "LOG_PANEL_DECADES",
     "fidelity_histogram_png",
     "fidelity_series",
@@ -310,6 +312,27 @@ def meyer_wallach_png(report: Report) -> bytes:
         return style.render(fig)
 
 
+def _algebra_png(report: Report) -> bytes:
+    from haarline.plots.algebra import algebra_dimension_png
+
+    return algebra_dimension_png(report)
+
+
+DRAWERS: dict[str, tuple[Callable[[Report], bool], Callable[[Report], bytes]]] = {
+    "fidelity.png": (lambda r: bool(r.get("expressibility")), fidelity_histogram_png),
+    "entanglement.png": (lambda r: bool(r.get("entanglement")), meyer_wallach_png),
+    "trainability.png": (
+        lambda r: bool((r.get("trainability") or {}).get("points")),
+        variance_scan_png,
+    ),
+    "algebra.png": (
+        lambda r: any(p.get("dimension") for p in (r.get("lie") or {}).get("points", [])),
+        _algebra_png,
+    ),
+}
+"""For each plot a registry row names: whether a report has its data, and its drawer."""
+
+
 def plot_files(report: Report, program: Program | None = None) -> dict[str, bytes]:
     """Every PNG the report supports, by file name.
 
@@ -323,8 +346,9 @@ def plot_files(report: Report, program: Program | None = None) -> dict[str, byte
     Returns
     -------
     dict of str to bytes
-        Those of ``fidelity.png``, ``entanglement.png``, ``trainability.png``,
-        ``sweep.png`` and ``circuit.png`` whose data is present, in that order.
+        The plots of the registry's rows whose data is present (``fidelity.png``,
+        ``entanglement.png``, ``trainability.png``, ``algebra.png``), then ``sweep.png``
+        and ``circuit.png``.
 
     Examples
     --------
@@ -337,20 +361,14 @@ def plot_files(report: Report, program: Program | None = None) -> dict[str, byte
     ['circuit.png']
     """
     out: dict[str, bytes] = {}
-    if report.get("expressibility"):
-        out["fidelity.png"] = fidelity_histogram_png(report)
-    if report.get("entanglement"):
-        out["entanglement.png"] = meyer_wallach_png(report)
-    if (report.get("trainability") or {}).get("points"):
-        out["trainability.png"] = variance_scan_png(report)
+    for name in REGISTRY:
+        for plot in REGISTRY[name].plots:
+            present, draw = DRAWERS[plot]
+            if present(report):
+                out[plot] = draw(report)
     rows = report.get("sweep") or []
     if any(r.get("kl") is not None or r.get("meyer_wallach") is not None for r in rows):
         out["sweep.png"] = sweep_png(report)
-    lie = report.get("lie") or {}
-    if sum(1 for p in lie.get("points", []) if p.get("dimension")) >= 1:
-        from haarline.plots.algebra import algebra_dimension_png
-
-        out["algebra.png"] = algebra_dimension_png(report)
     if program is not None:
         out["circuit.png"] = circuit_diagram_png(program)
     return out

@@ -4,7 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
-__all__ = ["to_markdown", "to_text"]
+from haarline.report.metric_row import TableRow
+from haarline.report.registry import REGISTRY
+from haarline.report.text import count_text, interval_text
+
+__all__ = ["headline_rows", "to_markdown", "to_text", "verdicts"]
 
 
 def _headline(report: dict[str, Any]) -> str:
@@ -17,110 +21,40 @@ def _headline(report: dict[str, Any]) -> str:
 
 
 def _count(k: int, word: str) -> str:
-    return f"{k} {word}" + ("" if k == 1 else "s")
+    return count_text(k, word)
 
 
 def _iv(pair: list[float], digits: int = 4) -> str:
-    return f"{pair[0]:.{digits}f} .. {pair[1]:.{digits}f}"
+    return interval_text(pair, f".{digits}f")
+
+
+def headline_rows(report: dict[str, Any]) -> list[TableRow]:
+    """The headline table's rows (Markdown summary and HTML page), in registry order."""
+    rows: list[TableRow] = []
+    for name, row in REGISTRY.items():
+        section = report.get(name)
+        if section:
+            rows += row.table(section, report)
+    return rows
+
+
+def verdicts(report: dict[str, Any]) -> list[tuple[str, str]]:
+    """``(title, sentence)`` for every computed metric that gives a verdict."""
+    out = []
+    for name, row in REGISTRY.items():
+        section = report.get(name)
+        if section and row.verdict is not None:
+            out.append((row.title, row.verdict(section)))
+    return out
 
 
 def to_text(report: dict[str, Any]) -> str:
     """Plain-text summary of a report (what ``--format text`` prints)."""
     lines = [f"haarline {report['haarline_version']}  {_headline(report)}", ""]
-    e = report.get("expressibility")
-    if e:
-        lines += [
-            "Expressibility (KL divergence from Haar, nats; lower is more expressive)",
-            f"  KL       {e['kl']:.4f}   bias-corrected {e['corrected']:.4f}, 95% interval "
-            f"{_iv(e['interval'])}",
-            f"           (an exactly Haar circuit would show {e['bias']:.4f} at this sample size)",
-            f"  E[F^2]   {e['second_moment']:.4g}   95% interval "
-            f"{e['second_moment_interval'][0]:.4g} .. {e['second_moment_interval'][1]:.4g}   "
-            f"Haar {e['haar_second_moment']:.4g}",
-            f"  {e['pairs']} pairs, {e['bins']} bins",
-            "",
-        ]
-    m = report.get("entanglement")
-    if m:
-        lines += [
-            "Entangling capability (Meyer-Wallach, 0 = product states, 1 = maximal)",
-            f"  mean     {m['meyer_wallach']:.4f}   95% interval {_iv(m['interval'])}   "
-            f"std {m['std']:.4f}   Haar {m['haar_meyer_wallach']:.4f}",
-            f"  {m['samples']} samples",
-            "",
-        ]
-    t = report.get("trainability")
-    if t:
-        cost = t["cost"] if isinstance(t["cost"], str) else "Pauli sum"
-        lines.append(
-            f"Trainability (variance of dC/dtheta, {cost} cost, {t['samples']} samples per point,"
-            f" {t['layers_rule']})"
-        )
-        lines.append(
-            f"  {'qubits':>6} {'layers':>6} {'params':>6} {'variance':>10} "
-            f"{'95% interval':>23} {'smallest':>10} {'largest':>10}"
-        )
-        rows = [("", p) for p in t["points"]]
-        if t["layer_points"]:
-            rows.append(("  depth scan", None))
-            rows += [("", p) for p in t["layer_points"]]
-        for label, p in rows:
-            if p is None:
-                lines.append(label)
-                continue
-            lines.append(
-                f"  {p['qubits']:>6} {p['layers']:>6} {p['parameters']:>6} {p['variance']:>10.3e}"
-                f" {p['interval'][0]:>10.3e} .. {p['interval'][1]:>9.3e} {p['smallest']:>10.3e}"
-                f" {p['largest']:>10.3e}"
-            )
-        if t["fit"]:
-            e, pw = t["fit"]["exponential"], t["fit"]["power"]
-            lines.append(
-                f"  fits: exponential decay {-e['slope']:.3g} ± {e['slope_stderr']:.2g} nats/qubit "
-                f"(AIC {e['aic']:.3g}); power law exponent {pw['slope']:.3g} ± "
-                f"{pw['slope_stderr']:.2g} (AIC {pw['aic']:.3g})"
-            )
-        lines.append(f"  verdict: {t['reason']}")
-        lines.append("")
-    c = report.get("capacity")
-    if c:
-        lines += [
-            "Capacity (rank of the quantum Fisher information)",
-            f"  rank {c['qfi_rank']} of {c['parameters']} parameters, {c['redundant']} redundant;"
-            f" pure-state ceiling 2^(n+1)-2 = {c['max_rank']} (largest over {c['points']} "
-            f"points, eigenvalues below {c['tolerance']:g} x largest count as zero)",
-        ]
-        if c["redundant_parameters"]:
-            shown = ", ".join(
-                f"{r['parameter']} ({r['step']}, {r['kind']})"
-                for r in c["redundant_parameters"][:8]
-            )
-            more = len(c["redundant_parameters"]) - 8
-            lines.append(f"  redundant: {shown}" + (f" and {more} more" if more > 0 else ""))
-        lines.append("")
-    lie = report.get("lie")
-    if lie:
-        lines.append("Dynamical Lie algebra (of the generators; predicts deep circuits at any n)")
-        lines.append(
-            f"  {'qubits':>6} {'dim':>8} {'of 4^n-1':>9}  {'predicted Var[C]':>16}  "
-            f"{'sampled Var[C] (95% interval)':>30}"
-        )
-        for p in lie["points"]:
-            dim = f"{p['dimension']}" + ("" if p["complete"] else "+")
-            pred = p.get("prediction") or {}
-            predicted = f"{pred['variance']:.4g}" if pred.get("applies") else "-"
-            s = p.get("sampled")
-            sampled = (
-                f"{s['variance']:.4g} ({s['interval'][0]:.3g} .. {s['interval'][1]:.3g})"
-                if s
-                else "-"
-            )
-            lines.append(
-                f"  {p['qubits']:>6} {dim:>8} {p['maximum']:>9}  {predicted:>16}  {sampled:>30}"
-            )
-        if lie.get("summary"):
-            lines.append(f"  {lie['summary']}")
-        lines.append("")
+    for name, row in REGISTRY.items():
+        section = report.get(name)
+        if section:
+            lines += [*row.text(section, report), ""]
     sweep = report.get("sweep")
     if sweep:
         lines.append("Layer sweep")
@@ -132,12 +66,14 @@ def to_text(report: dict[str, Any]) -> str:
         if has_mw:
             header += f" {'MW':>7} {'MW 95% interval':>16}"
         lines.append(header)
-        for row in sweep:
-            line = f"  {row['layers']:>6} {row['parameters']:>6} {row['depth']:>5}"
+        for entry in sweep:
+            line = f"  {entry['layers']:>6} {entry['parameters']:>6} {entry['depth']:>5}"
             if has_kl:
-                line += f" {row['kl']:>8.4f} {_iv(row['kl_interval']):>18}"
+                line += f" {entry['kl']:>8.4f} {_iv(entry['kl_interval']):>18}"
             if has_mw:
-                line += f" {row['meyer_wallach']:>7.4f} {_iv(row['meyer_wallach_interval'], 3):>16}"
+                line += (
+                    f" {entry['meyer_wallach']:>7.4f} {_iv(entry['meyer_wallach_interval'], 3):>16}"
+                )
             lines.append(line)
         lines.append("")
     pol = report.get("policy")
@@ -169,56 +105,13 @@ def to_markdown(
     out = [f"## haarline: {report['circuit']['name']}", "", _headline(report) + ".", ""]
     if page:
         out += [f"Full report page: [{page}]({page})", ""]
-    rows = []
-    e = report.get("expressibility")
-    if e:
-        rows.append(
-            f"| Expressibility (KL, nats; bias-corrected {e['corrected']:.4f}) | {e['kl']:.4f} | "
-            f"{_iv(e['interval'])} | "
-            f"0 (bias at {e['pairs']} pairs: {e['bias']:.4f}) |"
-        )
-        rows.append(
-            f"| Fidelity second moment E[F²] | {e['second_moment']:.4g} | "
-            f"{e['second_moment_interval'][0]:.4g} .. {e['second_moment_interval'][1]:.4g} | "
-            f"{e['haar_second_moment']:.4g} |"
-        )
-    m = report.get("entanglement")
-    if m:
-        rows.append(
-            f"| Meyer-Wallach | {m['meyer_wallach']:.4f} | {_iv(m['interval'])} | "
-            f"{m['haar_meyer_wallach']:.4f} |"
-        )
-    t = report.get("trainability")
-    if t:
-        last = t["points"][-1]
-        cost = t["cost"] if isinstance(t["cost"], str) else "Pauli sum"
-        rows.append(
-            f"| Gradient variance at n = {last['qubits']} ({cost} cost) | "
-            f"{last['variance']:.3e} | {last['interval'][0]:.3e} .. {last['interval'][1]:.3e} | |"
-        )
-        if t["fit"]:
-            e = t["fit"]["exponential"]
-            lo, hi = -e["slope"] - 1.96 * e["slope_stderr"], -e["slope"] + 1.96 * e["slope_stderr"]
-            rows.append(
-                f"| Variance decay per qubit (nats) | {-e['slope']:.3f} | {lo:.3f} .. {hi:.3f} | |"
-            )
-    lie = report.get("lie")
-    if lie and lie["points"]:
-        last = lie["points"][-1]
-        rows.append(
-            f"| DLA dimension at n = {last['qubits']} | {last['dimension']}"
-            f"{'' if last['complete'] else ' (at least)'} | | 4^n - 1 = {last['maximum']} |"
-        )
-    c = report.get("capacity")
-    if c:
-        rows.append(
-            f"| QFI rank / parameters | {c['qfi_rank']} / {c['parameters']} | | ceiling "
-            f"{c['max_rank']} |"
-        )
+    rows = [
+        f"| {r.label} | {r.value} | {r.interval} | {r.reference} |" for r in headline_rows(report)
+    ]
     if rows:
         out += ["| metric | value | 95% interval | Haar |", "| --- | --- | --- | --- |", *rows, ""]
-    if t:
-        out += [f"**Trainability verdict:** {t['reason'][0].upper()}{t['reason'][1:]}.", ""]
+    for title, sentence in verdicts(report):
+        out += [f"**{title} verdict:** {sentence}", ""]
     pol = report.get("policy")
     if pol:
         out += [

@@ -50,7 +50,7 @@ _PART = {"layers_sweep": "the layer sweep"} | {m: f"the {m} metric" for m in haa
 
 
 def _check_limits(estimate: haarline.Estimate, settings: Settings, cap: float, route: str) -> None:
-    if estimate.cost > cap:
+    if estimate.work > cap:
         hint = (
             "lower pairs, samples, grad_samples or the scan, or submit it as a job with "
             "POST /v1/analyses"
@@ -59,9 +59,9 @@ def _check_limits(estimate: haarline.Estimate, settings: Settings, cap: float, r
         )
         top = estimate.largest()
         if top is not None:
-            share = estimate.parts[top] / estimate.cost
+            share = estimate.parts[top] / estimate.work
             hint = f"{_PART.get(top, top)} accounts for {share:.0%} of it; {hint}"
-        raise OverLimit("cost (amplitude-gate updates)", cap, estimate.cost, hint)
+        raise OverLimit("work (amplitude-gate updates)", cap, estimate.work, hint)
     if estimate.memory > settings.max_memory_bytes:
         raise OverLimit(
             "memory (bytes)",
@@ -95,13 +95,13 @@ def admit_compare(
 ) -> tuple[dict[str, Any], haarline.Estimate]:
     """Validate, estimate and canonicalize a comparison request."""
     circuits = []
-    total_cost, memory = 0.0, 0
+    total_work, memory = 0.0, 0
     for i, source in enumerate(body.circuits):
         circuit, stored = _resolve(source, f"circuits[{i}]")
         est = haarline.estimate(circuit, body.options, memory_budget=settings.memory_budget)
-        total_cost += est.cost
+        total_work += est.work
         memory = max(memory, est.memory)
         circuits.append(stored)
-    estimate = haarline.Estimate(cost=total_cost, memory=memory)
+    estimate = haarline.Estimate(work=total_work, memory=memory)
     _check_limits(estimate, settings, settings.max_cost, "job")
     return {"circuits": circuits, "options": body.options.model_dump(mode="json")}, estimate

@@ -122,13 +122,14 @@ def install_openapi(app: FastAPI) -> None:
     FastAPI adds a 422 with its own error schema to every route with parameters; a route
     that did not declare 422 cannot return one here, so it is dropped. A declared problem
     response is served as ``application/problem+json`` only, with the problem schema
-    (FastAPI files that schema under the route's own media type, JSON or HTML).
+    (FastAPI files that schema under the route's own media type, JSON or HTML). The
+    options' ``metrics`` field lists what each metric of the registry measures.
     """
     build = app.openapi
 
     def openapi() -> dict[str, Any]:
         if app.openapi_schema is None:
-            app.openapi_schema = _declared_problems_only(build())
+            app.openapi_schema = _metrics_described(_declared_problems_only(build()))
         return app.openapi_schema
 
     app.openapi = openapi  # type: ignore[method-assign]
@@ -152,6 +153,15 @@ def _declared_problems_only(document: dict[str, Any]) -> dict[str, Any]:
     schemas = document.get("components", {}).get("schemas", {})
     for name in ("HTTPValidationError", "ValidationError"):
         schemas.pop(name, None)
+    return document
+
+
+def _metrics_described(document: dict[str, Any]) -> dict[str, Any]:
+    options = document.get("components", {}).get("schemas", {}).get("AnalysisOptions")
+    if options is not None:
+        options["properties"]["metrics"]["description"] = "Metrics to compute, in any order: " + (
+            "; ".join(f"{name}: {row.about}" for name, row in haarline.REGISTRY.items())
+        )
     return document
 
 

@@ -67,6 +67,21 @@ def _policy(args: argparse.Namespace, options: haarline.AnalysisOptions) -> haar
     return policy
 
 
+_CONTEXT_FLAGS = {"memory_budget": "--memory-budget", "workers": "--workers"}
+
+
+def _context(args: argparse.Namespace, progress: haarline.Progress) -> haarline.Context:
+    """The execution context of the flags; its problems name the flags."""
+    try:
+        return haarline.Context(
+            memory_budget=args.memory_budget, workers=args.workers, progress=progress
+        )
+    except haarline.OptionError as exc:
+        raise haarline.OptionError(
+            [haarline.Problem(_CONTEXT_FLAGS.get(p.path, p.path), p.message) for p in exc.problems]
+        ) from None
+
+
 def _run_analysis(
     circuit: haarline.Circuit,
     options: haarline.AnalysisOptions,
@@ -75,13 +90,7 @@ def _run_analysis(
 ) -> dict[str, Any]:
     progress = TerminalProgress()
     try:
-        report = haarline.analyze(
-            circuit,
-            options,
-            memory_budget=args.memory_budget,
-            progress=progress,
-            workers=args.workers,
-        )
+        report = haarline.analyze(circuit, options, context=_context(args, progress))
     finally:
         progress.close()
     if policy is not None:
@@ -229,8 +238,9 @@ def build_parser() -> argparse.ArgumentParser:
     """The argument parser (exposed for tests and the docs)."""
     parser = argparse.ArgumentParser(
         prog="haarline",
-        description="Score parameterized quantum circuits against the Haar baseline: "
-        "expressibility and entangling capability.",
+        description="Score parameterized quantum circuits against the Haar baseline. Metrics: "
+        + "; ".join(f"{name}: {row.about}" for name, row in haarline.REGISTRY.items())
+        + ".",
         epilog="FILE is a .json/.yaml description, ref:NAME for a bundled circuit "
         "(see 'haarline references'), or - for JSON on stdin. "
         "Exit codes: 0 ok, 1 policy failed, 2 bad input.",

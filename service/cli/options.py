@@ -14,6 +14,7 @@ from typing import Any
 
 import haarline
 from haarline.circuit.model import MAX_LAYERS
+from haarline.engine.context import MAX_WORKERS
 from haarline.report.options import DEFAULT_METRICS, DEFAULT_SEED
 from haarline.service.errors import UsageError
 
@@ -125,23 +126,23 @@ def _int_list(text: str) -> list[int]:
     return values
 
 
-def _positive_int(text: str) -> int:
+def _worker_count(text: str) -> int:
     try:
         value = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected a positive integer, got {text!r}") from None
-    if not 1 <= value <= 256:
-        raise argparse.ArgumentTypeError(f"expected 1..256, got {value}")
+    if not 1 <= value <= MAX_WORKERS:
+        raise argparse.ArgumentTypeError(f"expected 1..{MAX_WORKERS}, got {value}")
     return value
 
 
 def _metric_list(text: str) -> list[str]:
     names = [part.strip() for part in text.split(",") if part.strip()]
     for name in names:
-        if name not in haarline.METRICS:
+        if name not in haarline.REGISTRY:
             raise argparse.ArgumentTypeError(
                 f"unknown metric {name!r}; expected a comma-separated list of: "
-                f"{', '.join(haarline.METRICS)}"
+                f"{', '.join(haarline.REGISTRY)}"
             )
     if not names:
         raise argparse.ArgumentTypeError("expected at least one metric")
@@ -173,8 +174,8 @@ def add_analysis_flags(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--metrics",
         type=_metric_list,
-        help=f"comma-separated subset of: {','.join(haarline.METRICS)} "
-        f"(default: {','.join(DEFAULT_METRICS)})",
+        help=f"comma-separated subset of: {','.join(haarline.REGISTRY)} "
+        f"(default: {','.join(DEFAULT_METRICS)}); 'haarline --help' says what each measures",
     )
     p.add_argument("--pairs", type=int, help="fidelity pairs for expressibility (default 5000)")
     p.add_argument("--bins", type=int, help="fidelity histogram bins (default 75)")
@@ -221,7 +222,7 @@ def add_analysis_flags(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--workers",
-        type=_positive_int,
+        type=_worker_count,
         default=1,
         help="processes sharing the sampling (default 1); the numbers do not depend on it",
     )

@@ -26,7 +26,7 @@ from haarline.service.jobs.store import Store
 __all__ = [
     "ORPHAN_EXIT",
     "PARENT_POLL",
-    "JobCancelled",
+    "StageFraction",
     "execute_job",
     "follow_parent",
     "run_request",
@@ -44,16 +44,31 @@ ORPHAN_EXIT = 70
 
 
 def _stages(kind: str, request: dict[str, Any]) -> int:
-    """How many progress stages the analysis will report (for the overall fraction)."""
-    options = request.get("options", {})
-    metrics = options.get("metrics") or ["expressibility", "entanglement"]
-    per = sum(m in metrics for m in ("expressibility", "entanglement"))
-    count = per
-    if "trainability" in metrics:
-        count += len(options.get("scan") or [0, 0, 0, 0]) + len(options.get("depth_scan") or [])
-    count += per * len(options.get("layers_sweep") or [])
-    circuits = len(request.get("circuits", [None])) if kind == "compare" else 1
-    return max(1, count * circuits)
+    """At most how many progress stages the job reports (for the overall fraction)."""
+    options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
+    specs = request["circuits"] if kind == "compare" else [request]
+    return max(1, sum(haarline.progress_stages(circuit_of(s), options) for s in specs))
+
+
+class StageFraction:
+    """The overall fraction of a job from the ``(stage, done, count)`` reports it makes.
+
+    ``total`` is the registry's upper bound on the stages
+    (:func:`haarline.progress_stages`); each change of stage name completes one, so the
+    fraction only reaches 1 when the last possible stage is done (a stage that is skipped
+    makes the fraction jump at the end, never run ahead of the work).
+    """
+
+    def __init__(self, total: int):
+        self.total = max(1, total)
+        self.seen: list[str] = []
+
+    def __call__(self, stage: str, done: int, count: int) -> float:
+        """Record a report; return the overall fraction done."""
+        if not self.seen or self.seen[-1] != stage:
+            self.seen.append(stage)
+        part = done / count if count else 1.0
+        return min(1.0, (len(self.seen) - 1 + part) / self.total)
 
 
 def circuit_of(spec: dict[str, Any]) -> haarline.Circuit:
@@ -76,20 +91,19 @@ def run_request(
 ) -> tuple[dict[str, Any], str, dict[str, bytes]]:
     """Run one stored request; return (report or comparison, Markdown, PNGs)."""
     options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
+    context = haarline.Context(memory_budget=memory_budget, progress=progress)
     if kind == "compare":
         reports, sources = [], []
         for i, spec in enumerate(request["circuits"]):
             circuit = circuit_of(spec)
-            reports.append(
-                haarline.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
-            )
+            reports.append(haarline.analyze(circuit, options, context=context))
             sources.append(spec.get("reference") or f"circuits[{i}]")
         result = haarline.compare_reports(reports, sources)
         images = haarline.comparison_files(reports)
         links = [f"plots/{name}" for name in sorted(images)]
         return result, haarline.compare_markdown(result, images=links), images
     circuit = circuit_of(request)
-    report = haarline.analyze(circuit, options, memory_budget=memory_budget, progress=progress)
+    report = haarline.analyze(circuit, options, context=context)
     images = haarline.plot_files(report, haarline.expand(circuit))
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
@@ -127,18 +141,19 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
     if job is None or job["state"] != "running":
         return "skipped"
     kind, request = job["kind"], job["request"]
-    total = _stages(kind, request)
-    seen: list[str] = []
+    try:
+        total = _stages(kind, request)
+    except (haarline.InputError, haarline.LimitError):
+        total = 1  # run_request below fails with the problem itself
+    fraction = StageFraction(total)
     last = [0.0]
 
     def progress(stage: str, done: int, count: int) -> None:
-        if not seen or seen[-1] != stage:
-            seen.append(stage)
+        frac = fraction(stage, done, count)
         now = time.monotonic()
         if now - last[0] < PROGRESS_INTERVAL and done < count:
             return
         last[0] = now
-        frac = min(1.0, (len(seen) - 1 + (done / count if count else 1.0)) / total)
         if store.set_progress(job_id, round(frac, 4), stage):
             raise JobCancelled
 
