@@ -9,8 +9,8 @@ Examples
 >>> import haarline
 >>> circuit = haarline.load_reference("ry-cz-ring")
 >>> report = haarline.analyze(circuit, haarline.AnalysisOptions(pairs=200, samples=100))
->>> sorted(report)[:4]
-['capacity', 'cautions', 'circuit', 'entanglement']
+>>> report["expressibility"]["pairs"], report["entanglement"]["samples"]
+(200, 100)
 """
 
 from haarline._version import __version__
@@ -18,11 +18,12 @@ from haarline.circuit.gates import GATES, GateSpec, gate_matrix, lookup
 from haarline.circuit.loading import load_circuit, parse_circuit_text
 from haarline.circuit.model import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from haarline.circuit.placements import placement
-from haarline.circuit.program import Operation, Program, expand, facts
+from haarline.circuit.program import Encoding, Operation, Program, expand, facts
 from haarline.circuit.qasm.export import to_qasm
 from haarline.circuit.qasm.parse import parse_qasm
 from haarline.circuit.references import load_reference, reference_names
 from haarline.engine.context import Context, Precision, Progress
+from haarline.engine.draws import Draws, InputLaw, Vary
 from haarline.engine.sampling import Stream, draw_angles
 from haarline.engine.statevector import (
     DEFAULT_MEMORY_BUDGET,
@@ -33,6 +34,7 @@ from haarline.engine.statevector import (
 )
 from haarline.errors import (
     CircuitError,
+    DataError,
     HaarlineError,
     InputError,
     LimitError,
@@ -78,6 +80,16 @@ from haarline.metrics.haar import (
     haar_meyer_wallach,
     haar_second_moment,
 )
+from haarline.metrics.kernel import (
+    KernelPoint,
+    alignment,
+    geometric_difference,
+    kernel_matrix,
+    kernel_values,
+    projected_values,
+    rbf_kernel,
+    summarize_kernel,
+)
 from haarline.metrics.observables import NAMED_COSTS, Observable, make_observable
 from haarline.metrics.sampled_loss import (
     LossVariance,
@@ -85,6 +97,7 @@ from haarline.metrics.sampled_loss import (
     deep_loss_variance,
     loss_variance,
 )
+from haarline.metrics.spectrum import FeatureSpectrum, feature_frequencies, spectrum
 from haarline.metrics.trainability import Trainability, trainability
 from haarline.plots.algebra import algebra_dimension_png, algebra_dimension_series
 from haarline.plots.comparison import comparison_files, comparison_png, comparison_series
@@ -97,9 +110,18 @@ from haarline.plots.figures import (
     meyer_wallach_series,
     plot_files,
 )
+from haarline.plots.models import (
+    kernel_matrix_png,
+    kernel_matrix_series,
+    kernel_scan_png,
+    kernel_scan_series,
+    spectrum_png,
+    spectrum_series,
+)
 from haarline.plots.scans import sweep_png, sweep_series, variance_scan_png, variance_series
 from haarline.report.assemble import REPORT_FORMAT, analyze
-from haarline.report.metric_row import MetricRow, TableRow, Work
+from haarline.report.data import Dataset, dataset_from, load_data
+from haarline.report.metric_row import MetricRow, Request, TableRow, Work
 from haarline.report.options import METRICS, AnalysisOptions, parse_options
 from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from haarline.report.ranking import compare_markdown, compare_reports
@@ -123,13 +145,20 @@ __all__ = [
     "CircuitError",
     "CircuitGenerators",
     "Context",
+    "DataError",
+    "Dataset",
+    "Draws",
+    "Encoding",
     "Entanglement",
     "Estimate",
     "Expressibility",
+    "FeatureSpectrum",
     "GateSpec",
     "HaarlineError",
     "Ideal",
     "InputError",
+    "InputLaw",
+    "KernelPoint",
     "LieDiagnosis",
     "LimitError",
     "LossVariance",
@@ -139,22 +168,25 @@ __all__ = [
     "OptionError",
     "PauliExpansion",
     "Policy",
-    "Precision",
     "PolicyError",
+    "Precision",
     "Problem",
     "Program",
     "Progress",
+    "Request",
     "Step",
     "Stream",
     "TableRow",
     "Trainability",
     "VariancePoint",
     "VariancePrediction",
+    "Vary",
     "Work",
     "__version__",
     "adjoint_gradients",
     "algebra_dimension_png",
     "algebra_dimension_series",
+    "alignment",
     "analyze",
     "anticommutes",
     "bracket",
@@ -170,6 +202,7 @@ __all__ = [
     "compile_program",
     "conjugate",
     "cost_values",
+    "dataset_from",
     "deep_layers",
     "deep_loss_variance",
     "diagonal_expansion",
@@ -182,11 +215,13 @@ __all__ = [
     "expand",
     "expressibility",
     "facts",
+    "feature_frequencies",
     "fidelities",
     "fidelity_histogram_png",
     "fidelity_series",
     "gate_matrix",
     "generate_algebra",
+    "geometric_difference",
     "growth_fit",
     "haar_bin_log_masses",
     "haar_bin_masses",
@@ -195,9 +230,16 @@ __all__ = [
     "headline_rows",
     "independent_count",
     "is_clifford",
+    "kernel_matrix",
+    "kernel_matrix_png",
+    "kernel_matrix_series",
+    "kernel_scan_png",
+    "kernel_scan_series",
+    "kernel_values",
     "lie_diagnosis",
     "lie_scan",
     "load_circuit",
+    "load_data",
     "load_policy",
     "load_reference",
     "lookup",
@@ -221,8 +263,10 @@ __all__ = [
     "predict_variance",
     "product_phase",
     "progress_stages",
+    "projected_values",
     "quantum_fisher",
     "qubit_purities",
+    "rbf_kernel",
     "reference_names",
     "requested",
     "rotation_generator",
@@ -230,7 +274,11 @@ __all__ = [
     "run",
     "shift_gradients",
     "simple_algebra_names",
+    "spectrum",
+    "spectrum_png",
+    "spectrum_series",
     "state_jacobian",
+    "summarize_kernel",
     "sweep_png",
     "sweep_series",
     "to_markdown",

@@ -5,7 +5,9 @@
     HaarlineError                  base of everything haarline raises on purpose
     ├── InputError (ValueError)    the caller gave something we cannot use
     │   ├── CircuitError           a circuit description is malformed or invalid
-    │   └── OptionError            analysis options are out of range
+    │   ├── OptionError            analysis options are out of range
+    │   ├── DataError              a data set has a bad row or column
+    │   └── PolicyError            a policy file is malformed (haarline.report.policy)
     └── LimitError                 the work would exceed a configured limit
 
 Every ``InputError`` carries a list of :class:`Problem` entries, each naming the
@@ -21,6 +23,7 @@ from dataclasses import dataclass
 
 __all__ = [
     "CircuitError",
+    "DataError",
     "HaarlineError",
     "InputError",
     "LimitError",
@@ -85,6 +88,10 @@ class CircuitError(InputError):
 
 class OptionError(InputError):
     """Analysis options are missing, of the wrong type or out of range."""
+
+
+class DataError(InputError):
+    """A data set cannot be used; the problems name the row and the column."""
 
 
 class LimitError(HaarlineError):

@@ -12,7 +12,8 @@ figures in ``bench/precision.json``:
 
 - a fidelity, a Meyer-Wallach value or a cost value moves by at most 1e-5 (measured: 7e-7,
   6e-6);
-- a variance (of gradients or of the loss) moves by at most 1e-4 relative (measured 2e-6);
+- a variance (of gradients, of the loss or of the kernel) moves by at most 1e-4 relative
+  (measured 2e-6); a Fourier weight by at most 1e-6;
 - the fidelity histogram moves by at most one pair per 1000 (a fidelity within 1e-5 of a
   bin edge can change bins), and so the KL by little;
 - capacity does not move at all: it always runs in double precision (its rank threshold
@@ -26,14 +27,15 @@ import numpy as np
 import pytest
 from haarline import AnalysisOptions, Context, analyze, parse_circuit
 
-# a pattern-written 4-qubit circuit with a small Lie algebra, so every metric runs fast
+# a pattern-written 4-qubit re-uploading model, so every metric of the registry applies
 ISING = parse_circuit(
     {
         "name": "context-check",
         "qubits": 4,
+        "inputs": 4,
         "layers": 2,
         "layer": [
-            {"gate": "rx", "on": "all"},
+            {"gate": "rx", "on": "all", "input": "qubit"},
             {"gate": "rzz", "on": "chain"},
             {"gate": "ry", "on": "all"},
             {"gate": "cz", "on": "ring"},
@@ -49,6 +51,8 @@ EVERY = AnalysisOptions(
     grad_samples=200,
     scan=[2, 3, 4],
     capacity_points=3,
+    kernel_pairs=600,
+    spectrum_samples=4,
     cost="local",
     seed=11,
 )
@@ -100,6 +104,12 @@ def test_single_precision_moves_each_metric_only_within_its_bound(one):
     assert sampled, "the check needs at least one sampled deep-circuit point"
     for a, b in sampled:
         assert b["variance"] == pytest.approx(a["variance"], rel=1e-4)
+    k1, k2 = one["kernel"], single["kernel"]
+    assert k2["mean"] == pytest.approx(k1["mean"], abs=1e-5)
+    assert k2["variance"] == pytest.approx(k1["variance"], rel=1e-4)
+    for f1, f2 in zip(one["spectrum"]["features"], single["spectrum"]["features"], strict=True):
+        assert f2["frequencies"] == f1["frequencies"]
+        np.testing.assert_allclose(f2["weights"], f1["weights"], atol=1e-6)
 
 
 def test_the_deep_loss_variance_honours_workers_and_precision():

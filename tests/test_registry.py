@@ -24,18 +24,19 @@ from haarline.service.cli import main as cli
 from haarline.service.jobs.worker import StageFraction
 from haarline.service.settings import Settings
 
-SMALL = parse_circuit(
-    {
-        "name": "registry-check",
-        "qubits": 3,
-        "layers": 2,
-        "layer": [
-            {"gate": "rx", "on": "all"},
-            {"gate": "rzz", "on": "chain"},
-            {"gate": "ry", "on": "all"},
-        ],
-    }
-)
+# a small re-uploading model: every metric of the registry applies to it
+DESCRIPTION = {
+    "name": "registry-check",
+    "qubits": 3,
+    "inputs": 3,
+    "layers": 2,
+    "layer": [
+        {"gate": "rx", "on": "all", "input": "qubit"},
+        {"gate": "rzz", "on": "chain"},
+        {"gate": "ry", "on": "all"},
+    ],
+}
+SMALL = parse_circuit(DESCRIPTION)
 OPTIONS = {
     "pairs": 200,
     "bins": 10,
@@ -43,6 +44,8 @@ OPTIONS = {
     "grad_samples": 30,
     "scan": [2, 3],
     "capacity_points": 2,
+    "kernel_pairs": 100,
+    "spectrum_samples": 3,
     "seed": 3,
 }
 
@@ -105,7 +108,7 @@ def test_progress_stages_bound_what_each_metric_reports(name):
     analyze(SMALL, options, context=Context(progress=record))
     bound = haarline.progress_stages(SMALL, options)
     assert 1 <= len(stages) <= bound
-    if name != "lie":  # the others know their stages exactly
+    if name not in ("lie", "kernel"):  # these two may skip stages; the others know them
         assert len(stages) == bound
 
 
@@ -120,15 +123,18 @@ def test_a_lie_job_never_shows_100_percent_while_it_still_works():
     assert seen == sorted(seen)
 
 
-def test_the_cli_accepts_every_row_and_says_what_each_measures(capsys):
+def test_the_cli_accepts_every_row_and_says_what_each_measures(capsys, tmp_path):
     assert cli.main(["--help"]) == 0
     text = " ".join(capsys.readouterr().out.split())
     for name, row in REGISTRY.items():
         assert f"{name}: {' '.join(row.about.split())}" in text
+    path = tmp_path / "model.json"
+    path.write_text(json.dumps(DESCRIPTION))
     code = cli.main(
-        ["analyze", "ref:rx-product", "--metrics", ",".join(REGISTRY), "--format", "json",
+        ["analyze", str(path), "--metrics", ",".join(REGISTRY), "--format", "json",
          "--pairs", "50", "--samples", "20", "--grad-samples", "10", "--scan", "2,3",
-         "--capacity-points", "1", "--bins", "5"]
+         "--capacity-points", "1", "--bins", "5", "--kernel-pairs", "50",
+         "--spectrum-samples", "2"]
     )  # fmt: skip
     assert code == 0
     report = json.loads(capsys.readouterr().out)
@@ -144,5 +150,5 @@ def test_the_service_accepts_every_row_and_its_schema_lists_them(tmp_path):
         for row in REGISTRY.values():
             assert row.about in metrics["description"]
         for name in REGISTRY:
-            body = {"reference": "rx-product", "options": {"metrics": [name], "scan": [2, 3]}}
+            body = {"circuit": DESCRIPTION, "options": {"metrics": [name], "scan": [2, 3]}}
             assert client.post("/v1/analyses", json=body).status_code == 202, name

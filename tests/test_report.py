@@ -32,11 +32,14 @@ def test_keys_are_stable():
         "haarline_version",
         "circuit",
         "options",
+        "data",
         "expressibility",
         "entanglement",
         "trainability",
         "capacity",
         "lie",
+        "kernel",
+        "spectrum",
         "sweep",
         "policy",
         "cautions",
@@ -62,6 +65,8 @@ def test_keys_are_stable():
         "gates",
         "two_qubit_gates",
         "depth",
+        "inputs",
+        "input_gates",
     }
     assert r["options"]["seed"] == 7
 
@@ -239,6 +244,14 @@ _MODULE_ONLY = {
     "count_text",
     "interval_text",
     "Section",
+    "inputs_at",
+    "ScanPoint",
+    "Wording",
+    "check_inputs",
+    "default_vary",
+    "draws_for",
+    "input_law",
+    "draw_normal",
 }
 
 

@@ -4,6 +4,7 @@ import pytest
 from haarline.circuit.model import parse_circuit
 from haarline.circuit.program import expand
 from haarline.circuit.references import load_reference
+from haarline.errors import OptionError
 from haarline.report.options import METRICS, AnalysisOptions
 from haarline.report.sections.lie import _as_sums
 from haarline.report.workload import PRODUCT_COST, estimate
@@ -12,13 +13,28 @@ from haarline.service.settings import Settings
 BUDGET = 1 << 30
 
 
+MODEL = parse_circuit(
+    {
+        "qubits": 4,
+        "inputs": 4,
+        "layers": 2,
+        "layer": [{"gate": "rx", "input": "qubit"}, {"gate": "ry"}, {"gate": "cz", "on": "ring"}],
+    }
+)
+
+
 @pytest.mark.parametrize("metric", METRICS)
 def test_every_metric_alone_has_a_cost_and_a_memory(metric):
     # a metric missing from the estimate would be admitted at cost 0 by the service
-    e = estimate(
-        load_reference("ry-cz-ring"), AnalysisOptions(metrics=[metric]), memory_budget=BUDGET
-    )
+    e = estimate(MODEL, AnalysisOptions(metrics=[metric]), memory_budget=BUDGET)
     assert e.work > 0 and e.memory > 0
+
+
+def test_a_kernel_of_a_circuit_without_inputs_is_refused_before_any_work():
+    with pytest.raises(OptionError, match="kernel needs a circuit with inputs"):
+        estimate(
+            load_reference("ry-cz-ring"), AnalysisOptions(metrics=["kernel"]), memory_budget=BUDGET
+        )
 
 
 @pytest.mark.parametrize(

@@ -24,11 +24,20 @@ from typing import Annotated, Any, Literal
 
 from haarline.circuit.gates import ALIASES, GATES
 from haarline.errors import CircuitError, Problem, format_path
-from pydantic import BaseModel, ConfigDict, Field, StrictBool, StrictInt, ValidationError
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    StrictBool,
+    StrictInt,
+    ValidationError,
+    field_validator,
+)
 from pydantic.json_schema import WithJsonSchema
 
 __all__ = [
     "MAX_DESCRIPTION_BYTES",
+    "MAX_INPUTS",
     "MAX_LAYERS",
     "MAX_QUBITS",
     "MAX_STEPS",
@@ -49,6 +58,8 @@ MAX_STEPS = 1_000
 """Largest number of steps in each of ``prepare``, ``layer`` and ``finish``."""
 MAX_DESCRIPTION_BYTES = 1_048_576
 """Largest description file or body accepted, in bytes (1 MiB)."""
+MAX_INPUTS = 1_000
+"""Largest number of input features a description may declare."""
 
 ONE_QUBIT_PATTERNS = ("all",)
 TWO_QUBIT_PATTERNS = ("chain", "ring", "pairs", "brick-even", "brick-odd")
@@ -84,11 +95,32 @@ _ON_SCHEMA: dict[str, Any] = {
 
 Angle = Annotated[float, Field(allow_inf_nan=False)]
 
+_INPUT_SCHEMA: dict[str, Any] = {
+    "anyOf": [
+        {"type": "integer", "minimum": 0},
+        {"type": "string", "enum": ["qubit", "product"]},
+        {"type": "null"},
+    ],
+    "default": None,
+}
+
 
 class Step(BaseModel):
     """One step: a gate and where it goes."""
 
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+
+    @field_validator("input")
+    @classmethod
+    def _input(cls, value: Any) -> int | str | None:
+        if value is None or value in ("qubit", "product"):
+            return value  # type: ignore[no-any-return]
+        if isinstance(value, int) and not isinstance(value, bool) and value >= 0:
+            return value
+        raise ValueError(
+            f"got {_describe(value)}{_kind_note(value)}; expected a feature index 0..D-1, "
+            "'qubit' or 'product'"
+        )
 
     gate: GateName = Field(description="Gate name from the gate table (aliases accepted).")
     on: Annotated[Any, WithJsonSchema(_ON_SCHEMA)] = "all"
@@ -110,6 +142,17 @@ class Step(BaseModel):
         default=None,
         description="Name of one trainable parameter used by every target of this step and "
         "by every other step that gives the same name (in every layer).",
+    )
+    input: Annotated[Any, WithJsonSchema(_INPUT_SCHEMA)] = Field(
+        default=None,
+        description="Make the angle an input feature instead of a trainable parameter: k "
+        "(feature x_k on every target), 'qubit' (one-qubit gates: feature x_q on target q) "
+        "or 'product' (two-qubit rotations: angle (pi - x_a)(pi - x_b) on the pair (a, b), "
+        "Havlicek et al., Nature 567, 209, 2019). Steps of 'layer' re-upload it every layer.",
+    )
+    scale: Angle | None = Field(
+        default=None,
+        description="Multiplies the input angle (default 1); only with 'input'.",
     )
 
 
@@ -139,6 +182,12 @@ class Circuit(BaseModel):
     description: str | None = Field(default=None, max_length=2000)
     qubits: StrictInt = Field(ge=1, le=MAX_QUBITS, description="Number of qubits.")
     layers: StrictInt = Field(default=1, ge=1, le=MAX_LAYERS, description="Repetitions of 'layer'.")
+    inputs: StrictInt = Field(
+        default=0,
+        ge=0,
+        le=MAX_INPUTS,
+        description="Number D of input features x_0..x_(D-1) that steps with 'input' encode.",
+    )
     prepare: list[Step] = Field(default_factory=list, max_length=MAX_STEPS)
     layer: list[Step] = Field(max_length=MAX_STEPS)
     finish: list[Step] = Field(default_factory=list, max_length=MAX_STEPS)
@@ -271,6 +320,8 @@ def validation_problems(exc: ValidationError | Sequence[Mapping[str, Any]]) -> l
             msg = f"got {_describe(value)}; expected {ctx.get('expected')}"
         elif kind in _TYPE_WORDS:
             msg = f"expected {_TYPE_WORDS[kind]}, got {_describe(value)}{_kind_note(value)}"
+        elif kind == "value_error":
+            msg = str(ctx.get("error", err["msg"]))
         elif kind == "finite_number":
             msg = f"expected a finite number, got {_describe(value)}"
         elif kind in ("greater_than_equal", "less_than_equal", "greater_than", "less_than"):
@@ -311,6 +362,8 @@ def _bounds(loc: tuple[str | int, ...]) -> tuple[int, int]:
         return 1, MAX_QUBITS
     if loc and loc[-1] == "layers":
         return 1, MAX_LAYERS
+    if loc and loc[-1] == "inputs":
+        return 0, MAX_INPUTS
     return 0, 0
 
 

@@ -11,21 +11,25 @@ and depth; :func:`time_steps` holds the depth rule, which the circuit diagram's 
 from __future__ import annotations
 
 from collections import Counter
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
+import numpy as np
 from haarline.circuit.gates import lookup
 from haarline.circuit.model import MAX_LAYERS, MAX_QUBITS, Circuit, Step, _describe
 from haarline.circuit.placements import step_targets
 from haarline.errors import CircuitError, Problem
+from numpy.typing import NDArray
 
 __all__ = [
     "MAX_OPERATIONS",
+    "Encoding",
     "Operation",
     "Program",
     "expand",
     "expand_at",
     "facts",
+    "inputs_at",
     "time_steps",
 ]
 
@@ -44,13 +48,17 @@ class Operation:
     qubits : tuple of int
         Qubits in the gate's own order (control first for controlled gates).
     param : int or None
-        Index of the trainable parameter that gives the angle, if any.
+        The column of the angle vector that gives the angle, if any: columns
+        ``0 .. P-1`` are the trainable parameters, columns ``P ..`` the input encodings
+        (``encoding`` says which).
     angle : float or None
         Fixed angle (radians) for a parameterized gate with ``angle`` set.
     step : str
         JSON path of the step that produced it, e.g. ``"layer[1]"``.
     layer : int or None
         Repetition index (0-based) for steps of ``layer``; ``None`` for prepare/finish.
+    encoding : int or None
+        For a gate whose angle is an input: its index in ``Program.encodings``.
     """
 
     gate: str
@@ -59,16 +67,40 @@ class Operation:
     angle: float | None = None
     step: str = ""
     layer: int | None = None
+    encoding: int | None = None
+
+
+@dataclass(frozen=True)
+class Encoding:
+    """How one gate's angle follows from the inputs ``x``.
+
+    ``scale * x[f]`` for one feature ``f``; for ``product``, the second-order map
+    ``scale * (π - x[a]) * (π - x[b])`` of Havlíček et al. (Nature 567, 209, 2019).
+    """
+
+    features: tuple[int, ...]
+    scale: float = 1.0
+    product: bool = False
+
+    def angle(self, x: NDArray[np.float64]) -> NDArray[np.float64]:
+        """The angle for every row of ``x`` (shape ``(B, D)``), shape ``(B,)``."""
+        if self.product:
+            a, b = self.features
+            return self.scale * (np.pi - x[:, a]) * (np.pi - x[:, b])
+        return self.scale * x[:, self.features[0]]
 
 
 @dataclass(frozen=True)
 class Program:
     """An expanded, validated circuit: what the engine runs.
 
-    ``parameters`` is the length of the parameter vector θ; operation ``k`` with
-    ``param = p`` uses angle ``θ[p]``. ``parameter_steps[p]`` is the JSON path of the step
-    that introduced parameter ``p`` and ``parameter_names[p]`` its ``param`` name (or
-    ``None``).
+    ``parameters`` is the length ``P`` of the trainable parameter vector θ;
+    ``parameter_steps[p]`` is the JSON path of the step that introduced parameter ``p`` and
+    ``parameter_names[p]`` its ``param`` name (or ``None``). A description with inputs
+    also has ``inputs`` features ``x`` and one :class:`Encoding` per gate whose angle is an
+    input. The engine runs on angle vectors of ``columns = P + len(encodings)`` entries:
+    ``θ`` followed by the encoded inputs (:meth:`angles`); operation ``k`` with
+    ``param = c`` uses column ``c``.
     """
 
     name: str
@@ -78,17 +110,133 @@ class Program:
     parameters: int
     parameter_steps: tuple[str, ...] = field(default=())
     parameter_names: tuple[str | None, ...] = field(default=())
+    inputs: int = 0
+    encodings: tuple[Encoding, ...] = field(default=())
 
     @property
     def dimension(self) -> int:
         """Hilbert-space dimension ``2**qubits``."""
         return 1 << self.qubits
 
+    @property
+    def columns(self) -> int:
+        """Entries of the angle vector the engine runs on: parameters, then encodings."""
+        return self.parameters + len(self.encodings)
 
-def _check_step(step: Step, path: str, section: str) -> None:
+    def angles(
+        self, thetas: NDArray[np.float64], x: NDArray[np.float64] | None = None
+    ) -> NDArray[np.float64]:
+        """The engine's angle vectors ``(B, columns)`` from ``θ`` ``(B, P)`` and ``x`` ``(B, D)``.
+
+        Examples
+        --------
+        >>> from haarline.circuit.model import parse_circuit
+        >>> c = parse_circuit({"qubits": 2, "inputs": 2,
+        ...                    "layer": [{"gate": "ry"}, {"gate": "rx", "input": "qubit"}]})
+        >>> expand(c).angles(np.array([[0.1, 0.2]]), np.array([[1.0, 2.0]])).tolist()
+        [[0.1, 0.2, 1.0, 2.0]]
+        """
+        thetas = np.asarray(thetas, dtype=float)
+        if thetas.ndim != 2 or thetas.shape[1] != self.parameters:
+            raise ValueError(f"thetas must have shape (B, {self.parameters}), got {thetas.shape}")
+        if not self.encodings:
+            return thetas
+        if x is None:
+            raise ValueError(f"{self.name} encodes {self.inputs} inputs: give x")
+        x = np.asarray(x, dtype=float)
+        if x.shape != (len(thetas), self.inputs):
+            raise ValueError(f"x must have shape ({len(thetas)}, {self.inputs}), got {x.shape}")
+        encoded = np.stack([e.angle(x) for e in self.encodings], axis=1)
+        return np.concatenate([thetas, encoded], axis=1)
+
+
+def inputs_at(circuit: Circuit, qubits: int) -> int:
+    """The number of input features of the description instantiated at ``qubits``.
+
+    A description with as many inputs as qubits that places them by qubit (``"input":
+    "qubit"`` or ``"product"``) has one input per qubit at any size, so scans can
+    re-instantiate it; otherwise the count is the one written.
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> c = parse_circuit({"qubits": 2, "inputs": 2, "layer": [{"gate": "rx", "input": "qubit"}]})
+    >>> inputs_at(c, 5), inputs_at(c.model_copy(update={"inputs": 3}), 5)
+    (5, 3)
+    """
+    by_qubit = any(
+        step.input in ("qubit", "product")
+        for step in (*circuit.prepare, *circuit.layer, *circuit.finish)
+    )
+    if by_qubit and circuit.inputs == circuit.qubits:
+        return qubits
+    return circuit.inputs
+
+
+def _check_input(step: Step, path: str, inputs: int) -> None:
+    spec = lookup(step.gate)
+    if step.input is None:
+        if step.scale is not None:
+            raise CircuitError(
+                [Problem(f"{path}.scale", "'scale' multiplies an input angle; give 'input' too")]
+            )
+        return
+    for key in ("angle", "share", "param"):
+        if getattr(step, key) is not None:
+            raise CircuitError(
+                [
+                    Problem(
+                        f"{path}.input",
+                        f"an input angle cannot be combined with '{key}': the angle comes "
+                        "from the data; give 'input' or one of 'angle', 'share', 'param'",
+                    )
+                ]
+            )
+    if inputs == 0:
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.input",
+                    f"got {_describe(step.input)}, but the description declares no inputs; "
+                    'add "inputs": D (the number of features) at the top level',
+                )
+            ]
+        )
+    if isinstance(step.input, int) and step.input >= inputs:
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.input",
+                    f"feature {step.input} is out of range for {inputs} inputs (0..{inputs - 1})",
+                )
+            ]
+        )
+    if step.input == "product" and spec.qubits != 2:
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.input",
+                    f"'product' encodes a pair of features on a two-qubit rotation; {step.gate!r} "
+                    "acts on one qubit (use a feature index or 'qubit')",
+                )
+            ]
+        )
+    if step.input == "qubit" and spec.qubits != 1:
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.input",
+                    f"'qubit' gives each target qubit its own feature; {step.gate!r} acts on two "
+                    "qubits (use 'product' or a feature index)",
+                )
+            ]
+        )
+
+
+def _check_step(step: Step, path: str, section: str, inputs: int = 0) -> None:
     spec = lookup(step.gate)
     if not spec.takes_angle:
-        for key in ("angle", "share", "param"):
+        for key in ("angle", "share", "param", "input", "scale"):
             if getattr(step, key) is not None:
                 raise CircuitError(
                     [
@@ -172,12 +320,27 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
             [Problem("layers", f"got {_describe(reps)}; allowed range is 1..{MAX_LAYERS}")]
         )
     sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
+    d = inputs_at(circuit, n)
     targets: dict[str, list[tuple[int, ...]]] = {}
     for section, steps in sections:
         for i, step in enumerate(steps):
             path = f"{section}[{i}]"
-            _check_step(step, path, section)
+            _check_step(step, path, section, d)
+            _check_input(step, path, d)
             targets[path] = step_targets(step, path, n)
+            if step.input in ("qubit", "product"):
+                for qs in targets[path]:
+                    for q in qs:
+                        if q >= d:
+                            raise CircuitError(
+                                [
+                                    Problem(
+                                        f"{path}.input",
+                                        f"qubit {q} would encode feature x_{q}, but there are "
+                                        f"{d} inputs (0..{d - 1})",
+                                    )
+                                ]
+                            )
 
     total = (
         sum(len(targets[f"prepare[{i}]"]) for i in range(len(circuit.prepare)))
@@ -211,6 +374,8 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
 
     names: list[str | None] = []
     named: dict[str, int] = {}
+    encodings: list[Encoding] = []
+    encoded: list[int] = []  # operation index of every input gate, in order
 
     def new_param(path: str, name: str | None = None) -> int:
         owners.append(path)
@@ -224,6 +389,13 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
             step_param: int | None = None
             for k, qs in enumerate(targets[path]):
                 param: int | None = None
+                if step.input is not None:
+                    features = (step.input,) if isinstance(step.input, int) else qs
+                    scale = 1.0 if step.scale is None else step.scale
+                    encodings.append(Encoding(features, scale, step.input == "product"))
+                    encoded.append(len(ops))
+                    ops.append(Operation(spec.name, qs, None, None, path, layer))
+                    continue
                 if spec.takes_angle and step.angle is None:
                     if step.param is not None:
                         if step.param not in named:
@@ -246,14 +418,20 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     for rep in range(reps):
         emit("layer", circuit.layer, rep)
     emit("finish", circuit.finish, None)
+    # input angles come after the trainable parameters in the engine's angle vector
+    p = len(owners)
+    for j, index in enumerate(encoded):
+        ops[index] = replace(ops[index], param=p + j, encoding=j)
     return Program(
         name=circuit.name,
         qubits=n,
         layers=reps,
         operations=tuple(ops),
-        parameters=len(owners),
+        parameters=p,
         parameter_steps=tuple(owners),
         parameter_names=tuple(names),
+        inputs=d,
+        encodings=tuple(encodings),
     )
 
 
@@ -340,6 +518,8 @@ def facts(program: Program) -> dict[str, Any]:
         "qubits": program.qubits,
         "layers": program.layers,
         "parameters": program.parameters,
+        "inputs": program.inputs,
+        "input_gates": len(program.encodings),
         "gates": len(program.operations),
         "gate_counts": dict(sorted(counts.items())),
         "two_qubit_gates": sum(1 for op in program.operations if len(op.qubits) == 2),

@@ -21,7 +21,8 @@ from typing import Any
 import numpy as np
 from haarline.circuit.program import Program
 from haarline.engine.context import Context, Progress
-from haarline.engine.sampling import BLOCK_SIZE, draw_angles
+from haarline.engine.draws import Draws
+from haarline.engine.sampling import BLOCK_SIZE
 from haarline.engine.statevector import Plan, compile_program, rows_per_chunk, run
 from numpy.typing import NDArray
 
@@ -61,16 +62,18 @@ def chunked_states(
     progress: Progress | None = None,
     stage: str = "",
     start: int = 0,
+    draws: Draws | None = None,
 ) -> Iterator[tuple[int, NDArray]]:
     """Yield ``(offset, states)`` with ``states`` of shape ``(rows, copies, 2**n)``.
 
     Sample ``start + offset + i`` uses row ``start + offset + i`` of the stream, of width
-    ``copies * P``: ``copies`` independent parameter vectors (2 for fidelity pairs). The
+    ``copies * P``: ``copies`` independent parameter vectors (2 for fidelity pairs); with
+    ``draws``, its angle vectors follow :class:`~haarline.engine.draws.Draws`. The
     chunk size follows from the memory budget; the numbers do not. The yielded array is
     reused for the next chunk: use it before asking for the next one.
     """
     plan: Plan = compile_program(program)
-    p = program.parameters
+    draws = draws or Draws()
     rows = max(1, min(count, rows_per_chunk(program.qubits, memory_budget, dtype) // copies))
     buffer: NDArray = np.empty((rows * copies, 1 << program.qubits), dtype=dtype)
     done = 0
@@ -78,7 +81,7 @@ def chunked_states(
         progress(stage, 0, count)
     while done < count:
         k = min(rows, count - done)
-        thetas = draw_angles(seed, stream, start + done, k, copies * p).reshape(k * copies, p)
+        thetas = draws.angles(program, seed, stream, start + done, k, copies)
         states = buffer[: k * copies]
         states.fill(0)
         states[:, 0] = 1.0
@@ -117,6 +120,7 @@ def sample_map(
     stream: int | tuple[int, ...],
     context: Context,
     stage: str = "",
+    draws: Draws | None = None,
 ) -> NDArray:
     """``func(states, n)`` for every sample, in sample order: an array ``(count, ...)``.
 
@@ -135,6 +139,7 @@ def sample_map(
         "stream": stream,
         "memory_budget": share.memory_budget,
         "dtype": share.dtype,
+        "draws": draws,
     }
     if workers == 1:
         options.update(progress=context.progress, stage=stage)

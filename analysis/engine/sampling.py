@@ -16,7 +16,7 @@ from enum import IntEnum
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["BLOCK_SIZE", "MAX_SEED", "Stream", "block_rng", "draw_angles"]
+__all__ = ["BLOCK_SIZE", "MAX_SEED", "Stream", "block_rng", "draw_angles", "draw_normal"]
 
 BLOCK_SIZE = 64
 """Parameter vectors per block."""
@@ -35,6 +35,12 @@ class Stream(IntEnum):
     CAPACITY = 4
     LOSS = 5
     IDEALS = 6
+    INPUTS = 7
+    """Input features; a sub-stream per using stream (sample k's x beside its θ)."""
+    FIXED = 8
+    """The one parameter vector (or input vector) held fixed while the other varies."""
+    KERNEL = 9
+    SPECTRUM = 10
 
 
 def _key(stream: int | tuple[int, ...]) -> tuple[int, ...]:
@@ -75,12 +81,36 @@ def draw_angles(
     >>> np.array_equal(whole[40:90], draw_angles(3, 0, 40, 50, 5))
     True
     """
+    return _rows(seed, stream, start, count, width, normal=False)
+
+
+def draw_normal(
+    seed: int, stream: int | tuple[int, ...], start: int, count: int, width: int
+) -> NDArray[np.float64]:
+    """Rows ``start .. start+count-1`` of a stream of i.i.d. standard normal numbers.
+
+    Examples
+    --------
+    >>> whole = draw_normal(3, 7, 0, 100, 2)
+    >>> np.array_equal(whole[63:70], draw_normal(3, 7, 63, 7, 2))
+    True
+    """
+    return _rows(seed, stream, start, count, width, normal=True)
+
+
+def _rows(
+    seed: int, stream: int | tuple[int, ...], start: int, count: int, width: int, *, normal: bool
+) -> NDArray[np.float64]:
     out = np.empty((count, width), dtype=float)
     if count == 0 or width == 0:
         return out
     first, last = start // BLOCK_SIZE, (start + count - 1) // BLOCK_SIZE
     for block in range(first, last + 1):
-        rows = block_rng(seed, stream, block).uniform(0.0, 2 * np.pi, size=(BLOCK_SIZE, width))
+        rng = block_rng(seed, stream, block)
+        if normal:
+            rows = rng.standard_normal(size=(BLOCK_SIZE, width))
+        else:
+            rows = rng.uniform(0.0, 2 * np.pi, size=(BLOCK_SIZE, width))
         lo = max(start, block * BLOCK_SIZE)
         hi = min(start + count, (block + 1) * BLOCK_SIZE)
         out[lo - start : hi - start] = rows[lo - block * BLOCK_SIZE : hi - block * BLOCK_SIZE]

@@ -137,7 +137,8 @@ def _compile(program: Program) -> Plan:
         if op.param is None:
             fixed = matrix_spec.matrix(np.array([op.angle or 0.0]))[0]
         steps.append(PlanStep(spec, op.qubits, op.param, fixed))
-    return Plan(program.qubits, program.parameters, tuple(steps))
+    # the angle vector holds the trainable parameters, then the encoded inputs
+    return Plan(program.qubits, program.columns, tuple(steps))
 
 
 def zero_states(batch: int, qubits: int, dtype: type = np.complex128) -> NDArray:
@@ -384,8 +385,10 @@ def run(
     ----------
     program : Program or Plan
         The expanded circuit (a :class:`Plan` skips recompiling).
-    thetas : ndarray of float, shape (B, P)
-        One parameter vector per batch row; ``P = program.parameters`` (may be 0).
+    thetas : ndarray of float, shape (B, C)
+        One angle vector per batch row: the ``P`` trainable parameters, then, for a
+        circuit with inputs, its encoded input angles (``C = program.columns``; build them
+        with :meth:`~haarline.circuit.program.Program.angles`).
     states : ndarray of complex, shape (B, 2**n), optional
         Initial states, updated in place; default |0…0⟩ for every row.
     dtype : numpy complex dtype
@@ -408,7 +411,14 @@ def run(
     plan = program if isinstance(program, Plan) else compile_program(program)
     thetas = np.asarray(thetas, dtype=float)
     if thetas.ndim != 2 or thetas.shape[1] != plan.parameters:
-        raise ValueError(f"thetas must have shape (B, {plan.parameters}), got {thetas.shape}")
+        raise ValueError(
+            f"thetas must have shape (B, {plan.parameters}), got {thetas.shape}"
+            + (
+                ""
+                if plan.parameters == thetas.shape[-1]
+                else "; a circuit with inputs runs on Program.angles(thetas, x)"
+            )
+        )
     n = plan.qubits
     if states is None:
         states = zero_states(thetas.shape[0], n, dtype)

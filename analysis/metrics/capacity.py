@@ -27,7 +27,8 @@ import numpy as np
 from haarline.circuit.program import Program
 from haarline.engine.batching import block_map, worker_count
 from haarline.engine.context import Context
-from haarline.engine.sampling import Stream, draw_angles
+from haarline.engine.draws import Draws
+from haarline.engine.sampling import Stream
 from haarline.engine.statevector import apply_generator, apply_step, compile_program
 from numpy.typing import NDArray
 from scipy import linalg
@@ -59,6 +60,8 @@ def state_jacobian(program: Program, theta: NDArray[np.float64]) -> tuple[NDArra
     plan = compile_program(program)
     n = plan.qubits
     theta = np.asarray(theta, dtype=float).reshape(1, -1)
+    if theta.shape[1] != plan.parameters:
+        raise ValueError(f"theta must have {plan.parameters} angles, got {theta.shape[1]}")
     occurrences = [s for s in plan.steps if s.param is not None]
     rows = np.zeros((1 + len(occurrences), 1 << n), dtype=complex)
     rows[0, 0] = 1.0
@@ -75,9 +78,10 @@ def state_jacobian(program: Program, theta: NDArray[np.float64]) -> tuple[NDArra
             rows[r] *= -0.5j
             owner[r - 1] = step.param
             r += 1
-    jac = np.zeros((1 << n, program.parameters), dtype=complex)
+    jac = np.zeros((1 << n, plan.parameters), dtype=complex)
     np.add.at(jac.T, owner, rows[1:])
-    return rows[0], jac
+    # only the trainable parameters: the columns after them are input angles
+    return rows[0], jac[:, : program.parameters]
 
 
 def quantum_fisher(program: Program, theta: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -127,6 +131,7 @@ def capacity(
     seed: int = 1,
     tolerance: float = DEFAULT_RANK_TOLERANCE,
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> Capacity:
     """QFI rank, redundant parameters and the pure-state ceiling.
 
@@ -156,7 +161,11 @@ def capacity(
     if p == 0:
         return Capacity(0, 0, 0, ceiling, tolerance, 0, [], [], [])
     context = context or Context()
-    thetas = draw_angles(seed, (Stream.CAPACITY, program.qubits, program.layers), 0, points, p)
+    # the QFI is with respect to θ: the inputs (if any) stay at one draw
+    fixed = Draws(vary="parameters", law=(draws or Draws()).law)
+    thetas = fixed.angles(
+        program, seed, (Stream.CAPACITY, program.qubits, program.layers), 0, points
+    )
     # one Jacobian pass carries P + 1 states
     workers = min(worker_count(context, program, points, p + 1), points)
     groups = np.array_split(np.arange(points), workers)

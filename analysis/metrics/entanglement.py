@@ -16,6 +16,7 @@ import numpy as np
 from haarline.circuit.program import Program
 from haarline.engine.batching import sample_map
 from haarline.engine.context import Context
+from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream
 from haarline.metrics.haar import haar_meyer_wallach
 from haarline.metrics.intervals import mean_interval
@@ -122,6 +123,7 @@ def entangling_capability(
     samples: int = 2000,
     seed: int = 1,
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> Entanglement:
     """Mean Meyer-Wallach value of a program over ``samples`` random parameter vectors.
 
@@ -156,6 +158,7 @@ def entangling_capability(
         stream=Stream.ENTANGLEMENT,
         context=context or Context(),
         stage="entanglement",
+        draws=draws,
     )
     return summarize_meyer_wallach(values, program.qubits)
 

@@ -32,6 +32,7 @@ import numpy as np
 from haarline.circuit.program import Program
 from haarline.engine.batching import sample_map
 from haarline.engine.context import Context
+from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream, block_rng
 from haarline.metrics.haar import haar_bin_log_masses, haar_second_moment
 from haarline.metrics.intervals import mean_interval
@@ -89,11 +90,16 @@ def fidelities(
     pairs: int,
     seed: int,
     context: Context | None = None,
+    draws: Draws | None = None,
+    stream: int | tuple[int, ...] = Stream.EXPRESSIBILITY,
+    stage: str = "expressibility",
 ) -> NDArray[np.float64]:
     """Fidelities ``|⟨ψ(θ)|ψ(φ)⟩|²`` of ``pairs`` independent random parameter pairs.
 
     The context's worker processes share the pairs (blocks of 64); the values are
-    bit-identical to one worker's.
+    bit-identical to one worker's. ``draws`` says what varies between the two states of a
+    pair for a circuit with inputs (:class:`~haarline.engine.draws.Draws`; the fidelity
+    kernel is the case of varying inputs).
 
     Returns
     -------
@@ -105,9 +111,10 @@ def fidelities(
         count=pairs,
         copies=2,
         seed=seed,
-        stream=Stream.EXPRESSIBILITY,
+        stream=stream,
         context=context or Context(),
-        stage="expressibility",
+        stage=stage,
+        draws=draws,
     )
 
 
@@ -225,6 +232,7 @@ def expressibility(
     bins: int = 75,
     seed: int = 1,
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> Expressibility:
     """Expressibility of a program (Sim, Johnson & Aspuru-Guzik 2019).
 
@@ -265,5 +273,5 @@ def expressibility(
     >>> bool(np.isclose(e.kl, 3 * np.log(10)))
     True
     """
-    fids = fidelities(program, pairs=pairs, seed=seed, context=context)
+    fids = fidelities(program, pairs=pairs, seed=seed, context=context, draws=draws)
     return divergence_from_haar(fids, program.qubits, bins=bins, seed=seed)

@@ -18,7 +18,8 @@ import numpy as np
 from haarline.circuit.program import Program
 from haarline.engine.batching import block_map, blocks_for, worker_count
 from haarline.engine.context import Context, Progress
-from haarline.engine.sampling import Stream, draw_angles
+from haarline.engine.draws import Draws
+from haarline.engine.sampling import Stream
 from haarline.engine.statevector import compile_program, rows_per_chunk
 from haarline.errors import CircuitError, Problem
 from haarline.metrics.gradients import adjoint_gradients, cost_values, shift_gradients
@@ -61,10 +62,16 @@ def _gradient_block(
     memory_budget: int,
     method: str,
     dtype: type,
+    draws: Draws | None = None,
     progress: Progress | None = None,
     stage: str = "",
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    """Costs and gradients of samples ``start .. start+count-1`` (also run in workers)."""
+    """Costs and gradients of samples ``start .. start+count-1`` (also run in workers).
+
+    Gradients are taken with respect to the trainable parameters only (an input angle's
+    column is left out).
+    """
+    draws = draws or Draws()
     observable = make_observable(cost, program.qubits)
     plan = compile_program(program)
     stream = (Stream.GRADIENTS, program.qubits, program.layers)
@@ -75,14 +82,14 @@ def _gradient_block(
     done = 0
     while done < count:
         k = min(rows, count - done)
-        thetas = draw_angles(seed, stream, start + done, k, program.parameters)
+        thetas = draws.angles(program, seed, stream, start + done, k)
         if method == "adjoint":
             c, g = adjoint_gradients(plan, thetas, observable, dtype=dtype)
         else:
             c = cost_values(plan, thetas, observable, dtype=dtype)
             g = shift_gradients(plan, thetas, observable, dtype=dtype)
         costs[done : done + k] = c
-        grads[done : done + k] = g
+        grads[done : done + k] = g[:, : program.parameters]
         done += k
         if progress is not None:
             progress(stage, done, count)
@@ -98,6 +105,7 @@ def gradient_samples(
     stage: str = "gradients",
     method: str = "adjoint",
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Costs ``(S,)`` and gradients ``(S, P)`` at ``samples`` random parameter vectors.
 
@@ -115,12 +123,12 @@ def gradient_samples(
     if workers == 1:
         context.report(stage, 0, samples)
         return _gradient_block(
-            program, cost, 0, samples, seed, budget, method, dtype, context.progress, stage
+            program, cost, 0, samples, seed, budget, method, dtype, draws, context.progress, stage
         )
     blocks = blocks_for(samples, workers)
     parts = block_map(
         _gradient_block,
-        [(program, cost, s, c, seed, budget, method, dtype) for s, c in blocks],
+        [(program, cost, s, c, seed, budget, method, dtype, draws) for s, c in blocks],
         context=context,
         stage=stage,
         sizes=[c for _, c in blocks],

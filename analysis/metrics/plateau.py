@@ -10,11 +10,11 @@ there to the scan points of :mod:`haarline.metrics.trainability`.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import asdict, dataclass
-from typing import Any
+from typing import Any, Protocol
 
 import numpy as np
-from haarline.metrics.gradient_variance import VariancePoint
 from numpy.typing import NDArray
 
 __all__ = [
@@ -23,6 +23,8 @@ __all__ = [
     "MIN_FIT_POINTS",
     "MIN_FIT_QUBITS",
     "Fit",
+    "ScanPoint",
+    "Wording",
     "fit_decay",
     "verdict",
 ]
@@ -35,6 +37,35 @@ DECISIVE_AIC = 2.0
 """AIC difference above which one model is called favoured (Burnham & Anderson, 2002)."""
 FLAT_DECAY = 0.25
 """Decay per qubit (nats) below which a non-significant decay is called flat."""
+
+
+class ScanPoint(Protocol):
+    """A point of a scan over qubit counts: a variance estimate and its standard error."""
+
+    @property
+    def qubits(self) -> int:
+        """The qubit count of the point."""
+        ...
+
+    @property
+    def variance(self) -> float:
+        """The variance estimate."""
+        ...
+
+    @property
+    def standard_error(self) -> float:
+        """Its standard error."""
+        ...
+
+
+@dataclass(frozen=True)
+class Wording:
+    """How a verdict names what it decides (the rule is the same for every scan)."""
+
+    quantity: str = "gradient variance"
+    positive: str = "barren plateau"
+    negative: str = "not a barren plateau"
+    more: str = "--grad-samples"
 
 
 @dataclass(frozen=True)
@@ -72,7 +103,7 @@ def _wls(x: NDArray, y: NDArray, sigma: NDArray, model: str) -> Fit:
     )
 
 
-def fit_decay(points: list[VariancePoint]) -> dict[str, Fit] | None:
+def fit_decay(points: Sequence[ScanPoint]) -> dict[str, Fit] | None:
     """Fit ``ln Var`` against ``n`` and against ``ln n``; ``None`` if fewer than 3 usable points.
 
     Each point is weighted by ``1/σ²`` with ``σ = se/Var``, the standard error of ``ln Var``.
@@ -89,8 +120,13 @@ def fit_decay(points: list[VariancePoint]) -> dict[str, Fit] | None:
     }
 
 
-def verdict(points: list[VariancePoint], fits: dict[str, Fit] | None) -> tuple[bool | None, str]:
+def verdict(
+    points: Sequence[ScanPoint], fits: dict[str, Fit] | None, wording: Wording | None = None
+) -> tuple[bool | None, str]:
     """The barren-plateau verdict and the one-line reason for it.
+
+    ``wording`` names the quantity and the verdict for other scans (the kernel's
+    concentration uses the same rule).
 
     Rule (also in the README):
 
@@ -103,6 +139,7 @@ def verdict(points: list[VariancePoint], fits: dict[str, Fit] | None) -> tuple[b
     5. If the power-law fit has the lower AIC by more than 2: ``False`` (polynomial decay).
     6. Otherwise: ``None`` (the data do not tell the two apart).
     """
+    w = wording or Wording()
     qs = sorted({p.qubits for p in points})
     if len(qs) < MIN_FIT_POINTS or qs[-1] < MIN_FIT_QUBITS:
         return None, (
@@ -112,7 +149,7 @@ def verdict(points: list[VariancePoint], fits: dict[str, Fit] | None) -> tuple[b
         )
     zero = [p.qubits for p in points if p.variance <= 0]
     if zero or fits is None:
-        return None, f"no verdict: the gradient variance is exactly zero at n = {zero}"
+        return None, f"no verdict: the {w.quantity} is exactly zero at n = {zero}"
     e, pw = fits["exponential"], fits["power"]
     d, se = -e.slope, e.slope_stderr
     span = f"n = {qs[0]}..{qs[-1]}"
@@ -120,22 +157,22 @@ def verdict(points: list[VariancePoint], fits: dict[str, Fit] | None) -> tuple[b
     if d - 2 * se <= 0:
         if d + 2 * se <= FLAT_DECAY:
             return False, (
-                f"not a barren plateau: the variance does not fall significantly with n over "
+                f"{w.negative}: the variance does not fall significantly with n over "
                 f"{span} (exponential decay {rate})"
             )
         return None, (
             f"no verdict: the variances are too noisy to tell a decay from none over {span} "
-            f"(exponential decay {rate}); draw more --grad-samples"
+            f"(exponential decay {rate}); draw more {w.more}"
         )
     delta = pw.aic - e.aic
     if delta > DECISIVE_AIC:
         return True, (
-            f"barren plateau: exponential decay favoured over a power law (AIC "
+            f"{w.positive}: exponential decay favoured over a power law (AIC "
             f"{e.aic:.3g} vs {pw.aic:.3g}) over {span}; the variance falls by {rate}"
         )
     if delta < -DECISIVE_AIC:
         return False, (
-            f"not a barren plateau: power-law decay favoured (AIC {pw.aic:.3g} vs "
+            f"{w.negative}: power-law decay favoured (AIC {pw.aic:.3g} vs "
             f"{e.aic:.3g}), Var ~ n^{pw.slope:.3g} ± {pw.slope_stderr:.2g} over {span}"
         )
     return None, (

@@ -17,7 +17,8 @@ from haarline.circuit.model import Circuit
 from haarline.circuit.program import Program, expand_at
 from haarline.engine.batching import block_map, blocks_for, worker_count
 from haarline.engine.context import Context, Progress
-from haarline.engine.sampling import Stream, draw_angles
+from haarline.engine.draws import Draws
+from haarline.engine.sampling import Stream
 from haarline.engine.statevector import compile_program, rows_per_chunk
 from haarline.metrics.gradients import cost_values
 from haarline.metrics.intervals import log_symmetric_interval, variance_standard_error
@@ -102,9 +103,11 @@ def _loss_block(
     seed: int,
     memory_budget: int,
     dtype: type,
+    draws: Draws | None = None,
     progress: Progress | None = None,
 ) -> NDArray[np.float64]:
     """Costs of samples ``start .. start+count-1`` (also run in worker processes)."""
+    draws = draws or Draws()
     observable = make_observable(cost, program.qubits)
     plan = compile_program(program)
     stream = (LOSS_STREAM, program.qubits, program.layers)
@@ -113,7 +116,7 @@ def _loss_block(
     done = 0
     while done < count:
         k = min(rows, count - done)
-        thetas = draw_angles(seed, stream, start + done, k, program.parameters)
+        thetas = draws.angles(program, seed, stream, start + done, k)
         costs[done : done + k] = cost_values(plan, thetas, observable, dtype=dtype)
         done += k
         if progress is not None:
@@ -133,6 +136,7 @@ def loss_variance(
     seed: int = 1,
     confidence: float = 0.95,
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> LossVariance:
     """Variance of the cost over random parameters at the program's own depth.
 
@@ -174,13 +178,13 @@ def loss_variance(
     budget, dtype = share.memory_budget, share.dtype
     if workers == 1:
         context.report(_stage(program), 0, samples)
-        costs = _loss_block(program, cost, 0, samples, seed, budget, dtype, context.progress)
+        costs = _loss_block(program, cost, 0, samples, seed, budget, dtype, draws, context.progress)
     else:
         blocks = blocks_for(samples, workers)
         costs = np.concatenate(
             block_map(
                 _loss_block,
-                [(program, cost, b, c, seed, budget, dtype) for b, c in blocks],
+                [(program, cost, b, c, seed, budget, dtype, draws) for b, c in blocks],
                 context=context,
                 stage=_stage(program),
                 sizes=[c for _, c in blocks],
@@ -216,6 +220,7 @@ def deep_loss_variance(
     seed: int = 1,
     confidence: float = 0.95,
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> LossVariance:
     """Loss variance of a deep version of the circuit, with a half-depth check.
 
@@ -238,6 +243,7 @@ def deep_loss_variance(
         "seed": seed,
         "confidence": confidence,
         "context": context,
+        "draws": draws,
     }
     deep = loss_variance(expand_at(circuit, qubits, layers), cost, **options)
     if layers < 2:

@@ -15,6 +15,7 @@ from typing import Any
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import expand_at
 from haarline.engine.context import Context
+from haarline.engine.draws import Draws
 from haarline.errors import OptionError, Problem
 from haarline.metrics.gradient_variance import VariancePoint, gradient_samples, summarize_gradients
 from haarline.metrics.plateau import Fit, fit_decay, verdict
@@ -100,6 +101,7 @@ def trainability(
     seed: int = 1,
     method: str = "adjoint",
     context: Context | None = None,
+    draws: Draws | None = None,
 ) -> Trainability:
     """Gradient-variance scan over qubit counts (and, optionally, over layer counts).
 
@@ -161,6 +163,7 @@ def trainability(
                 stage=f"gradients n={n} L={layers}",
                 method=method,
                 context=context,
+                draws=draws,
             )
             target.append(summarize_gradients(n, layers, c, g))
     fits = fit_decay(points)

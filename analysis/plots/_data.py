@@ -68,18 +68,17 @@ def interval(report: Report, *path: str) -> tuple[float, float]:
     return float(arr[0]), float(arr[1])
 
 
-def variance_points(report: Report, key: str) -> dict[str, Floats]:
-    """Columns ``qubits``, ``layers``, ``variance``, ``low``, ``high`` of ``trainability.key``."""
-    raw = need(report, "trainability", key)
+def variance_points(report: Report, key: str, metric: str = "trainability") -> dict[str, Floats]:
+    """Columns ``qubits``, ``layers``, ``variance``, ``low``, ``high`` of ``metric.key``."""
+    raw = need(report, metric, key)
     if not isinstance(raw, Sequence) or isinstance(raw, str):
-        raise ValueError(f"report key 'trainability.{key}': expected a list of points")
+        raise ValueError(f"report key '{metric}.{key}': expected a list of points")
     names = ("qubits", "layers", "variance", "interval")
     cols: dict[str, list[float]] = {k: [] for k in ("qubits", "layers", "variance", "low", "high")}
     for i, p in enumerate(raw):
         if not isinstance(p, Mapping) or any(p.get(k) is None for k in names):
             raise ValueError(
-                f"report key 'trainability.{key}[{i}]': expected qubits, layers, variance "
-                "and interval"
+                f"report key '{metric}.{key}[{i}]': expected qubits, layers, variance and interval"
             )
         for k in names[:3]:
             cols[k].append(float(p[k]))

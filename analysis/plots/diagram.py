@@ -36,8 +36,11 @@ def _key(lay: dict[str, Any]) -> str:
     angles = [g["angle"] for g in lay["gates"] if g["angle"]]
     words = []
     if any(sp.takes_angle for sp in specs.values()):
+        inputs = [a for a in angles if "x" in a]
+        fixed = [a for a in angles if a[0] != "θ" and "x" not in a]
         says = ["θk is trainable parameter k"] if any(a[0] == "θ" for a in angles) else []
-        says += ["a number a fixed angle in radians"] if any(a[0] != "θ" for a in angles) else []
+        says += ["xk is input feature k (times its scale)"] if inputs else []
+        says += ["a number a fixed angle in radians"] if fixed else []
         words.append("blue boxes are rotations" + (f" ({', '.join(says)})" if says else ""))
     if any(sp.qubits == 1 and not sp.takes_angle for sp in specs.values()) or "cy" in specs:
         words.append("orange boxes fixed gates")

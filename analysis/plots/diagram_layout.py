@@ -56,10 +56,18 @@ def _part_name(part: int, layers: int) -> tuple[str, str]:
     return f"layer {part}", str(part)
 
 
-def _texts(op: Operation) -> tuple[str, str]:
-    """What the gate's box (or target box) reads: the gate name and its angle, if any."""
+def _texts(op: Operation, program: Program) -> tuple[str, str]:
+    """What the gate's box (or target box) reads: the gate name and its angle, if any.
+
+    A trainable angle reads ``θk``; an input angle names its features (``x2``, ``3·x0``,
+    ``x0·x1`` for a product encoding).
+    """
     spec = lookup(op.gate)
     name = spec.target if spec.target and op.gate != "cx" else op.gate
+    if op.encoding is not None:
+        e = program.encodings[op.encoding]
+        text = "·".join(f"x{f}" for f in e.features)
+        return str(name), (text if e.scale == 1 else f"{e.scale:g}·{text}")
     if op.param is not None:
         return str(name), f"θ{op.param}"
     if op.angle is not None:
@@ -156,7 +164,7 @@ def diagram_layout(program: Program, *, max_columns: int = MAX_COLUMNS) -> dict[
     gates = []
     for k in drawn:
         op = program.operations[k]
-        name, angle = _texts(op)
+        name, angle = _texts(op, program)
         place = dict(index=k, gate=op.gate, qubits=tuple(op.qubits), step=steps[k])
         gates.append({**place, "column": column[k], "part": parts[k], "name": name, "angle": angle})
     spans: dict[int, list[int]] = {}

@@ -57,6 +57,7 @@ from haarline.circuit.program import Program
 from haarline.plots import _data as data
 from haarline.plots import _style as style
 from haarline.plots.diagram import circuit_diagram_png
+from haarline.plots.models import kernel_matrix_png, kernel_scan_png, spectrum_png
 from haarline.plots.scans import sweep_png, variance_scan_png
 from haarline.report.registry import REGISTRY
 
@@ -318,6 +319,10 @@ def _algebra_png(report: Report) -> bytes:
     return algebra_dimension_png(report)
 
 
+def _kernel(report: Report) -> Mapping[str, Any]:
+    return report.get("kernel") or {}
+
+
 DRAWERS: dict[str, tuple[Callable[[Report], bool], Callable[[Report], bytes]]] = {
     "fidelity.png": (lambda r: bool(r.get("expressibility")), fidelity_histogram_png),
     "entanglement.png": (lambda r: bool(r.get("entanglement")), meyer_wallach_png),
@@ -328,6 +333,14 @@ DRAWERS: dict[str, tuple[Callable[[Report], bool], Callable[[Report], bytes]]] =
     "algebra.png": (
         lambda r: any(p.get("dimension") for p in (r.get("lie") or {}).get("points", [])),
         _algebra_png,
+    ),
+    "kernel.png": (lambda r: len(_kernel(r).get("points") or []) > 1, kernel_scan_png),
+    "kernel_matrix.png": (lambda r: bool(_kernel(r).get("matrix")), kernel_matrix_png),
+    "spectrum.png": (
+        lambda r: any(
+            f.get("weights") is not None for f in (r.get("spectrum") or {}).get("features", [])
+        ),
+        spectrum_png,
     ),
 }
 """For each plot a registry row names: whether a report has its data, and its drawer."""

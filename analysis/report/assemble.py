@@ -19,6 +19,9 @@ from haarline._version import __version__
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import expand, facts
 from haarline.engine.context import Context
+from haarline.report.data import Dataset
+from haarline.report.inputs import check_inputs
+from haarline.report.metric_row import Request
 from haarline.report.options import AnalysisOptions
 from haarline.report.registry import REGISTRY, requested
 
@@ -41,6 +44,7 @@ def analyze(
     circuit: Circuit,
     options: AnalysisOptions | None = None,
     *,
+    data: Dataset | None = None,
     context: Context | None = None,
 ) -> dict[str, Any]:
     """Analyze a description and return the report dict.
@@ -51,6 +55,9 @@ def analyze(
         Validated description.
     options : AnalysisOptions, optional
         Defaults: expressibility and entanglement, 5000 pairs, 75 bins, 2000 samples, seed 1.
+    data : Dataset, optional
+        For a circuit with inputs: rows of features (and labels) to draw the inputs from
+        instead of the options' law (:mod:`haarline.report.data`).
     context : Context, optional
         Memory budget, worker processes and progress callback
         (:class:`~haarline.engine.context.Context`); none of them changes a number. Its
@@ -66,10 +73,12 @@ def analyze(
     start = time.perf_counter()
     timings: dict[str, float] = {}
     program = expand(circuit)
+    check_inputs(program, options, data)
+    request = Request(circuit=circuit, program=program, options=options, context=context, data=data)
     sections: dict[str, Any] = dict.fromkeys(REGISTRY)
     for row in requested(options):
         t = time.perf_counter()
-        sections[row.name] = row.compute(circuit, program, options, context)
+        sections[row.name] = row.compute(request)
         timings[row.name] = time.perf_counter() - t
     sweep = None
     if options.layers_sweep:
@@ -87,7 +96,7 @@ def analyze(
             }
             for row in swept:
                 assert row.sweep is not None
-                entry.update(row.sweep(row.compute(circuit, p, options, context)))
+                entry.update(row.sweep(row.compute(replace(request, program=p))))
             sweep.append(entry)
         timings["sweep"] = time.perf_counter() - t
     report: dict[str, Any] = {
@@ -95,6 +104,7 @@ def analyze(
         "haarline_version": __version__,
         "circuit": facts(program),
         "options": options.model_dump(),
+        "data": data.facts() if data is not None else None,
         **sections,
         "sweep": sweep,
         "policy": None,

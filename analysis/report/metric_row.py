@@ -18,12 +18,24 @@ if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.circuit.program import Program
     from haarline.engine.context import Context
+    from haarline.report.data import Dataset
     from haarline.report.options import AnalysisOptions, Metric
 
-__all__ = ["MetricRow", "Section", "TableRow", "Work"]
+__all__ = ["MetricRow", "Request", "Section", "TableRow", "Work"]
 
 Section = dict[str, Any]
 """A metric's object in the report (plain JSON types)."""
+
+
+@dataclass(frozen=True, kw_only=True)
+class Request:
+    """What one metric is asked to compute: the circuit, its program, options, context, data."""
+
+    circuit: Circuit
+    program: Program
+    options: AnalysisOptions
+    context: Context
+    data: Dataset | None = None
 
 
 @dataclass(frozen=True)
@@ -74,7 +86,7 @@ class MetricRow:
         The :class:`~haarline.report.options.AnalysisOptions` fields it reads (the others
         are ignored for it; ``seed`` and ``precision`` are read by every metric).
     compute : callable
-        ``compute(circuit, program, options, context) -> Section``.
+        ``compute(request) -> Section`` for a :class:`Request`.
     work : callable
         ``work(circuit, program, options, memory_budget) -> Work``: an upper-bound-style
         count taken before any computation (admission control, the CLI's estimate).
@@ -103,7 +115,7 @@ class MetricRow:
     title: str
     about: str
     options: tuple[str, ...]
-    compute: Callable[[Circuit, Program, AnalysisOptions, Context], Section]
+    compute: Callable[[Request], Section]
     work: Callable[[Circuit, Program, AnalysisOptions, int], Work]
     stages: Callable[[Circuit, AnalysisOptions], int]
     cautions: Callable[[Section, dict[str, Any]], list[str]] = _no_cautions

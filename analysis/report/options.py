@@ -10,7 +10,15 @@ from haarline.engine.sampling import MAX_SEED
 from haarline.errors import OptionError, Problem, format_path
 from haarline.metrics.observables import NAMED_COSTS, validate_cost
 from haarline.metrics.trainability import DEFAULT_SCAN
-from pydantic import BaseModel, ConfigDict, Field, StrictInt, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    StrictInt,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 from pydantic.json_schema import WithJsonSchema
 
 __all__ = [
@@ -23,9 +31,19 @@ __all__ = [
     "parse_options",
 ]
 
-Metric = Literal["expressibility", "entanglement", "trainability", "capacity", "lie"]
+Metric = Literal[
+    "expressibility", "entanglement", "trainability", "capacity", "lie", "kernel", "spectrum"
+]
 
-METRICS = ("expressibility", "entanglement", "trainability", "capacity", "lie")
+METRICS = (
+    "expressibility",
+    "entanglement",
+    "trainability",
+    "capacity",
+    "lie",
+    "kernel",
+    "spectrum",
+)
 """Metrics available in this version, in report order."""
 
 DEFAULT_METRICS: tuple[Metric, ...] = ("expressibility", "entanglement")
@@ -34,6 +52,8 @@ DEFAULT_METRICS: tuple[Metric, ...] = ("expressibility", "entanglement")
 DEFAULT_SEED = 1
 """Seed used when none is given, so that a plain run is reproducible."""
 
+
+FiniteFloat = Annotated[float, Field(allow_inf_nan=False, strict=False)]
 
 _COST_SCHEMA: dict[str, Any] = {
     "description": "Cost for the trainability scan: a named cost or a Pauli sum "
@@ -106,6 +126,37 @@ class AnalysisOptions(BaseModel):
     capacity_points: StrictInt = Field(
         default=4, ge=1, le=1000, description="Random points behind the QFI rank."
     )
+    vary: Literal["parameters", "inputs", "both"] | None = Field(
+        default=None,
+        description="For a circuit with inputs: what is random from sample to sample in the "
+        "expressibility and entanglement samples (the other is held at one random draw). "
+        "Default: parameters when the circuit has any, else inputs.",
+    )
+    inputs_uniform: list[FiniteFloat] | None = Field(
+        default=None,
+        min_length=2,
+        max_length=2,
+        description="Inputs drawn uniformly on [low, high) (the default law, on [0, 2pi)).",
+    )
+    inputs_normal: list[FiniteFloat] | None = Field(
+        default=None,
+        min_length=2,
+        max_length=2,
+        description="Inputs drawn from a normal law [mean, std] instead.",
+    )
+    kernel_pairs: StrictInt = Field(
+        default=5000, ge=2, le=10_000_000, description="Random input pairs per kernel point."
+    )
+    kernel_rows: StrictInt = Field(
+        default=60,
+        ge=2,
+        le=500,
+        description="Labelled data rows in the kernel matrix, its alignment and the "
+        "geometric difference (the first rows of the data set).",
+    )
+    spectrum_samples: StrictInt = Field(
+        default=50, ge=1, le=100_000, description="Parameter draws behind the Fourier weights."
+    )
 
     @field_validator("metrics")
     @classmethod
@@ -117,6 +168,26 @@ class AnalysisOptions(BaseModel):
     def _cost(cls, value: Any) -> Any:
         spec = validate_cost(value)
         return spec if isinstance(spec, str) else [list(t) for t in spec]
+
+    @field_validator("inputs_uniform")
+    @classmethod
+    def _uniform(cls, value: list[float] | None) -> list[float] | None:
+        if value is not None and not value[0] < value[1]:
+            raise ValueError(f"got {value}; expected [low, high] with low < high")
+        return value
+
+    @field_validator("inputs_normal")
+    @classmethod
+    def _normal(cls, value: list[float] | None) -> list[float] | None:
+        if value is not None and not value[1] > 0:
+            raise ValueError(f"got {value}; expected [mean, std] with std > 0")
+        return value
+
+    @model_validator(mode="after")
+    def _one_law(self) -> AnalysisOptions:
+        if self.inputs_uniform is not None and self.inputs_normal is not None:
+            raise ValueError("give one input law: inputs_uniform or inputs_normal, not both")
+        return self
 
     @field_validator("scan")
     @classmethod
@@ -158,6 +229,9 @@ _RANGES = {
     "seed": f"0..{MAX_SEED}",
     "grad_samples": "2..1000000",
     "capacity_points": "1..1000",
+    "kernel_pairs": "2..10000000",
+    "kernel_rows": "2..500",
+    "spectrum_samples": "1..100000",
 }
 
 

@@ -9,7 +9,7 @@ rows live one per module in :mod:`haarline.report.sections`.
 Examples
 --------
 >>> list(REGISTRY)
-['expressibility', 'entanglement', 'trainability', 'capacity', 'lie']
+['expressibility', 'entanglement', 'trainability', 'capacity', 'lie', 'kernel', 'spectrum']
 >>> REGISTRY["capacity"].options
 ('capacity_points',)
 """
@@ -21,7 +21,15 @@ from typing import TYPE_CHECKING
 
 from haarline.report.metric_row import MetricRow
 from haarline.report.options import METRICS
-from haarline.report.sections import capacity, entanglement, expressibility, lie, trainability
+from haarline.report.sections import (
+    capacity,
+    entanglement,
+    expressibility,
+    kernel,
+    lie,
+    spectrum,
+    trainability,
+)
 
 if TYPE_CHECKING:
     from collections.abc import Mapping
@@ -31,7 +39,15 @@ if TYPE_CHECKING:
 
 __all__ = ["REGISTRY", "progress_stages", "requested"]
 
-_ROWS = (expressibility.ROW, entanglement.ROW, trainability.ROW, capacity.ROW, lie.ROW)
+_ROWS = (
+    expressibility.ROW,
+    entanglement.ROW,
+    trainability.ROW,
+    capacity.ROW,
+    lie.ROW,
+    kernel.ROW,
+    spectrum.ROW,
+)
 
 REGISTRY: Mapping[str, MetricRow] = MappingProxyType({row.name: row for row in _ROWS})
 """Every metric's row, by name, in report order."""

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import expand
+from haarline.report.inputs import check_inputs
 from haarline.report.options import AnalysisOptions
 from haarline.report.registry import requested
 from haarline.report.sections.lie import PRODUCT_COST
@@ -41,6 +42,8 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
     ------
     CircuitError
         If the description cannot be expanded at a size the options ask for.
+    OptionError
+        If the options ask for something the circuit cannot do (a kernel without inputs).
 
     Examples
     --------
@@ -50,6 +53,7 @@ def estimate(circuit: Circuit, options: AnalysisOptions, *, memory_budget: int) 
     320.0
     """
     program = expand(circuit)
+    check_inputs(program, options, None)
     parts: dict[str, float] = {}
     memory = 0
     rows = requested(options)

@@ -67,6 +67,16 @@ def _policy(args: argparse.Namespace, options: haarline.AnalysisOptions) -> haar
     return policy
 
 
+def _data(args: argparse.Namespace) -> haarline.Dataset | None:
+    """The data set of ``--data``, read once per command."""
+    if not args.data:
+        return None
+    cached = getattr(args, "_dataset", None)
+    if cached is None:
+        cached = args._dataset = haarline.load_data(args.data)
+    return cached  # type: ignore[no-any-return]
+
+
 _CONTEXT_FLAGS = {"memory_budget": "--memory-budget", "workers": "--workers"}
 
 
@@ -90,7 +100,9 @@ def _run_analysis(
 ) -> dict[str, Any]:
     progress = TerminalProgress()
     try:
-        report = haarline.analyze(circuit, options, context=_context(args, progress))
+        report = haarline.analyze(
+            circuit, options, data=_data(args), context=_context(args, progress)
+        )
     finally:
         progress.close()
     if policy is not None:

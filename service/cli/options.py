@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import re
 from typing import Any
 
@@ -41,6 +42,12 @@ _FLAG_NAMES = {
     "capacity_points": "--capacity-points",
     "gradients": "--gradients",
     "precision": "--precision",
+    "vary": "--vary",
+    "inputs_uniform": "--inputs-uniform",
+    "inputs_normal": "--inputs-normal",
+    "kernel_pairs": "--kernel-pairs",
+    "kernel_rows": "--kernel-rows",
+    "spectrum_samples": "--spectrum-samples",
 }
 
 _TERM = re.compile(r"\s*([+-])?\s*(?:((?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*\*?\s*)?([IXYZ]+)\s*")
@@ -124,6 +131,32 @@ def _int_list(text: str) -> list[int]:
     if not values:
         raise argparse.ArgumentTypeError("expected at least one integer")
     return values
+
+
+def _float_pair(text: str) -> list[float]:
+    parts = [t.strip() for t in text.split(",")]
+    try:
+        values = [float(eval_pi(t)) for t in parts]
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected two numbers a,b, got {text!r}") from None
+    if len(values) != 2:
+        raise argparse.ArgumentTypeError(f"expected two numbers a,b, got {text!r}")
+    return values
+
+
+def eval_pi(text: str) -> float:
+    """A number, or a multiple of pi written ``2pi``, ``pi``, ``0.5pi``.
+
+    Examples
+    --------
+    >>> eval_pi("2pi") == 2 * math.pi, eval_pi("-1.5")
+    (True, -1.5)
+    """
+    t = text.strip().lower()
+    if t.endswith("pi"):
+        head = t[:-2].rstrip("*").strip()
+        return (float(head) if head not in ("", "+", "-") else float(f"{head}1")) * math.pi
+    return float(t)
 
 
 def _worker_count(text: str) -> int:
@@ -233,6 +266,44 @@ def add_analysis_flags(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--capacity-points", type=int, help="random points behind the QFI rank (default 4)"
+    )
+    p.add_argument(
+        "--data",
+        metavar="FILE",
+        help="for a circuit with inputs: feature rows to draw the inputs from (CSV with a "
+        "header, an optional 'label' column; or .npy)",
+    )
+    p.add_argument(
+        "--vary",
+        choices=["parameters", "inputs", "both"],
+        help="for a circuit with inputs: what is random in the expressibility and "
+        "entanglement samples (default: parameters, or inputs for a pure feature map)",
+    )
+    p.add_argument(
+        "--inputs-uniform",
+        type=_float_pair,
+        metavar="LOW,HIGH",
+        help="draw inputs uniformly on [LOW, HIGH) (default 0,2pi)",
+    )
+    p.add_argument(
+        "--inputs-normal",
+        type=_float_pair,
+        metavar="MEAN,STD",
+        help="draw inputs from a normal law instead",
+    )
+    p.add_argument(
+        "--kernel-pairs", type=int, help="random input pairs per kernel point (default 5000)"
+    )
+    p.add_argument(
+        "--kernel-rows",
+        type=int,
+        help="labelled data rows in the kernel matrix, alignment and geometric difference "
+        "(default 60)",
+    )
+    p.add_argument(
+        "--spectrum-samples",
+        type=int,
+        help="parameter draws behind the Fourier weights (default 50)",
     )
     p.add_argument("--seed", type=int, help=f"random seed (default {DEFAULT_SEED})")
     p.add_argument(

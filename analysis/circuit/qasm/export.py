@@ -7,6 +7,7 @@ back through it into the same operations.
 from __future__ import annotations
 
 from haarline.circuit.program import Program
+from haarline.errors import CircuitError, Problem
 
 __all__ = ["to_qasm"]
 
@@ -108,6 +109,17 @@ def to_qasm(program: Program) -> str:
     rx(0.5) q[1];
     <BLANKLINE>
     """
+    if program.encodings:
+        raise CircuitError(
+            [
+                Problem(
+                    "inputs",
+                    f"the circuit encodes {program.inputs} data inputs; OpenQASM export writes "
+                    "trainable parameters only, and has no agreed way yet to mark an input as "
+                    "data (export a copy without 'input' steps)",
+                )
+            ]
+        )
     names = _input_names(program)
     title = " ".join(str(program.name).split()) or "circuit"
     lines = [f"// circuit: {title}", "OPENQASM 3.0;", 'include "stdgates.inc";']

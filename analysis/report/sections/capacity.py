@@ -8,12 +8,12 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any
 
 from haarline.metrics.capacity import capacity
-from haarline.report.metric_row import MetricRow, Section, TableRow, Work
+from haarline.report.inputs import draws_for
+from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.circuit.program import Program
-    from haarline.engine.context import Context
     from haarline.report.options import AnalysisOptions
 
 __all__ = ["ROW"]
@@ -21,10 +21,15 @@ __all__ = ["ROW"]
 _BYTES = 16  # complex128: the QFI is always computed in double precision
 
 
-def _compute(
-    circuit: Circuit, program: Program, options: AnalysisOptions, context: Context
-) -> Section:
-    result = capacity(program, points=options.capacity_points, seed=options.seed, context=context)
+def _compute(request: Request) -> Section:
+    options = request.options
+    result = capacity(
+        request.program,
+        points=options.capacity_points,
+        seed=options.seed,
+        context=request.context,
+        draws=draws_for(request, "parameters"),
+    )
     return result.to_dict()
 
 

@@ -6,23 +6,26 @@ from typing import TYPE_CHECKING, Any
 
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.entanglement import entangling_capability
-from haarline.report.metric_row import MetricRow, Section, TableRow, Work
+from haarline.report.inputs import draws_for
+from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
 from haarline.report.text import interval_text
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.circuit.program import Program
-    from haarline.engine.context import Context
     from haarline.report.options import AnalysisOptions
 
 __all__ = ["ROW"]
 
 
-def _compute(
-    circuit: Circuit, program: Program, options: AnalysisOptions, context: Context
-) -> Section:
+def _compute(request: Request) -> Section:
+    options = request.options
     result = entangling_capability(
-        program, samples=options.samples, seed=options.seed, context=context
+        request.program,
+        samples=options.samples,
+        seed=options.seed,
+        context=request.context,
+        draws=draws_for(request),
     )
     return result.to_dict()
 
@@ -72,7 +75,7 @@ ROW = MetricRow(
     title="Entangling capability",
     about="mean Meyer-Wallach entanglement over random parameters (Meyer & Wallach, "
     "J. Math. Phys. 2002), beside its Haar value",
-    options=("samples",),
+    options=("samples", "vary", "inputs_uniform", "inputs_normal"),
     compute=_compute,
     work=_work,
     stages=lambda circuit, options: 1,

@@ -6,23 +6,27 @@ from typing import TYPE_CHECKING, Any
 
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.expressibility import BOOTSTRAP_RESAMPLES, expressibility
-from haarline.report.metric_row import MetricRow, Section, TableRow, Work
+from haarline.report.inputs import draws_for
+from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
 from haarline.report.text import interval_text
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.circuit.program import Program
-    from haarline.engine.context import Context
     from haarline.report.options import AnalysisOptions
 
 __all__ = ["ROW"]
 
 
-def _compute(
-    circuit: Circuit, program: Program, options: AnalysisOptions, context: Context
-) -> Section:
+def _compute(request: Request) -> Section:
+    options = request.options
     result = expressibility(
-        program, pairs=options.pairs, bins=options.bins, seed=options.seed, context=context
+        request.program,
+        pairs=options.pairs,
+        bins=options.bins,
+        seed=options.seed,
+        context=request.context,
+        draws=draws_for(request),
     )
     return result.to_dict()
 
@@ -105,7 +109,7 @@ ROW = MetricRow(
     title="Expressibility",
     about="KL divergence of the fidelity histogram from Haar (Sim, Johnson & "
     "Aspuru-Guzik, Adv. Quantum Technol. 2019); lower is more expressive",
-    options=("pairs", "bins"),
+    options=("pairs", "bins", "vary", "inputs_uniform", "inputs_normal"),
     compute=_compute,
     work=_work,
     stages=lambda circuit, options: 1,

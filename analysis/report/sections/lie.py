@@ -14,11 +14,10 @@ from haarline.lie import diagnosis as lie
 from haarline.lie.pauli import is_clifford
 from haarline.metrics.sampled_loss import LIE_SAMPLE_QUBITS, deep_layers, deep_loss_variance
 from haarline.metrics.trainability import layers_at
-from haarline.report.metric_row import MetricRow, Section, TableRow, Work
+from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
-    from haarline.engine.context import Context
     from haarline.report.options import AnalysisOptions
 
 __all__ = ["PRODUCT_COST", "ROW"]
@@ -36,9 +35,8 @@ def _deep_samples(options: AnalysisOptions) -> int:
     return max(options.grad_samples, 500)
 
 
-def _compute(
-    circuit: Circuit, program: Program, options: AnalysisOptions, context: Context
-) -> Section:
+def _compute(request: Request) -> Section:
+    circuit, options, context = request.circuit, request.options, request.context
     diagnosis = lie.lie_diagnosis(
         circuit, cost=options.cost, scan=options.scan, layers=options.scan_layers, context=context
     )

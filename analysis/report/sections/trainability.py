@@ -10,13 +10,13 @@ from typing import TYPE_CHECKING, Any
 from haarline.circuit.program import expand
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.trainability import default_scan, layers_at, trainability, uses_only_patterns
-from haarline.report.metric_row import MetricRow, Section, TableRow, Work
+from haarline.report.inputs import draws_for
+from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
 from haarline.report.text import interval_text
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.circuit.program import Program
-    from haarline.engine.context import Context
     from haarline.report.options import AnalysisOptions
 
 __all__ = ["ROW"]
@@ -32,9 +32,8 @@ def _scan(circuit: Circuit, options: AnalysisOptions) -> list[int]:
     return options.scan or default_scan(circuit, options.cost)
 
 
-def _compute(
-    circuit: Circuit, program: Program, options: AnalysisOptions, context: Context
-) -> Section:
+def _compute(request: Request) -> Section:
+    circuit, options = request.circuit, request.options
     note = None
     if options.scan is None and isinstance(options.cost, str) and not uses_only_patterns(circuit):
         note = _OWN_COUNT_NOTE
@@ -47,7 +46,9 @@ def _compute(
         samples=options.grad_samples,
         seed=options.seed,
         method=options.gradients,
-        context=context,
+        context=request.context,
+        # with inputs, every gradient sample draws its own inputs too
+        draws=draws_for(request, "both" if request.program.encodings else "parameters"),
     )
     section = result.to_dict()
     section["scan_note"] = note
