@@ -39,6 +39,12 @@ def wait_until(condition):
         time.sleep(0.05)
 
 
+def handed_out(task):
+    """Wait until a worker has the task (its future runs just before it is sent)."""
+    wait_until(task.running)
+    time.sleep(0.2)
+
+
 def test_results_and_exceptions_come_back(pool):
     p = pool()
     assert p.submit(pow, 2, 10).result(WAIT) == 1024
@@ -52,7 +58,7 @@ def test_a_killed_worker_fails_its_task_and_is_replaced(pool):
     p = pool()
     first = p.submit(os.getpid).result(WAIT)
     task = p.submit(time.sleep, 60)
-    time.sleep(0.3)  # handed out
+    handed_out(task)
     os.kill(first, signal.SIGKILL)
     with pytest.raises(WorkerLost) as lost:
         task.result(WAIT)
@@ -95,7 +101,7 @@ def test_a_done_callback_may_submit_and_stop_without_deadlock(pool):
 
     task = p.submit(time.sleep, 60)
     task.add_done_callback(callback)
-    time.sleep(0.3)
+    handed_out(task)
     os.kill(first, signal.SIGKILL)
     assert called.wait(WAIT)
     assert isinstance(task.exception(), WorkerLost)
@@ -104,7 +110,7 @@ def test_a_done_callback_may_submit_and_stop_without_deadlock(pool):
     stopped = threading.Event()
     last = p.submit(time.sleep, 60)
     last.add_done_callback(lambda f: (p.stop(), stopped.set()))
-    time.sleep(0.3)
+    handed_out(last)
     (busy,) = p.pids()
     os.kill(busy, signal.SIGKILL)
     assert stopped.wait(WAIT)
@@ -118,7 +124,7 @@ def test_stop_fails_waiting_and_running_tasks_and_ends_the_workers(pool):
     pid = p.submit(os.getpid).result(WAIT)
     running = p.submit(time.sleep, 60)
     waiting = p.submit(time.sleep, 60)
-    time.sleep(0.3)
+    handed_out(running)
     started = time.monotonic()
     p.stop()
     assert time.monotonic() - started < 10
