@@ -105,6 +105,8 @@ class Runner:
             self._wake.clear()
             try:
                 self._dispatch()
+            except PoolStopped:  # stop() is under way; a claimed job is requeued next start
+                return
             except StoreUnavailable as exc:
                 log.warning("job store unavailable, retrying: %s", exc)
             except Exception:  # keep dispatching whatever happens to one job
