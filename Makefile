@@ -1,10 +1,16 @@
-# One target per task; CI (.ci/run) calls `make test`.
-PYTHON ?= python3
-VENV   := .venv
-BIN    := $(VENV)/bin
-DEMO   := examples/ring-classifier.json
+# One target per task; CI (.ci/run) calls `make test`, then `make lint`.
+# The tested Pythons are 3.11 and 3.13. .venv (every target) is built with Python 3.11
+# where .ci/find-python finds one, else with python3; `make test` also runs the suite in
+# .venv313 when a Python 3.13 is found. Override with PYTHON=... and PYTHON313=...
+# (looked up once, when first used: the $(eval) caches the answer)
+PYTHON    ?= $(eval PYTHON := $(shell .ci/find-python 3.11 || echo python3))$(PYTHON)
+PYTHON313 ?= $(eval PYTHON313 := $(shell .ci/find-python 3.13))$(PYTHON313)
+VENV      := .venv
+BIN       := $(VENV)/bin
+VENV313   := .venv313
+DEMO      := examples/ring-classifier.json
 
-.PHONY: run demo test browser lint openapi bench clean install install-test fuzz load faults
+.PHONY: run demo test test-main test-313 browser lint openapi bench clean install install-test fuzz load faults
 
 $(BIN)/python:
 	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 11) else "haarline needs Python 3.11 or newer")'
@@ -26,6 +32,16 @@ $(VENV)/.lint: pyproject.toml | $(BIN)/python
 install: $(VENV)/.core
 install-test: $(VENV)/.test
 
+# the same test environment on Python 3.13 (only built when PYTHON313 is known)
+$(VENV313)/bin/python:
+	@[ -n "$(PYTHON313)" ] || { echo "no Python 3.13 found (.ci/find-python 3.13); set PYTHON313=..." >&2; exit 1; }
+	$(PYTHON313) -m venv $(VENV313)
+	$(VENV313)/bin/python -m pip install --quiet --upgrade pip
+
+$(VENV313)/.test: pyproject.toml | $(VENV313)/bin/python
+	$(VENV313)/bin/python -m pip install --quiet -e '.[test]'
+	@touch $@
+
 ## run: start the REST service on 127.0.0.1:8000 (development mode: loopback, no keys)
 run: $(VENV)/.core
 	$(BIN)/haarline serve --dev --data-dir data
@@ -34,9 +50,21 @@ run: $(VENV)/.core
 demo: $(VENV)/.core
 	$(BIN)/haarline analyze $(DEMO) --metrics expressibility,entanglement,trainability,capacity
 
-## test: the whole suite (what CI runs); installs Chromium for the browser test where it can
-test: $(VENV)/.test browser
+## test: the whole suite on Python 3.11 (.venv), then on 3.13 (.venv313) if one is found
+## (what CI runs); installs Chromium for the browser test where it can
+test: test-main test-313
+
+test-main: $(VENV)/.test browser
+	@$(BIN)/python -c 'import sys; print("suite on Python", sys.version.split()[0], "(.venv)")'
 	$(BIN)/python -m pytest -q
+
+# the whole suite again, slow tests included (they take seconds)
+test-313: browser
+	@[ -n "$(PYTHON313)" ] || echo "no Python 3.13 found (.ci/find-python 3.13): the suite ran in $(VENV) only"
+	@[ -z "$(PYTHON313)" ] || $(MAKE) --no-print-directory $(VENV313)/.test
+	@[ -z "$(PYTHON313)" ] || $(VENV313)/bin/python -c \
+	  'import sys; print("suite on Python", sys.version.split()[0], "($(VENV313))")'
+	[ -z "$(PYTHON313)" ] || $(VENV313)/bin/python -m pytest -q
 
 browser:
 	@command -v chromium >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1 \
@@ -80,7 +108,7 @@ openapi: $(VENV)/.core
 	$(BIN)/python -m haarline.service.api.openapi_export
 
 clean:
-	rm -rf $(VENV) .pytest_cache .hypothesis *.egg-info build dist
+	rm -rf $(VENV) $(VENV313) .pytest_cache .hypothesis *.egg-info build dist
 
 ## bench: the benchmark suite (about 4 minutes); prints a table and writes bench/results.json
 bench: $(VENV)/.core

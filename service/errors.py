@@ -12,6 +12,8 @@ HTTP answer, the CLI turns input problems into exit code 2::
     ├── OverLimit            estimated work or memory above a configured limit (422)
     ├── TokenError           a page link is malformed, tampered with or expired (403)
     ├── JobCancelled         raised inside a running job when its cancel flag is seen
+    ├── WorkerLost           a job worker process exited before it answered (the job is retried)
+    ├── PoolStopped          the job worker pool stopped before a task finished
     └── haarline.errors.HaarlineError
         └── InputError
             └── UsageError   a command-line value argparse let through but we cannot use
@@ -26,12 +28,14 @@ from haarline.errors import InputError
 __all__ = [
     "JobCancelled",
     "OverLimit",
+    "PoolStopped",
     "SettingsError",
     "StoreUnavailable",
     "TimedOut",
     "TokenError",
     "Unavailable",
     "UsageError",
+    "WorkerLost",
 ]
 
 
@@ -95,6 +99,20 @@ class TokenError(Exception):
 
 class JobCancelled(Exception):
     """Raised inside the analysis when the job's cancel flag is seen."""
+
+
+class WorkerLost(Exception):
+    """The process running a task exited before it answered (killed, out of memory)."""
+
+    def __init__(self, pid: int | None, exitcode: int | None):
+        self.pid = pid
+        self.exitcode = exitcode
+        how = f"signal {-exitcode}" if exitcode is not None and exitcode < 0 else exitcode
+        super().__init__(f"worker process {pid} exited ({how}) before it answered")
+
+
+class PoolStopped(Exception):
+    """The pool was stopped before the task finished (or started)."""
 
 
 class UsageError(InputError):

@@ -19,6 +19,7 @@ import sqlite3
 import subprocess
 import sys
 import time
+from contextlib import closing
 
 import psutil
 from fastapi.testclient import TestClient
@@ -41,7 +42,7 @@ SLOW = {
 
 
 def integrity(database) -> str:
-    with sqlite3.connect(database) as conn:
+    with closing(sqlite3.connect(database)) as conn:
         return conn.execute("PRAGMA integrity_check").fetchone()[0]
 
 

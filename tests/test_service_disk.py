@@ -10,7 +10,7 @@ import errno
 import re
 import shutil
 import sqlite3
-from contextlib import contextmanager
+from contextlib import closing, contextmanager
 
 import pytest
 from fastapi.testclient import TestClient
@@ -28,7 +28,7 @@ class FullDisk(Store):
 
     def __init__(self, path):
         super().__init__(path)
-        with sqlite3.connect(path) as conn:
+        with closing(sqlite3.connect(path)) as conn:
             self.pages = conn.execute("PRAGMA page_count").fetchone()[0]
 
     @contextmanager
@@ -108,7 +108,7 @@ def test_a_full_disk_is_a_clear_503_and_the_store_stays_whole(tmp_path):
         assert listed == set(accepted)
         del app.dependency_overrides[get_store]  # space is back
         assert c.post("/v1/analyses", json=SMALL).status_code == 202
-    with sqlite3.connect(store.path) as conn:
+    with closing(sqlite3.connect(store.path)) as conn:
         assert conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
 
 

@@ -6,6 +6,7 @@ configured ``HAARLINE_RETRY_AFTER`` until a job has run; every 503 suggests the 
 """
 
 import sqlite3
+from contextlib import closing
 
 import pytest
 from fastapi.testclient import TestClient
@@ -35,7 +36,7 @@ def keyed(client, name="alice"):
 
 def set_run(store, job_id, length, done):
     """Make a finished job's run last ``length`` s (this test's own fresh file)."""
-    with sqlite3.connect(store.path) as conn:
+    with closing(sqlite3.connect(store.path)) as conn, conn:  # closed, and committed
         for state, at in (("running", done - length), ("succeeded", done)):
             conn.execute(
                 "UPDATE events SET at = ? WHERE job_id = ? AND state = ?", (at, job_id, state)

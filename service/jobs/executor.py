@@ -1,12 +1,15 @@
 """Runs queued jobs off the event loop: a local process pool, or a Dask cluster.
 
 A dispatcher thread moves queued jobs to ``running`` as workers free up and submits
-:func:`haarline.service.jobs.worker.execute_job` for each. A worker process that dies
-(killed, out of memory) fails its future: the job is queued again once, then failed with
-the reason, and the pool is rebuilt so the service keeps serving. A job interrupted
-because the store could not be written (locked, full disk) is queued again; an outcome the
-store refuses to record is written on a later round. On start-up, jobs that were running when
-the previous process died are queued again (:meth:`Store.requeue_interrupted`).
+:func:`haarline.service.jobs.worker.execute_job` for each. Local workers are a
+:class:`haarline.service.jobs.pool.WorkerPool`, which watches its processes itself: a
+worker that dies (killed, out of memory) fails exactly its own job's future with
+:class:`~haarline.service.jobs.pool.WorkerLost` and is replaced; the job is queued again
+once, then failed with the reason, and the service keeps serving. A job interrupted
+because the store could not be written (locked, full disk) is queued again; an outcome
+the store refuses to record is written on a later round. On start-up, jobs that were
+running when the previous process died, or when the service stopped, are queued again
+(:meth:`Store.requeue_interrupted`).
 
 The synchronous score route never uses these workers: the runner also owns the score
 route's own small pool (:class:`haarline.service.jobs.scoring.ScorePool`), whose processes
@@ -16,17 +19,15 @@ start with the first score and stop with the runner.
 from __future__ import annotations
 
 import logging
-import multiprocessing
-import os
 import threading
-from concurrent.futures import Future, ProcessPoolExecutor
-from concurrent.futures.process import BrokenProcessPool
+from concurrent.futures import Future
 from typing import Any
 
 from haarline.service.errors import StoreUnavailable
+from haarline.service.jobs.pool import PoolStopped, WorkerLost, WorkerPool
 from haarline.service.jobs.scoring import ScorePool
 from haarline.service.jobs.store import Store
-from haarline.service.jobs.worker import execute_job, follow_parent, warm_up
+from haarline.service.jobs.worker import execute_job
 from haarline.service.settings import Settings
 
 __all__ = ["MAX_ATTEMPTS", "Runner"]
@@ -48,7 +49,7 @@ class Runner:
         self._stop = threading.Event()
         self._inflight: dict[str, Future[Any]] = {}
         self._unrecorded: dict[str, tuple[str, str]] = {}
-        self._pool: ProcessPoolExecutor | None = None
+        self._pool: WorkerPool | None = None
         self._dask: Any = None
         self._thread: threading.Thread | None = None
         self.scores = ScorePool(settings)
@@ -64,27 +65,29 @@ class Runner:
 
             self._dask = Client(self.settings.dask_scheduler, set_as_default=False)
         else:
-            self._pool = self._new_pool()
+            self._pool = WorkerPool(self.settings.workers, name="haarline-job-workers")
         self.store.requeue_interrupted()
         self._thread = threading.Thread(target=self._loop, name="haarline-dispatch", daemon=True)
         self._thread.start()
         self._wake.set()
 
     def stop(self) -> None:
-        """Stop dispatching and shut the pool down (running jobs are requeued next start)."""
+        """Stop dispatching and the workers (running jobs are requeued next start)."""
         self._stop.set()
         self._wake.set()
         if self._thread is not None:
             self._thread.join(timeout=5)
         if self._pool is not None:
-            self._pool.shutdown(wait=False, cancel_futures=True)
+            self._pool.stop()
+            self._pool = None
         if self._dask is not None:
             self._dask.close()
         self.scores.stop()
 
     def alive(self) -> bool:
-        """Whether the dispatcher runs (for ``/readyz``)."""
-        return self._thread is not None and self._thread.is_alive()
+        """Whether the dispatcher (and the workers' watcher) runs (for ``/readyz``)."""
+        running = self._thread is not None and self._thread.is_alive()
+        return running and (self._pool is None or self._pool.alive())
 
     def notify(self) -> None:
         """Wake the dispatcher (a job was queued)."""
@@ -97,25 +100,14 @@ class Runner:
 
     # --- dispatching ------------------------------------------------------------------------
 
-    def _new_pool(self) -> ProcessPoolExecutor:
-        pool = ProcessPoolExecutor(
-            max_workers=self.settings.workers,
-            mp_context=multiprocessing.get_context("spawn"),
-            initializer=follow_parent,  # a worker exits when the server is killed
-            initargs=(os.getpid(),),
-        )
-        # start every worker now, so the first job (and its cancel) does not wait for a
-        # process to start and import numpy, scipy and pydantic
-        for _ in range(self.settings.workers):
-            pool.submit(warm_up)
-        return pool
-
     def _loop(self) -> None:
         while not self._stop.is_set():
             self._wake.wait(timeout=1.0)
             self._wake.clear()
             try:
                 self._dispatch()
+            except PoolStopped:  # stop() is under way; a claimed job is requeued next start
+                return
             except StoreUnavailable as exc:
                 log.warning("job store unavailable, retrying: %s", exc)
             except Exception:  # keep dispatching whatever happens to one job
@@ -146,9 +138,10 @@ class Runner:
         args = (str(self.store.path), job_id, self.settings.memory_budget)
         if self._dask is not None:
             return _DaskFuture(self._dask.submit(execute_job, *args, pure=False))
-        with self._lock:
-            assert self._pool is not None
-            return self._pool.submit(execute_job, *args)
+        pool = self._pool
+        if pool is None:
+            raise PoolStopped("the runner is stopped")
+        return pool.submit(execute_job, *args)
 
     def _done(self, job_id: str, attempts: int, future: Future[Any]) -> None:
         with self._lock:
@@ -157,13 +150,14 @@ class Runner:
             exc = future.exception()
         except Exception as err:  # cancelled future
             exc = err
+        if isinstance(exc, PoolStopped):
+            # the service is stopping: the job stays running and is queued again at the
+            # next start (Store.requeue_interrupted), like after a crash
+            return
         if exc is not None:
             again = False
-            if isinstance(exc, BrokenProcessPool):
-                with self._lock:
-                    if self._pool is not None:
-                        self._pool.shutdown(wait=False, cancel_futures=True)
-                    self._pool = self._new_pool()
+            if isinstance(exc, WorkerLost):
+                log.warning("job %s lost its worker: %s", job_id, exc)
                 reason = "the worker process died (killed or out of memory)"
                 again = attempts < MAX_ATTEMPTS
             elif isinstance(exc, StoreUnavailable):

@@ -8,7 +8,8 @@ service died can simply be run again: its seed makes the result identical.
 
 A local worker process must not outlive the server: if the server is killed outright
 (SIGKILL, out of memory), nothing tells its pool's processes, which would compute on, then
-wait for work for ever. :func:`follow_parent`, the pools' initializer, starts a thread in
+wait for work for ever. :func:`follow_parent`, which every job worker runs first
+(:mod:`haarline.service.jobs.pool`) and the score pool passes as its initializer, starts a thread in
 each worker that exits the process as soon as its parent is gone.
 """
 
@@ -113,11 +114,12 @@ def run_request(
 def follow_parent(parent: int, interval: float = PARENT_POLL) -> None:
     """Exit this process promptly once ``parent`` (the server's pid) is no longer its parent.
 
-    Runs as a process pool's initializer, with the server's pid taken before the workers
-    start. A daemon thread compares :func:`os.getppid` with ``parent`` every ``interval``
-    seconds; when the server has died the worker has been re-parented (to init or a
-    sub-reaper), and the thread ends the process with :func:`os._exit` (status
-    :data:`ORPHAN_EXIT`) at once, whatever it is computing. A job cut off this way is
+    Runs first in every worker process (a job worker's main loop, a process pool's
+    initializer), with the server's pid taken before the workers start. A daemon thread
+    compares :func:`os.getppid` with ``parent`` every ``interval`` seconds; when the
+    server has died the worker has been re-parented (to init or a sub-reaper), and the
+    thread ends the process with :func:`os._exit` (status :data:`ORPHAN_EXIT`) at once,
+    whatever it is computing. A job cut off this way is
     still ``running`` in the store and is queued again when the server restarts.
     """
 
