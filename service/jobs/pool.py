@@ -21,8 +21,8 @@ ever: the dead worker was never reaped and its job stayed ``running``.
 
 Workers ignore SIGINT (a Ctrl-C in the terminal reaches the whole process group; the
 server stops them itself) and run :func:`haarline.service.jobs.worker.follow_parent`, so
-they exit when the server is killed. Importing this module in a new worker imports the numerical core,
-so a worker is warm before its first task.
+they exit when the server is killed. Importing this module in a new worker imports the
+numerical core, so a worker is warm before its first task.
 """
 
 from __future__ import annotations
