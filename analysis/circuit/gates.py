@@ -83,7 +83,7 @@ def _controlled(one: Callable[[NDArray[np.float64]], Matrix]) -> Callable[..., M
     return matrix
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class GateSpec:
     """One row of the gate table.
 

@@ -267,7 +267,7 @@ def _kernels(
     def flush(q: int) -> None:
         block = open_blocks.pop(q, None)
         if block:
-            raw.append(Kernel("one", (q,), tuple(block)))
+            raw.append(Kernel(kind="one", qubits=(q,), steps=tuple(block)))
 
     previous_class = None
     for g in order:
@@ -282,7 +282,7 @@ def _kernels(
             continue
         for q in step.qubits:
             flush(q)
-        raw.append(Kernel("two", step.qubits, (g,)))
+        raw.append(Kernel(kind="two", qubits=step.qubits, steps=(g,)))
     for q in sorted(open_blocks):
         flush(q)
 
@@ -307,7 +307,9 @@ def _kernels(
         )
         if len(run) > 1 and cost_joined < cost_apart:
             qubits = tuple(sorted({q for k in run for q in k.qubits}))
-            out.append(Kernel("perm", qubits, tuple(group), perm, phase))
+            out.append(
+                Kernel(kind="perm", qubits=qubits, steps=tuple(group), perm=perm, phase=phase)
+            )
         else:
             out.extend(run)
         run.clear()
@@ -338,7 +340,7 @@ def _join_diagonal(steps: Sequence[PlanStep], kernels: list[Kernel]) -> list[Ker
         if len(run) > 1:
             qubits = tuple(sorted({q for k in run for q in k.qubits}))
             group = tuple(g for k in run for g in k.steps)
-            out.append(Kernel("phase", qubits, group, members=tuple(run)))
+            out.append(Kernel(kind="phase", qubits=qubits, steps=group, members=tuple(run)))
         else:
             out.extend(run)
         run.clear()

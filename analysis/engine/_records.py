@@ -91,7 +91,7 @@ class PlanStep:
     fixed: NDArray[np.complex128] | None  # matrix of a fixed gate or fixed-angle rotation
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Kernel:
     """One fused operation of a segment.
 

@@ -88,7 +88,7 @@ def quantum_fisher(program: Program, theta: NDArray[np.float64]) -> NDArray[np.f
     return 4.0 * (gram - np.outer(overlap.conj(), overlap)).real
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Capacity:
     """The report's ``capacity`` object."""
 
@@ -154,7 +154,17 @@ def capacity(
     p = program.parameters
     ceiling = 2 ** (program.qubits + 1) - 2
     if p == 0:
-        return Capacity(0, 0, 0, ceiling, tolerance, 0, [], [], [])
+        return Capacity(
+            parameters=0,
+            qfi_rank=0,
+            redundant=0,
+            max_rank=ceiling,
+            tolerance=tolerance,
+            points=0,
+            ranks=[],
+            redundant_parameters=[],
+            eigenvalues=[],
+        )
     context = context or Context()
     thetas = draw_angles(seed, (Stream.CAPACITY, program.qubits, program.layers), 0, points, p)
     # one Jacobian pass carries P + 1 states

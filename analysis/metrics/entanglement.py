@@ -80,7 +80,7 @@ def meyer_wallach(states: NDArray, qubits: int) -> NDArray[np.float64]:
     return np.clip(q, 0.0, 1.0)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Entanglement:
     """Entangling capability (the report's ``entanglement`` object)."""
 

@@ -52,7 +52,7 @@ BOOTSTRAP_RESAMPLES = 1000
 """Bootstrap resamples behind the KL interval."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Expressibility:
     """Expressibility of a circuit (the report's ``expressibility`` object)."""
 

@@ -37,7 +37,7 @@ FLAT_DECAY = 0.25
 """Decay per qubit (nats) below which a non-significant decay is called flat."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Fit:
     """Weighted least squares of ``ln Var = intercept + slope · x``."""
 
