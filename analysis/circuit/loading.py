@@ -143,7 +143,7 @@ def _reject_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
 def _decode(text: str, kind: str, source: str | None) -> Any:
     if kind == "yaml":
         try:
-            return yaml.load(text, Loader=_Loader)  # noqa: S506 - a SafeLoader subclass
+            return yaml.load(text, Loader=_Loader)  # _Loader is a SafeLoader subclass
         except yaml.YAMLError as exc:
             mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
             where = f"line {mark.line + 1}, column {mark.column + 1}: " if mark else ""
