@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Hashable
 from pathlib import Path
 from typing import Any
 
@@ -78,7 +79,9 @@ def _construct_float(loader: _Loader, node: yaml.ScalarNode) -> float:
     raise _yaml_fail(node, f"{text[:40]!r} is not a number")
 
 
-def _construct_mapping(loader: _Loader, node: yaml.MappingNode, deep: bool = False) -> dict:
+def _construct_mapping(
+    loader: _Loader, node: yaml.MappingNode, deep: bool = False
+) -> dict[Hashable, Any]:
     if not isinstance(node, yaml.MappingNode):
         raise _yaml_fail(node, "expected a mapping")
     seen: set[str] = set()

@@ -46,6 +46,7 @@ __all__ = [
     "DEFAULT_MEMORY_BUDGET",
     "WORK_FACTOR",
     "Plan",
+    "Complexes",
     "PlanStep",
     "apply_generator",
     "apply_pauli",

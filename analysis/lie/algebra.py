@@ -143,7 +143,7 @@ class Algebra:
     @property
     def maximum(self) -> int:
         """``4**n - 1``, the dimension of su(2**n)."""
-        return 4**self.qubits - 1
+        return int(4**self.qubits) - 1
 
     @property
     def full(self) -> bool:

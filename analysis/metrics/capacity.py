@@ -44,7 +44,9 @@ DEFAULT_RANK_TOLERANCE = 1e-8
 """Eigenvalues below this fraction of the largest QFI eigenvalue count as zero."""
 
 
-def state_jacobian(program: Program, theta: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+def state_jacobian(
+    program: Program, theta: NDArray[np.float64]
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """The state ``ψ(θ)`` (shape ``(2**n,)``) and ``∂ψ/∂θ`` (shape ``(2**n, P)``).
 
     Examples

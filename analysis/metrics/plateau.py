@@ -53,7 +53,9 @@ class Fit:
         return asdict(self)
 
 
-def _wls(x: NDArray, y: NDArray, sigma: NDArray, model: str) -> Fit:
+def _wls(
+    x: NDArray[np.float64], y: NDArray[np.float64], sigma: NDArray[np.float64], model: str
+) -> Fit:
     w = 1.0 / sigma**2
     a = np.stack([np.ones_like(x), x], axis=1)
     cov = np.linalg.inv(a.T @ (a * w[:, None]))
