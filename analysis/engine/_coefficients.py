@@ -19,7 +19,7 @@ Forms of a one-qubit block ``M``:
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Any, TypeAlias
+from typing import Any, Literal, TypeAlias
 
 import numpy as np
 from haarline.circuit.gates import lookup
@@ -263,7 +263,11 @@ def _form(plan: Plan, k: Kernel, angles: _Angles, batch: int, co: _Slots) -> For
     return Form("general4", k, tuple(co.add(m[:, i, j]) for i in range(4) for j in range(4)))
 
 
-def _rotation_split(plan: Plan, kernel: Kernel) -> tuple[int, int, str] | None:
+Axis = Literal["rx", "ry"]
+"""The one-axis rotations a shear form absorbs."""
+
+
+def _rotation_split(plan: Plan, kernel: Kernel) -> tuple[int, int, Axis] | None:
     """Where the one-axis rotations of a block are, if it has that shape.
 
     For a block (diagonal gates) · (rotations about one axis, x or y) · (diagonal gates)
@@ -278,13 +282,13 @@ def _rotation_split(plan: Plan, kernel: Kernel) -> tuple[int, int, str] | None:
     axes = set(names[start:stop])
     if stop - start != len(middle) or axes not in ({"rx"}, {"ry"}):
         return None
-    return start, stop, axes.pop()
+    return start, stop, "rx" if axes == {"rx"} else "ry"
 
 
 def _shear_form(
     plan: Plan,
     k: Kernel,
-    split: tuple[int, int, str],
+    split: tuple[int, int, Axis],
     angles: _Angles,
     batch: int,
     co: _Slots,

@@ -26,7 +26,7 @@ chunking or on how samples are split between processes.
 from __future__ import annotations
 
 import threading
-from typing import Any
+from typing import Any, Literal
 
 import numpy as np
 from haarline.engine._coefficients import evaluate
@@ -261,6 +261,10 @@ def _slot(coef: Coef) -> int:
 # -- gather and scatter -------------------------------------------------------------------
 
 
+_Run = Literal["f", "q", "w"]
+"""A qubit's part in a tile layout: selects the tile (f), local row (q) or column (w)."""
+
+
 def _layout(
     n: int, local: tuple[int, ...], tile_log: int
 ) -> tuple[tuple[int, ...], tuple[int, ...], int, int]:
@@ -273,15 +277,16 @@ def _layout(
     others = [q for q in range(n) if q not in local]
     width = max(0, min(len(others), tile_log - len(local)))
     columns = set(others[len(others) - width :])
-    cls = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
-    runs: list[tuple[str, int]] = []
+    cls: list[_Run] = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
+    runs: list[tuple[_Run, int]] = []
     for c in cls:
         if runs and runs[-1][0] == c:
             runs[-1] = (c, runs[-1][1] + 1)
         else:
             runs.append((c, 1))
     shape = tuple(1 << size for _, size in runs)
-    order = [i for kind in "fqw" for i, (c, _) in enumerate(runs) if c == kind]
+    kinds: tuple[_Run, ...] = ("f", "q", "w")
+    order = [i for kind in kinds for i, (c, _) in enumerate(runs) if c == kind]
     select = sum(1 for c, _ in runs if c == "f")
     return shape, tuple(order), select, 1 << width
 
