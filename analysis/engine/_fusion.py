@@ -1,9 +1,10 @@
 """Compile a plan into fused kernels grouped into segments (the fast engine's program).
 
-A :class:`Schedule` is a fixed function of the plan: the order of its kernels, and how
-gates are fused into them, never depend on the batch size, chunk size, memory budget or
-worker count, so neither do the numbers (the engine applies the same floating-point
-operations to every amplitude of sample ``k`` however the work is cut).
+A :class:`~haarline.engine._records.Schedule` is a fixed function of the plan: the order
+of its kernels, and how gates are fused into them, never depend on the batch size, chunk
+size, memory budget or worker count, so neither do the numbers (the engine applies the
+same floating-point operations to every amplitude of sample ``k`` however the work is
+cut).
 
 Three steps:
 
