@@ -41,7 +41,7 @@ from haarline.errors import (
     OptionError,
     Problem,
 )
-from haarline.lie.algebra import Algebra, generate_algebra, independent_count
+from haarline.lie.algebra import Algebra, ClosureStop, generate_algebra, independent_count
 from haarline.lie.diagnosis import AlgebraPoint, LieDiagnosis, growth_fit, lie_diagnosis, lie_scan
 from haarline.lie.generators import CircuitGenerators, circuit_generators, rotation_generator
 from haarline.lie.ideals import Ideal, simple_algebra_names
@@ -144,6 +144,7 @@ __all__ = [
     "Circuit",
     "CircuitError",
     "CircuitGenerators",
+    "ClosureStop",
     "Context",
     "DataError",
     "Dataset",

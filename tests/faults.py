@@ -22,8 +22,8 @@ from typing import Any
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-import haarline  # noqa: E402
-from live_server import LiveServer, wait_for  # noqa: E402
+import haarline
+from live_server import LiveServer, wait_for
 
 
 def job(i: int) -> dict[str, Any]:

@@ -27,7 +27,7 @@ from typing import Any
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from live_server import LiveServer  # noqa: E402
+from live_server import LiveServer
 
 FINAL = ("succeeded", "failed", "cancelled")
 

@@ -23,7 +23,7 @@ import pytest
 from haarline import expand, parse_circuit
 from haarline.circuit.gates import GATES
 from haarline.engine.context import Context
-from haarline.lie.algebra import generate_algebra, independent_count
+from haarline.lie.algebra import ClosureStop, generate_algebra, independent_count
 from haarline.lie.diagnosis import growth_fit, lie_diagnosis
 from haarline.lie.generators import circuit_generators, rotation_generator
 from haarline.lie.ideals import simple_algebra_names
@@ -466,7 +466,26 @@ def test_cap_gives_a_lower_bound():
         cap=100,
     )
     assert not a.complete and a.dimension >= 100 and a.centre_dimension is None
-    assert "cap" in a.to_dict()["stop_reason"]
+    assert a.stop is ClosureStop.CAP
+    assert a.to_dict()["stop_reason"] == "cap of 100 elements reached"
+
+
+def test_closure_stop_texts_are_pinned():
+    # a regression pin: the report's stop_reason strings are part of report_format 1
+    texts = {stop: stop.text(cap=100, budget=1000) for stop in ClosureStop}
+    assert texts == {
+        ClosureStop.CLOSED: "closed",
+        ClosureStop.FULL: "all of su(2^n)",
+        ClosureStop.EMPTY: "no generators",
+        ClosureStop.CAP: "cap of 100 elements reached",
+        ClosureStop.WORK: "work budget of 16000 string products reached",
+        ClosureStop.COEFFICIENTS: "coefficient budget of 1000 reached",
+    }
+    assert [s for s in ClosureStop if s.complete] == [
+        ClosureStop.CLOSED,
+        ClosureStop.FULL,
+        ClosureStop.EMPTY,
+    ]
 
 
 def test_names_of_simple_algebras():

@@ -214,6 +214,8 @@ _MODULE_ONLY = {
     "RANKING_RULE",
     # helpers kept at module level on purpose
     "uses_only_patterns",
+    # the engine's type alias for complex arrays of either precision
+    "Complexes",
     "step_targets",
     "expand_at",
     "time_steps",

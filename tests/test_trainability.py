@@ -68,7 +68,22 @@ def test_no_verdict_on_too_few_qubit_counts():
 
 
 def _points(values, se_rel=0.05):
-    return [VariancePoint(n, 1, n, 200, v, (v, v), se_rel * v, v, v, 0.0, 0.01) for n, v in values]
+    return [
+        VariancePoint(
+            qubits=n,
+            layers=1,
+            parameters=n,
+            samples=200,
+            variance=v,
+            interval=(v, v),
+            standard_error=se_rel * v,
+            largest=v,
+            smallest=v,
+            mean_cost=0.0,
+            top_sample_share=0.01,
+        )
+        for n, v in values
+    ]
 
 
 def test_verdict_rules_on_constructed_points():

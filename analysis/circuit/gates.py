@@ -57,8 +57,9 @@ def _rotation(generator: str) -> Callable[[NDArray[np.float64]], Matrix]:
     eye = np.eye(g.shape[0], dtype=complex)
 
     def matrix(theta: NDArray[np.float64]) -> Matrix:
-        half = np.asarray(theta, dtype=float)[..., None, None] / 2.0
-        return np.cos(half) * eye - 1j * np.sin(half) * g
+        half: NDArray[np.float64] = np.asarray(theta, dtype=float)[..., None, None] / 2.0
+        m: Matrix = np.cos(half) * eye - 1j * np.sin(half) * g
+        return m
 
     return matrix
 
@@ -83,7 +84,7 @@ def _controlled(one: Callable[[NDArray[np.float64]], Matrix]) -> Callable[..., M
     return matrix
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class GateSpec:
     """One row of the gate table.
 
@@ -252,4 +253,5 @@ def gate_matrix(name: str, theta: float = 0.0) -> Matrix:
     >>> np.allclose(gate_matrix("rx", np.pi), [[0, -1j], [-1j, 0]])
     True
     """
-    return lookup(name).matrix(np.array([theta]))[0]
+    m: Matrix = lookup(name).matrix(np.array([theta]))[0]
+    return m

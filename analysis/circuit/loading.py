@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Hashable
 from pathlib import Path
 from typing import Any
 
@@ -78,7 +79,9 @@ def _construct_float(loader: _Loader, node: yaml.ScalarNode) -> float:
     raise _yaml_fail(node, f"{text[:40]!r} is not a number")
 
 
-def _construct_mapping(loader: _Loader, node: yaml.MappingNode, deep: bool = False) -> dict:
+def _construct_mapping(
+    loader: _Loader, node: yaml.MappingNode, deep: bool = False
+) -> dict[Hashable, Any]:
     if not isinstance(node, yaml.MappingNode):
         raise _yaml_fail(node, "expected a mapping")
     seen: set[str] = set()
@@ -143,7 +146,7 @@ def _reject_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
 def _decode(text: str, kind: str, source: str | None) -> Any:
     if kind == "yaml":
         try:
-            return yaml.load(text, Loader=_Loader)  # noqa: S506 - a SafeLoader subclass
+            return yaml.load(text, Loader=_Loader)  # _Loader is a SafeLoader subclass
         except yaml.YAMLError as exc:
             mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
             where = f"line {mark.line + 1}, column {mark.column + 1}: " if mark else ""

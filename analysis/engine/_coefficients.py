@@ -18,15 +18,22 @@ Forms of a one-qubit block ``M``:
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Any
+from collections.abc import Sequence
+from typing import Any, Literal, TypeAlias
 
 import numpy as np
 from haarline.circuit.gates import lookup
-from haarline.engine._fusion import Kernel, Segment
+from haarline.engine._records import Form, Kernel, Plan, PlanStep, Segment
 from numpy.typing import NDArray
 
-__all__ = ["Form", "evaluate", "half_angle"]
+__all__ = ["Entry", "evaluate", "half_angle"]
+
+# quoted: numpy's runtime `inexact` takes one type argument, its stubs two
+Entry: TypeAlias = "complex | NDArray[np.inexact[Any, Any]]"
+"""One entry of a block's matrix: a Python complex constant (fixed gates), or one value
+per sample, shape ``(B,)``."""
+Block = tuple[Entry, Entry, Entry, Entry]
+"""The entries ``(M00, M01, M10, M11)`` of a one-qubit block."""
 
 _STEP = 1.0 / 1024
 _TABLE = np.arange(int(2 * np.pi / _STEP) + 3) * _STEP
@@ -35,7 +42,7 @@ _ROUND = 1.5 * 2.0**52  # adding it rounds a float below 2**51 to an integer
 _FAR = 64.0
 
 
-def half_angle(theta: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+def half_angle(theta: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """``cos(θ/2)`` and ``sin(θ/2)`` for an array of angles, to about 2 ulps.
 
     numpy's double-precision ``cos`` costs some 20 ns per element on the reference
@@ -77,9 +84,10 @@ def half_angle(theta: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
     return c.reshape(shape), s0.reshape(shape)
 
 
-def _fixed_angle(step) -> float:  # noqa: ANN001
+def _fixed_angle(step: PlanStep) -> float:
     """Angle of a fixed-angle one-axis rotation (rx, ry, rxx, ryy), read from its matrix."""
     m = step.fixed
+    assert m is not None
     c = m[0, 0].real
     name = step.spec.name
     if name == "ry":
@@ -91,35 +99,20 @@ def _fixed_angle(step) -> float:  # noqa: ANN001
     return float(2.0 * np.arctan2(s, c))
 
 
-@dataclass
-class Form:
-    """How one kernel is applied.
-
-    ``kind`` picks the operation sequence; ``coefs`` holds constants or slot numbers;
-    ``factor`` (constant, slot or None) is the per-sample factor the operations leave
-    out, multiplied in when the tile is written back.
-    """
-
-    kind: str
-    kernel: Kernel
-    coefs: tuple = ()
-    factor: object = None
-
-
 class _Slots:
     """Collects per-sample coefficient arrays in slot order."""
 
     def __init__(self, width: int) -> None:
         self.width = width
-        self.values: list = []
+        self.values: list[Entry] = []
         self.count = 0
 
-    def add(self, values: object) -> int:
+    def add(self, values: Entry) -> int:
         self.values.append(values)
         self.count += 1
         return self.count - 1
 
-    def add_rows(self, block: NDArray) -> int:
+    def add_rows(self, block: NDArray[np.complex128]) -> int:
         """Add a block of ``len(block)`` consecutive slots; return the first."""
         self.values.append(block)
         self.count += len(block)
@@ -133,32 +126,41 @@ class _Angles:
     block, not one per gate.
     """
 
-    def __init__(self, steps, thetas: NDArray) -> None:  # noqa: ANN001
+    def __init__(self, steps: Sequence[PlanStep], thetas: NDArray[np.float64]) -> None:
         self.steps = steps
         self.raw = np.ascontiguousarray(np.asarray(thetas, dtype=float).T)  # (P, B)
         self.cos, self.sin = half_angle(self.raw)
 
-    def __call__(self, g: int) -> NDArray | None:
+    def __call__(self, g: int) -> NDArray[np.float64] | None:
         """Angles of step ``g`` for every sample, or None for a fixed step."""
         p = self.steps[g].param
         return self.raw[p] if p is not None else None
 
-    def half(self, g: int) -> tuple[NDArray, NDArray]:
+    def values(self, g: int) -> NDArray[np.float64]:
+        """Angles of a parameterized step ``g`` for every sample."""
+        p = self.steps[g].param
+        if p is None:
+            raise ValueError(f"step {g} is a fixed gate: it has no angles")
+        row: NDArray[np.float64] = self.raw[p]
+        return row
+
+    def half(self, g: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
         """``cos(θ/2)`` and ``sin(θ/2)`` of a parameterized step ``g``."""
         p = self.steps[g].param
         return self.cos[p], self.sin[p]
 
 
-def _entries(step, angles: Any, g: int):  # noqa: ANN001, ANN202
+def _entries(step: PlanStep, angles: _Angles, g: int) -> Block:
     """The four entries of a one-qubit step's matrix (the target's for controlled gates).
 
     Python complex constants for fixed gates, arrays of shape (B,) otherwise.
     """
     if step.fixed is not None and step.fixed.shape == (2, 2):
-        return tuple(complex(x) for x in step.fixed.ravel())
+        f00, f01, f10, f11 = (complex(x) for x in step.fixed.ravel())
+        return (f00, f01, f10, f11)
     spec = lookup(step.spec.target) if step.spec.target is not None else step.spec
     if spec.generator not in ("X", "Y", "Z"):
-        m = spec.matrix(angles(g))
+        m = spec.matrix(angles.values(g))
         return (m[:, 0, 0], m[:, 0, 1], m[:, 1, 0], m[:, 1, 1])
     c, s = angles.half(g)
     if spec.generator == "X":
@@ -176,13 +178,13 @@ def _zero(x: object) -> bool:
     return isinstance(x, complex) and x == 0
 
 
-def _times(x, y):  # noqa: ANN001, ANN202
+def _times(x: Entry, y: Entry) -> Entry:
     if _zero(x) or _zero(y):
         return 0j
     return x * y
 
 
-def _plus(x, y):  # noqa: ANN001, ANN202
+def _plus(x: Entry, y: Entry) -> Entry:
     if _zero(x):
         return y
     if _zero(y):
@@ -190,7 +192,7 @@ def _plus(x, y):  # noqa: ANN001, ANN202
     return x + y
 
 
-def _product(g, h):  # noqa: ANN001, ANN202
+def _product(g: Block, h: Block) -> Block:
     """Entries of ``g @ h`` (2x2, entries constants or (B,) arrays), skipping zeros."""
     g00, g01, g10, g11 = g
     h00, h01, h10, h11 = h
@@ -202,21 +204,22 @@ def _product(g, h):  # noqa: ANN001, ANN202
     )
 
 
-def _form(plan, k: Kernel, angles, batch: int, co: _Slots) -> Form:  # noqa: ANN001, C901
+def _form(plan: Plan, k: Kernel, angles: _Angles, batch: int, co: _Slots) -> Form:
     steps = plan.steps
     if k.kind == "perm":
         return Form("perm", k)
     if k.kind == "one":
-        fixed = all(steps[g].fixed is not None for g in k.steps)
-        if fixed:
+        matrices = [steps[g].fixed for g in k.steps]
+        if all(f is not None for f in matrices):
             m = np.eye(2, dtype=complex)
-            for g in k.steps:
-                m = steps[g].fixed @ m
+            for f in matrices:
+                assert f is not None
+                m = f @ m
             return _fixed_2x2(k, m)
         split = _rotation_split(plan, k)
         if split is not None:
             return _shear_form(plan, k, split, angles, batch, co)
-        block: tuple = (1 + 0j, 0j, 0j, 1 + 0j)
+        block: Block = (1 + 0j, 0j, 0j, 1 + 0j)
         for g in k.steps:
             block = _product(_entries(steps[g], angles, g), block)
         m00, m01, m10, m11 = block
@@ -230,16 +233,17 @@ def _form(plan, k: Kernel, angles, batch: int, co: _Slots) -> Form:  # noqa: ANN
     if spec.target is not None:
         if step.fixed is not None:
             form = _fixed_2x2(k, step.fixed, factor=False)
-            return Form("c-" + form.kind, k, form.coefs, None)
+            return Form(form.kind, k, form.coefs, None, controlled=True)
         m00, m01, m10, m11 = _entries(step, angles, g0)
         if spec.diagonal:
-            return Form("c-diag2", k, (co.add(m00), co.add(m11)))
-        return Form("c-general", k, tuple(co.add(x) for x in (m00, m01, m10, m11)))
+            return Form("diag2", k, (co.add(m00), co.add(m11)), controlled=True)
+        coefs = tuple(co.add(x) for x in (m00, m01, m10, m11))
+        return Form("general", k, coefs, controlled=True)
     if spec.diagonal:
         if step.fixed is not None:
             d = np.diag(step.fixed)
             return Form("diag4", k, tuple(complex(x / d[0]) for x in d[1:]), complex(d[0]))
-        d = np.diagonal(spec.matrix(a), axis1=1, axis2=2)
+        d = np.diagonal(spec.matrix(angles.values(g0)), axis1=1, axis2=2)
         return Form(
             "diag4", k, tuple(co.add(d[:, j] / d[:, 0]) for j in (1, 2, 3)), co.add(d[:, 0])
         )
@@ -248,18 +252,22 @@ def _form(plan, k: Kernel, angles, batch: int, co: _Slots) -> Form:  # noqa: ANN
             c, t = angles.half(g0)
         else:
             c, t = half_angle(np.full(batch, _fixed_angle(step)))
-        t = -1j * (t / c)
-        outer = t if spec.name == "rxx" else -t  # the (00, 11) pair: ±i tan
-        return Form("pairs", k, (co.add(outer), co.add(t)), co.add(c))
+        tan = -1j * (t / c)
+        outer = tan if spec.name == "rxx" else -tan  # the (00, 11) pair: ±i tan
+        return Form("pairs", k, (co.add(outer), co.add(tan)), co.add(c))
     if spec.name == "swap":
         return Form("swap", k)
     if step.fixed is not None:
-        return Form("general4", k, (np.asarray(step.fixed),))
-    m = spec.matrix(a)
+        return Form("general4", k, tuple(complex(x) for x in step.fixed.ravel()))
+    m = spec.matrix(angles.values(g0))
     return Form("general4", k, tuple(co.add(m[:, i, j]) for i in range(4) for j in range(4)))
 
 
-def _rotation_split(plan, kernel: Kernel) -> tuple[int, int, str] | None:  # noqa: ANN001
+Axis = Literal["rx", "ry"]
+"""The one-axis rotations a shear form absorbs."""
+
+
+def _rotation_split(plan: Plan, kernel: Kernel) -> tuple[int, int, Axis] | None:
     """Where the one-axis rotations of a block are, if it has that shape.
 
     For a block (diagonal gates) · (rotations about one axis, x or y) · (diagonal gates)
@@ -274,10 +282,17 @@ def _rotation_split(plan, kernel: Kernel) -> tuple[int, int, str] | None:  # noq
     axes = set(names[start:stop])
     if stop - start != len(middle) or axes not in ({"rx"}, {"ry"}):
         return None
-    return start, stop, axes.pop()
+    return start, stop, "rx" if axes == {"rx"} else "ry"
 
 
-def _shear_form(plan, k: Kernel, split, angles, batch: int, co: _Slots) -> Form:  # noqa: ANN001
+def _shear_form(
+    plan: Plan,
+    k: Kernel,
+    split: tuple[int, int, Axis],
+    angles: _Angles,
+    batch: int,
+    co: _Slots,
+) -> Form:
     """Shear form of ``S · R · P``, ``R`` one rotation and ``P``, ``S`` diagonal.
 
     ``M = diag(M00, M11) · [[1, β], [γ, 1]]`` with ``β = M01/M00``, ``γ = M10/M11``
@@ -298,9 +313,9 @@ def _shear_form(plan, k: Kernel, split, angles, batch: int, co: _Slots) -> Form:
     t = s / c
     x, x2 = (-1j * t, -1j * t) if axis == "rx" else (-t, t)
 
-    def diagonal(gates: tuple[int, ...]):  # noqa: ANN202
-        d0: object = 1 + 0j
-        d1: object = 1 + 0j
+    def diagonal(gates: tuple[int, ...]) -> tuple[Entry, Entry]:
+        d0: Entry = 1 + 0j
+        d1: Entry = 1 + 0j
         for g in gates:
             e = _entries(steps[g], angles, g)
             d0, d1 = _times(e[0], d0), _times(e[3], d1)
@@ -308,6 +323,8 @@ def _shear_form(plan, k: Kernel, split, angles, batch: int, co: _Slots) -> Form:
 
     p0, p1 = diagonal(k.steps[:start])
     s0, s1 = diagonal(k.steps[stop:])
+    beta: Entry
+    gamma: Entry
     if _is(p0, 1) and _is(p1, 1):
         beta, gamma = x, x2
     else:
@@ -321,7 +338,7 @@ def _shear_form(plan, k: Kernel, split, angles, batch: int, co: _Slots) -> Form:
     return Form("shear_diag", k, (*coefs, co.add(r)), co.add(factor))
 
 
-def _fixed_2x2(k: Kernel, m: NDArray, *, factor: bool = True) -> Form:
+def _fixed_2x2(k: Kernel, m: NDArray[np.complex128], *, factor: bool = True) -> Form:
     """The cheapest form of a fixed one-qubit matrix.
 
     ``factor=False`` for the target of a controlled gate, where no factor may move to
@@ -339,7 +356,9 @@ def _fixed_2x2(k: Kernel, m: NDArray, *, factor: bool = True) -> Form:
     return Form("general", k, (m00, m01, m10, m11))
 
 
-def evaluate(plan, seg: Segment, thetas: NDArray, dtype: np.dtype) -> tuple[list[Form], NDArray]:  # noqa: ANN001
+def evaluate(
+    plan: Plan, seg: Segment, thetas: NDArray[np.float64], dtype: np.dtype[Any]
+) -> tuple[list[Form], NDArray[Any]]:
     """Forms of a segment's kernels and their coefficient table.
 
     The table has shape ``(slots, len(thetas))``: one column per parameter vector (row
@@ -367,7 +386,7 @@ def evaluate(plan, seg: Segment, thetas: NDArray, dtype: np.dtype) -> tuple[list
     return forms, table
 
 
-def _diagonal_entries(step, angles: Any, g: int) -> tuple:  # noqa: ANN001
+def _diagonal_entries(step: PlanStep, angles: _Angles, g: int) -> tuple[Entry, ...]:
     """Diagonal of a diagonal step's matrix (4 entries for two-qubit gates).
 
     Constants for fixed gates, arrays of shape (B,) otherwise.
@@ -380,11 +399,13 @@ def _diagonal_entries(step, angles: Any, g: int) -> tuple:  # noqa: ANN001
         return (1 + 0j, 1 + 0j, e[0], e[3])
     if step.fixed is not None:
         return tuple(complex(x) for x in np.diag(step.fixed))
-    d = np.diagonal(step.spec.matrix(angles(g)), axis1=1, axis2=2)
+    d = np.diagonal(step.spec.matrix(angles.values(g)), axis1=1, axis2=2)
     return tuple(d[:, j] for j in range(4))
 
 
-def _phase_form(plan, k: Kernel, local: tuple[int, ...], angles, width: int, co: _Slots) -> Form:  # noqa: ANN001
+def _phase_form(
+    plan: Plan, k: Kernel, local: tuple[int, ...], angles: _Angles, width: int, co: _Slots
+) -> Form:
     """A run of diagonal kernels as one table of per-sample phases over the local index.
 
     The table, ``(2**len(local), width)``, is built by multiplying every gate's diagonal

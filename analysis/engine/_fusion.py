@@ -1,9 +1,10 @@
 """Compile a plan into fused kernels grouped into segments (the fast engine's program).
 
-A :class:`Schedule` is a fixed function of the plan: the order of its kernels, and how
-gates are fused into them, never depend on the batch size, chunk size, memory budget or
-worker count, so neither do the numbers (the engine applies the same floating-point
-operations to every amplitude of sample ``k`` however the work is cut).
+A :class:`~haarline.engine._records.Schedule` is a fixed function of the plan: the order
+of its kernels, and how gates are fused into them, never depend on the batch size, chunk
+size, memory budget or worker count, so neither do the numbers (the engine applies the
+same floating-point operations to every amplitude of sample ``k`` however the work is
+cut).
 
 Three steps:
 
@@ -26,18 +27,16 @@ Three steps:
 from __future__ import annotations
 
 import heapq
-from dataclasses import dataclass, field
+from collections.abc import Sequence
 
 import numpy as np
+from haarline.engine._records import Kernel, Plan, PlanStep, Schedule, Segment
 from numpy.typing import NDArray
 
 __all__ = [
     "SEGMENT_QUBITS",
     "TAIL_QUBITS",
     "WHOLE_QUBITS",
-    "Kernel",
-    "Schedule",
-    "Segment",
     "build_schedule",
     "segment_capacity",
 ]
@@ -69,59 +68,13 @@ def segment_capacity(qubits: int) -> int:
     return min(SEGMENT_QUBITS, qubits - TAIL_QUBITS)
 
 
-@dataclass(frozen=True)
-class Kernel:
-    """One fused operation of a segment.
-
-    Attributes
-    ----------
-    kind : str
-        ``"one"`` (fused one-qubit gates on ``qubits[0]``), ``"two"`` (one two-qubit
-        gate), ``"perm"`` (a run of fixed basis-permuting gates) or ``"phase"`` (a run
-        of diagonal kernels, fixed or per-sample, applied as one multiply by a table of
-        per-sample phases over the segment's local index; segmented schedules only).
-    qubits : tuple of int
-        Qubits acted on (gate order: control first for controlled gates).
-    steps : tuple of int
-        Indices into ``plan.steps`` of the fused gates, in application order.
-    perm, phase : ndarray or None
-        For ``"perm"``: ``out[j] = phase[j] * in[perm[j]]`` over the segment's local index.
-    members : tuple of Kernel
-        For ``"phase"``: the diagonal kernels it joins.
-    """
-
-    kind: str
-    qubits: tuple[int, ...]
-    steps: tuple[int, ...]
-    perm: NDArray[np.intp] | None = None
-    phase: NDArray[np.complex128] | None = None
-    members: tuple[Kernel, ...] = ()
-
-
-@dataclass(frozen=True)
-class Segment:
-    """Kernels applied together to one tile; ``qubits`` (sorted) are the tile's rows."""
-
-    qubits: tuple[int, ...]
-    kernels: tuple[Kernel, ...]
-
-
-@dataclass(frozen=True)
-class Schedule:
-    """A plan compiled for the fast engine."""
-
-    qubits: int
-    segments: tuple[Segment, ...]
-    extra: dict = field(default_factory=dict, compare=False, repr=False)
-
-
-def _is_monomial(m: NDArray) -> bool:
+def _is_monomial(m: NDArray[np.complex128]) -> bool:
     """Whether a matrix has exactly one non-zero entry in every row and column."""
     nz = np.abs(m) > 1e-14
     return bool(np.all(nz.sum(axis=0) == 1) and np.all(nz.sum(axis=1) == 1))
 
 
-def _full_fixed(step) -> NDArray | None:  # noqa: ANN001
+def _full_fixed(step: PlanStep) -> NDArray[np.complex128] | None:
     """The full fixed matrix of a step (controlled gates expanded to 4x4), or None."""
     if step.fixed is None:
         return None
@@ -132,7 +85,7 @@ def _full_fixed(step) -> NDArray | None:  # noqa: ANN001
     return step.fixed
 
 
-def _commuting_flags(step) -> tuple[bool, ...]:  # noqa: ANN001
+def _commuting_flags(step: PlanStep) -> tuple[bool, ...]:
     """Per qubit of the step: whether the gate acts diagonally on that qubit."""
     spec = step.spec
     if spec.diagonal:
@@ -142,7 +95,7 @@ def _commuting_flags(step) -> tuple[bool, ...]:  # noqa: ANN001
     return (False,) * len(step.qubits)
 
 
-def _predecessors(steps) -> list[set[int]]:  # noqa: ANN001
+def _predecessors(steps: Sequence[PlanStep]) -> list[set[int]]:
     """Gate ``g`` waits for the last gate on each qubit that does not commute with it."""
     preds: list[set[int]] = [set() for _ in steps]
     last: dict[int, int] = {}  # qubit -> last gate acting non-diagonally on it
@@ -167,7 +120,7 @@ def _predecessors(steps) -> list[set[int]]:  # noqa: ANN001
 class _Graph:
     """Ready-set bookkeeping over the partial order."""
 
-    def __init__(self, steps) -> None:  # noqa: ANN001
+    def __init__(self, steps: Sequence[PlanStep]) -> None:
         self.steps = steps
         preds = _predecessors(steps)
         self.waiting = [len(p) for p in preds]
@@ -185,7 +138,7 @@ class _Graph:
                 self.ready.add(h)
 
 
-def _segments(steps, cap: int) -> list[tuple[tuple[int, ...], list[int]]]:  # noqa: ANN001
+def _segments(steps: Sequence[PlanStep], cap: int) -> list[tuple[tuple[int, ...], list[int]]]:
     """Cut the gates into segments that each touch at most ``cap`` qubits."""
     graph = _Graph(steps)
     remaining = len(steps)
@@ -218,7 +171,7 @@ ORDINARY, DIAGONAL, PERMUTING = 0, 1, 2
 two-qubit gates; fixed non-diagonal two-qubit gates that permute basis states."""
 
 
-def _gate_class(step) -> int:  # noqa: ANN001
+def _gate_class(step: PlanStep) -> int:
     """The ordering class of a gate (see :data:`ORDINARY`)."""
     if len(step.qubits) == 1:
         return ORDINARY
@@ -230,7 +183,7 @@ def _gate_class(step) -> int:  # noqa: ANN001
     return ORDINARY
 
 
-def _order(steps, members: list[int]) -> list[int]:  # noqa: ANN001
+def _order(steps: Sequence[PlanStep], members: list[int]) -> list[int]:
     """Topological order of ``members`` that groups diagonal and permuting gates.
 
     It cycles: every ready ordinary gate, then every ready diagonal two-qubit gate, then
@@ -262,7 +215,9 @@ def _order(steps, members: list[int]) -> list[int]:  # noqa: ANN001
     return order
 
 
-def _permutation_of(steps, group: list[int], local: tuple[int, ...]):  # noqa: ANN001, ANN202
+def _permutation_of(
+    steps: Sequence[PlanStep], group: list[int], local: tuple[int, ...]
+) -> tuple[NDArray[np.intp], NDArray[np.complex128]]:
     """``(perm, phase)`` of a run of fixed basis-permuting gates.
 
     Over the ``2**len(local)`` local basis states: ``out[j] = phase[j] * in[perm[j]]``.
@@ -300,7 +255,9 @@ def _permutation_of(steps, group: list[int], local: tuple[int, ...]):  # noqa: A
 _MONOMIAL_COST = {"cz": 0.25, "z": 0.5, "s": 0.5, "sdg": 0.5, "t": 0.5, "tdg": 0.5}
 
 
-def _kernels(steps, order: list[int], local: tuple[int, ...], phases: bool) -> list[Kernel]:  # noqa: ANN001
+def _kernels(
+    steps: Sequence[PlanStep], order: list[int], local: tuple[int, ...], phases: bool
+) -> list[Kernel]:
     """Fuse one-qubit gates per qubit and join runs of fixed basis-permuting gates.
 
     With ``phases`` (segmented schedules), runs of diagonal kernels are joined too.
@@ -311,7 +268,7 @@ def _kernels(steps, order: list[int], local: tuple[int, ...], phases: bool) -> l
     def flush(q: int) -> None:
         block = open_blocks.pop(q, None)
         if block:
-            raw.append(Kernel("one", (q,), tuple(block)))
+            raw.append(Kernel(kind="one", qubits=(q,), steps=tuple(block)))
 
     previous_class = None
     for g in order:
@@ -326,7 +283,7 @@ def _kernels(steps, order: list[int], local: tuple[int, ...], phases: bool) -> l
             continue
         for q in step.qubits:
             flush(q)
-        raw.append(Kernel("two", step.qubits, (g,)))
+        raw.append(Kernel(kind="two", qubits=step.qubits, steps=(g,)))
     for q in sorted(open_blocks):
         flush(q)
 
@@ -351,7 +308,9 @@ def _kernels(steps, order: list[int], local: tuple[int, ...], phases: bool) -> l
         )
         if len(run) > 1 and cost_joined < cost_apart:
             qubits = tuple(sorted({q for k in run for q in k.qubits}))
-            out.append(Kernel("perm", qubits, tuple(group), perm, phase))
+            out.append(
+                Kernel(kind="perm", qubits=qubits, steps=tuple(group), perm=perm, phase=phase)
+            )
         else:
             out.extend(run)
         run.clear()
@@ -366,14 +325,14 @@ def _kernels(steps, order: list[int], local: tuple[int, ...], phases: bool) -> l
     return _join_diagonal(steps, out) if phases else out
 
 
-def _diagonal_kernel(steps, kernel: Kernel) -> bool:  # noqa: ANN001
+def _diagonal_kernel(steps: Sequence[PlanStep], kernel: Kernel) -> bool:
     if kernel.kind == "perm":
         assert kernel.perm is not None
         return bool(np.array_equal(kernel.perm, np.arange(len(kernel.perm))))
     return all(steps[g].spec.diagonal for g in kernel.steps)
 
 
-def _join_diagonal(steps, kernels: list[Kernel]) -> list[Kernel]:  # noqa: ANN001
+def _join_diagonal(steps: Sequence[PlanStep], kernels: list[Kernel]) -> list[Kernel]:
     """Join runs of two or more diagonal kernels into one ``"phase"`` kernel."""
     out: list[Kernel] = []
     run: list[Kernel] = []
@@ -382,7 +341,7 @@ def _join_diagonal(steps, kernels: list[Kernel]) -> list[Kernel]:  # noqa: ANN00
         if len(run) > 1:
             qubits = tuple(sorted({q for k in run for q in k.qubits}))
             group = tuple(g for k in run for g in k.steps)
-            out.append(Kernel("phase", qubits, group, members=tuple(run)))
+            out.append(Kernel(kind="phase", qubits=qubits, steps=group, members=tuple(run)))
         else:
             out.extend(run)
         run.clear()
@@ -397,8 +356,8 @@ def _join_diagonal(steps, kernels: list[Kernel]) -> list[Kernel]:  # noqa: ANN00
     return out
 
 
-def build_schedule(plan, *, capacity: int | None = None) -> Schedule:  # noqa: ANN001
-    """Compile a :class:`~haarline.engine.statevector.Plan` into segments of fused kernels.
+def build_schedule(plan: Plan, *, capacity: int | None = None) -> Schedule:
+    """Compile a :class:`~haarline.engine._records.Plan` into segments of fused kernels.
 
     ``capacity`` (most qubits per segment) defaults to :func:`segment_capacity`; tests
     pass small values to exercise the segmented path on small circuits.

@@ -9,29 +9,36 @@ constants of fixed gates (multiplications by 0 and 1 are skipped).
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from haarline.engine._records import BlockKind, Coef, Complexes
 
 __all__ = ["Op", "ops_2x2"]
 
-Op = Callable[[NDArray], None]
-"""One bound operation: called with the tile's coefficient table."""
+Op = Callable[[Complexes], object]
+"""One bound operation: called with the tile's coefficient table (what it returns is
+ignored)."""
 
 
 def _is(value: object, target: complex) -> bool:
     return isinstance(value, complex) and value == target
 
 
-def ops_2x2(kind: str, coefs: tuple, a: NDArray, b: NDArray, u: NDArray, v: NDArray) -> list[Op]:
+def ops_2x2(
+    kind: BlockKind,
+    coefs: tuple[Coef, ...],
+    a: Complexes,
+    b: Complexes,
+    u: Complexes,
+    v: Complexes,
+) -> list[Op]:
     """Operations for ``(a, b) <- M (a, b)`` in place.
 
     ``u``, ``v`` are temporaries of the same shape; ``coefs`` holds constants or indices
     into the tile's coefficient table.
     """
 
-    def get(c: NDArray, x: Any) -> Any:
+    def get(c: Complexes, x: Coef) -> complex | Complexes:
         return x if isinstance(x, complex) else c[x]
 
     ops: list[Op] = []
@@ -60,18 +67,25 @@ def ops_2x2(kind: str, coefs: tuple, a: NDArray, b: NDArray, u: NDArray, v: NDAr
     if kind == "shear":  # [[1, beta], [gamma, 1]]
         beta, gamma = coefs
 
-        def shear(c: NDArray) -> None:
+        def shear(c: Complexes) -> None:
             np.multiply(b, get(c, beta), out=u)
             np.multiply(a, get(c, gamma), out=v)
             np.add(a, u, out=a)
             np.add(b, v, out=b)
 
         return [shear]
+    if kind != "general":
+        raise ValueError(f"unknown block kind {kind!r}")
     m00, m01, m10, m11 = coefs
-    if all(isinstance(x, complex) for x in coefs):
+    if (
+        isinstance(m00, complex)
+        and isinstance(m01, complex)
+        and isinstance(m10, complex)
+        and isinstance(m11, complex)
+    ):
         return _ops_fixed(m00, m01, m10, m11, a, b, u, v)
 
-    def general(c: NDArray) -> None:
+    def general(c: Complexes) -> None:
         np.multiply(a, get(c, m00), out=u)
         np.multiply(b, get(c, m01), out=v)
         np.add(u, v, out=u)
@@ -88,14 +102,14 @@ def _ops_fixed(
     m01: complex,
     m10: complex,
     m11: complex,
-    a,
-    b,
-    u,
-    v,  # noqa: ANN001
+    a: Complexes,
+    b: Complexes,
+    u: Complexes,
+    v: Complexes,
 ) -> list[Op]:
     """A fixed 2x2 in place, skipping multiplications by 0 and 1."""
 
-    def scaled(x: NDArray, m: complex, out: NDArray) -> None:
+    def scaled(x: Complexes, m: complex, out: Complexes) -> None:
         if m == 1:
             np.copyto(out, x)
         elif m == -1:
@@ -103,7 +117,7 @@ def _ops_fixed(
         else:
             np.multiply(x, m, out=out)
 
-    def fixed(c: NDArray) -> None:
+    def fixed(c: Complexes) -> None:
         # new a into u
         if m00 != 0:
             scaled(a, m00, u)

@@ -26,11 +26,21 @@ chunking or on how samples are split between processes.
 from __future__ import annotations
 
 import threading
+from typing import Any, Literal
 
 import numpy as np
-from haarline.engine._coefficients import Form, evaluate
-from haarline.engine._fusion import Schedule, Segment
+from haarline.engine._coefficients import evaluate
 from haarline.engine._ops import Op, ops_2x2
+from haarline.engine._records import (
+    BlockKind,
+    Coef,
+    Complexes,
+    Form,
+    Plan,
+    Schedule,
+    Segment,
+    is_block,
+)
 from numpy.typing import NDArray
 
 __all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "TILE_AMPLITUDES", "execute", "scratch"]
@@ -54,7 +64,7 @@ three times slower; with 256 it works on them directly. Copies only: the numbers
 change."""
 
 
-def _tiny(dtype: np.dtype) -> float:
+def _tiny(dtype: np.dtype[Any]) -> float:
     """Running factor below which a sample's tile column is rescaled mid-segment."""
     return 1e-150 if np.dtype(dtype).itemsize == 16 else 1e-18
 
@@ -63,9 +73,9 @@ class _Pool:
     """Per-thread flat scratch arrays, shared by every bound tile of that thread."""
 
     def __init__(self) -> None:
-        self.arrays: dict[tuple[str, int, int], NDArray] = {}
+        self.arrays: dict[tuple[str, int, int], Complexes] = {}
 
-    def get(self, dtype: np.dtype, index: int, size: int) -> NDArray:
+    def get(self, dtype: np.dtype[Any], index: int, size: int) -> Complexes:
         key = (np.dtype(dtype).str, index, size)
         arr = self.arrays.get(key)
         if arr is None:
@@ -77,7 +87,13 @@ class _Tile:
     """A segment's operations bound to scratch arrays of one tile shape."""
 
     def __init__(
-        self, seg: Segment, forms: list[Form], columns: int, dtype: np.dtype, pool: _Pool, size: int
+        self,
+        seg: Segment,
+        forms: list[Form],
+        columns: int,
+        dtype: np.dtype[Any],
+        pool: _Pool,
+        size: int,
     ) -> None:
         rows = 1 << len(seg.qubits)
         self.rows, self.columns = rows, columns
@@ -95,29 +111,31 @@ class _Tile:
         self.ops = [op for group in self.groups for op in group]
         self.final = current
 
-    def _temp(self, i: int, shape: tuple[int, ...]) -> NDArray:
+    def _temp(self, i: int, shape: tuple[int, ...]) -> Complexes:
         size = int(np.prod(shape))
         return self.temps[i][:size].reshape(shape)
 
-    def _halves(self, buf: NDArray, q: int) -> tuple[NDArray, NDArray]:
+    def _halves(self, buf: Complexes, q: int) -> tuple[Complexes, Complexes]:
         k = len(self.local)
         p = self.local[q]
         v = buf.reshape(1 << p, 2, 1 << (k - p - 1), self.columns)
         return v[:, 0], v[:, 1]
 
-    def _quarters(self, buf: NDArray, first: int, second: int) -> dict[tuple[int, int], NDArray]:
+    def _quarters(
+        self, buf: Complexes, first: int, second: int
+    ) -> dict[tuple[int, int], Complexes]:
         k = len(self.local)
         p1, p2 = self.local[first], self.local[second]
         lo, hi = min(p1, p2), max(p1, p2)
         v = buf.reshape(1 << lo, 2, 1 << (hi - lo - 1), 2, 1 << (k - hi - 1), self.columns)
-        out = {}
+        out: dict[tuple[int, int], Complexes] = {}
         for bf in (0, 1):
             for bs in (0, 1):
                 b_lo, b_hi = (bf, bs) if p1 < p2 else (bs, bf)
                 out[(bf, bs)] = v[:, b_lo, :, b_hi]
         return out
 
-    def _bind(self, form: Form, current: int, dtype: np.dtype) -> int:
+    def _bind(self, form: Form, current: int, dtype: np.dtype[Any]) -> int:
         buf = self.buffers[current]
         k = form.kernel
         add = self.groups[-1].append
@@ -128,15 +146,21 @@ class _Tile:
             if identity:
                 if phase is not None:
 
-                    def rephase(c: NDArray, buf: NDArray = buf, ph: NDArray = phase) -> None:
+                    def rephase(c: Complexes, buf: Complexes = buf, ph: Complexes = phase) -> None:
                         np.multiply(buf, ph, out=buf)
 
                     add(rephase)
                 return current
             other = self.buffers[1 - current]
-            perm = k.perm.astype(np.intp)
+            source = k.perm.astype(np.intp)
 
-            def permute(c: NDArray, src=buf, dst=other, perm=perm, ph=phase) -> None:  # noqa: ANN001
+            def permute(
+                c: Complexes,
+                src: Complexes = buf,
+                dst: Complexes = other,
+                perm: NDArray[np.intp] = source,
+                ph: Complexes | None = phase,
+            ) -> None:
                 np.take(src, perm, axis=0, out=dst, mode="clip")
                 if ph is not None:
                     np.multiply(dst, ph, out=dst)
@@ -144,10 +168,10 @@ class _Tile:
             add(permute)
             return 1 - current
         if form.kind == "phase":
-            start, rows = form.coefs
+            start, rows = (_slot(x) for x in form.coefs)
 
             def phases(
-                c: NDArray, buf: NDArray = buf, lo: int = start, hi: int = start + rows
+                c: Complexes, buf: Complexes = buf, lo: int = start, hi: int = start + rows
             ) -> None:
                 np.multiply(buf, c[lo:hi], out=buf)
 
@@ -156,14 +180,15 @@ class _Tile:
         if k.kind == "one":
             a, b = self._halves(buf, k.qubits[0])
             u, v = self._temp(0, a.shape), self._temp(1, a.shape)
-            for op in ops_2x2(form.kind, form.coefs, a, b, u, v):
+            for op in ops_2x2(_block_kind(form), form.coefs, a, b, u, v):
                 add(op)
             return current
         quarters = self._quarters(buf, *k.qubits)
         shape = quarters[(0, 0)].shape
         u, v = self._temp(0, shape), self._temp(1, shape)
-        if form.kind.startswith("c-"):
-            for op in ops_2x2(form.kind[2:], form.coefs, quarters[(1, 0)], quarters[(1, 1)], u, v):
+        if form.controlled:  # the target's block, where the control is |1>
+            a, b = quarters[(1, 0)], quarters[(1, 1)]
+            for op in ops_2x2(_block_kind(form), form.coefs, a, b, u, v):
                 add(op)
             return current
         if form.kind == "diag4":
@@ -173,7 +198,12 @@ class _Tile:
             return current
         if form.kind == "swap":
 
-            def swap(c: NDArray, x=quarters[(0, 1)], y=quarters[(1, 0)], t=u) -> None:  # noqa: ANN001
+            def swap(
+                c: Complexes,
+                x: Complexes = quarters[(0, 1)],
+                y: Complexes = quarters[(1, 0)],
+                t: Complexes = u,
+            ) -> None:
                 np.copyto(t, x)
                 np.copyto(x, y)
                 np.copyto(y, t)
@@ -187,17 +217,15 @@ class _Tile:
             for op in ops_2x2("shear", (inner, inner), quarters[(0, 1)], quarters[(1, 0)], u, v):
                 add(op)
             return current
+        if form.kind != "general4":
+            raise ValueError(f"a two-qubit kernel cannot have the form {form.kind!r}")
         # general 4x4 (not used by today's gate table beyond swap, kept for new gates)
         order = [(0, 0), (0, 1), (1, 0), (1, 1)]
         subs = [quarters[key] for key in order]
         olds = [np.empty(shape, dtype=dtype) for _ in range(4)]
-        if len(form.coefs) == 1:
-            fixed = form.coefs[0]
-            entries = [[complex(fixed[i, j]) for j in range(4)] for i in range(4)]
-        else:
-            entries = [[form.coefs[4 * i + j] for j in range(4)] for i in range(4)]
+        entries = [[form.coefs[4 * i + j] for j in range(4)] for i in range(4)]
 
-        def general4(c: NDArray) -> None:
+        def general4(c: Complexes) -> None:
             for s, o in zip(subs, olds, strict=True):
                 np.copyto(o, s)
             for i in range(4):
@@ -216,10 +244,30 @@ class _Tile:
         return current
 
 
+def _block_kind(form: Form) -> BlockKind:
+    """The one-qubit block kind of a form bound to two halves (or quarters) of a tile."""
+    if is_block(form.kind):
+        return form.kind
+    raise ValueError(f"a one-qubit block cannot have the form {form.kind!r}")
+
+
+def _slot(coef: Coef) -> int:
+    """A coefficient that must be a slot number (a row of the coefficient table)."""
+    if isinstance(coef, complex):
+        raise ValueError(f"expected a slot of the coefficient table, got the constant {coef}")
+    return coef
+
+
 # -- gather and scatter -------------------------------------------------------------------
 
 
-def _layout(n: int, local: tuple[int, ...], tile_log: int):  # noqa: ANN202
+_Run = Literal["f", "q", "w"]
+"""A qubit's part in a tile layout: selects the tile (f), local row (q) or column (w)."""
+
+
+def _layout(
+    n: int, local: tuple[int, ...], tile_log: int
+) -> tuple[tuple[int, ...], tuple[int, ...], int, int]:
     """How one state of a large circuit is cut into a segment's tiles.
 
     Returns the reshape of the state into runs of adjacent qubits, the transpose that
@@ -229,44 +277,48 @@ def _layout(n: int, local: tuple[int, ...], tile_log: int):  # noqa: ANN202
     others = [q for q in range(n) if q not in local]
     width = max(0, min(len(others), tile_log - len(local)))
     columns = set(others[len(others) - width :])
-    cls = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
-    runs: list[tuple[str, int]] = []
+    cls: list[_Run] = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
+    runs: list[tuple[_Run, int]] = []
     for c in cls:
         if runs and runs[-1][0] == c:
             runs[-1] = (c, runs[-1][1] + 1)
         else:
             runs.append((c, 1))
     shape = tuple(1 << size for _, size in runs)
-    order = [i for kind in "fqw" for i, (c, _) in enumerate(runs) if c == kind]
+    kinds: tuple[_Run, ...] = ("f", "q", "w")
+    order = [i for kind in kinds for i, (c, _) in enumerate(runs) if c == kind]
     select = sum(1 for c, _ in runs if c == "f")
     return shape, tuple(order), select, 1 << width
 
 
-_local = threading.local()
+class _PerThread(threading.local):
+    """Each thread's scratch pool and bound tiles (set up on a thread's first use).
+
+    ``tiles`` maps (schedule id, segment, columns, dtype, scratch size) to the schedule
+    and its bound tile; the schedule is kept to tell a reused id from the same schedule.
+    """
+
+    def __init__(self) -> None:
+        self.pool = _Pool()
+        self.tiles: dict[tuple[int, int, int, str, int], tuple[Schedule, _Tile]] = {}
 
 
-def _state() -> tuple[_Pool, dict]:
-    pool = getattr(_local, "pool", None)
-    if pool is None:
-        pool = _local.pool = _Pool()
-        _local.tiles = {}
-    return pool, _local.tiles
+_local = _PerThread()
 
 
-def scratch(dtype: np.dtype, index: int, size: int) -> NDArray:
+def scratch(dtype: np.dtype[Any], index: int, size: int) -> Complexes:
     """A flat scratch array of ``size`` elements from the per-thread pool.
 
     Indices 0-3 are the tiles'; the gate-by-gate path uses 10 and up.
     """
-    pool, _ = _state()
-    return pool.get(dtype, index, _power_of_two(size))[:size]
+    return _local.pool.get(dtype, index, _power_of_two(size))[:size]
 
 
 def _bound(
-    schedule: Schedule, s: int, forms: list[Form], columns: int, dtype: np.dtype, size: int
+    schedule: Schedule, s: int, forms: list[Form], columns: int, dtype: np.dtype[Any], size: int
 ) -> _Tile:
     """Bound operations of segment ``s`` for a tile width, reused between calls (LRU)."""
-    pool, tiles = _state()
+    pool, tiles = _local.pool, _local.tiles
     key = (id(schedule), s, columns, np.dtype(dtype).str, size)
     entry = tiles.pop(key, None)
     if entry is None or entry[0] is not schedule:
@@ -282,16 +334,22 @@ def _power_of_two(x: int) -> int:
     return 1 << max(0, (x - 1).bit_length())
 
 
-def _slots(plan, schedule: Schedule, s: int, dtype: np.dtype) -> int:  # noqa: ANN001
+def _slots(plan: Plan, schedule: Schedule, s: int, dtype: np.dtype[Any]) -> int:
     """Coefficient slots of segment ``s`` (one dry evaluation, kept with the schedule)."""
-    key = ("slots", s)
-    if key not in schedule.extra:
+    found = schedule.slots.get(s)
+    if found is None:
         _, table = evaluate(plan, schedule.segments[s], np.zeros((1, plan.parameters)), dtype)
-        schedule.extra[key] = table.shape[0]
-    return schedule.extra[key]
+        found = schedule.slots[s] = table.shape[0]
+    return found
 
 
-def _scale(forms: list[Form], table: NDArray, dtype: np.dtype):  # noqa: ANN202
+Rescale = tuple[int, np.complexfloating[Any, Any]]
+"""A mid-segment rescale: after the kernel at this position, multiply by this value."""
+
+
+def _scale(
+    forms: list[Form], table: Complexes, dtype: np.dtype[Any]
+) -> tuple[Complexes | None, dict[int, list[Rescale]]]:
     """Running per-sample factor of a segment, and rare mid-segment rescales.
 
     The factor has shape (w,) (or is None); the rescales ``{column: [(kernel position,
@@ -299,8 +357,8 @@ def _scale(forms: list[Form], table: NDArray, dtype: np.dtype):  # noqa: ANN202
     """
     tiny = _tiny(dtype)
     width = table.shape[1]
-    scale = None
-    marks: dict[int, list] = {}
+    scale: Complexes | None = None
+    marks: dict[int, list[Rescale]] = {}
     for pos, form in enumerate(forms):
         f = form.factor
         if f is None:
@@ -315,10 +373,10 @@ def _scale(forms: list[Form], table: NDArray, dtype: np.dtype):  # noqa: ANN202
 
 
 def execute(
-    plan,  # noqa: ANN001
+    plan: Plan,
     schedule: Schedule,
-    thetas: NDArray,
-    states: NDArray,
+    thetas: NDArray[np.float64],
+    states: Complexes,
     *,
     tile: int = TILE_AMPLITUDES,
 ) -> None:
@@ -340,7 +398,14 @@ def execute(
         np.setbufsize(old)
 
 
-def _by_samples(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> None:  # noqa: ANN001
+def _by_samples(
+    plan: Plan,
+    schedule: Schedule,
+    s: int,
+    thetas: NDArray[np.float64],
+    states: Complexes,
+    tile: int,
+) -> None:
     """A segment over every qubit: tiles are blocks of samples, one column each."""
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -355,7 +420,8 @@ def _by_samples(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> 
         work = _bound(schedule, s, forms, b1 - b0, dtype, _power_of_two((b1 - b0) << n))
         np.copyto(work.buffers[0], states[b0:b1].T)
         scale, marks = _scale(forms, table, dtype)
-        _run_ops(work, table, [(i, e) for i, es in marks.items() for e in es], column=True)
+        rescales: list[tuple[int | None, Rescale]] = [(i, e) for i, es in marks.items() for e in es]
+        _run_ops(work, table, rescales, column=True)
         out = work.buffers[work.final]
         if scale is None:
             np.copyto(states[b0:b1], out.T)
@@ -363,7 +429,14 @@ def _by_samples(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> 
             np.multiply(out.T, scale[:, None], out=states[b0:b1])
 
 
-def _by_tiles(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> None:  # noqa: ANN001
+def _by_tiles(
+    plan: Plan,
+    schedule: Schedule,
+    s: int,
+    thetas: NDArray[np.float64],
+    states: Complexes,
+    tile: int,
+) -> None:
     """A segment of a larger circuit: tiles are slices of one sample's state."""
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -385,7 +458,7 @@ def _by_tiles(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> No
         scale, marks = _scale(forms, table, dtype)
         for i in range(b1 - b0):
             c = table[:, i : i + 1]
-            events = [(None, e) for e in marks.get(i, ())]
+            events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
             factor = None if scale is None else scale[i : i + 1].reshape(ones)
             view = states[b0 + i].reshape(shape).transpose(order)
             for f in np.ndindex(*fshape):
@@ -398,7 +471,9 @@ def _by_tiles(plan, schedule: Schedule, s: int, thetas, states, tile: int) -> No
                     np.multiply(out, factor, out=part)
 
 
-def _run_ops(tile: _Tile, c: NDArray, events: list, *, column: bool) -> None:
+def _run_ops(
+    tile: _Tile, c: Complexes, events: list[tuple[int | None, Rescale]], *, column: bool
+) -> None:
     """Run a tile's operations.
 
     ``events`` are rare mid-segment rescales ``(column or None, (kernel position,
@@ -408,7 +483,7 @@ def _run_ops(tile: _Tile, c: NDArray, events: list, *, column: bool) -> None:
         for op in tile.ops:
             op(c)
         return
-    by_pos: dict[int, list] = {}
+    by_pos: dict[int, list[tuple[int | None, np.complexfloating[Any, Any]]]] = {}
     for col, (pos, mult) in events:
         by_pos.setdefault(pos, []).append((col, mult))
     for pos, group in enumerate(tile.groups):

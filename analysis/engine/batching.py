@@ -23,7 +23,7 @@ from haarline.circuit.program import Program
 from haarline.engine.context import Context, Progress
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import BLOCK_SIZE
-from haarline.engine.statevector import Plan, compile_program, rows_per_chunk, run
+from haarline.engine.statevector import Complexes, Plan, compile_program, rows_per_chunk, run
 from numpy.typing import NDArray
 
 __all__ = [
@@ -63,7 +63,7 @@ def chunked_states(
     stage: str = "",
     start: int = 0,
     draws: Draws | None = None,
-) -> Iterator[tuple[int, NDArray]]:
+) -> Iterator[tuple[int, Complexes]]:
     """Yield ``(offset, states)`` with ``states`` of shape ``(rows, copies, 2**n)``.
 
     Sample ``start + offset + i`` uses row ``start + offset + i`` of the stream, of width
@@ -75,7 +75,7 @@ def chunked_states(
     plan: Plan = compile_program(program)
     draws = draws or Draws()
     rows = max(1, min(count, rows_per_chunk(program.qubits, memory_budget, dtype) // copies))
-    buffer: NDArray = np.empty((rows * copies, 1 << program.qubits), dtype=dtype)
+    buffer: Complexes = np.empty((rows * copies, 1 << program.qubits), dtype=dtype)
     done = 0
     if progress is not None:
         progress(stage, 0, count)
@@ -92,15 +92,20 @@ def chunked_states(
             progress(stage, done, count)
 
 
+ChunkValues = Callable[[Complexes, int], NDArray[np.float64]]
+"""What :func:`sample_map` maps over chunks: ``func(states, n)``, states
+``(rows, copies, 2**n)``, to one value (or row of values) per sample."""
+
+
 def _sample_block(
-    func: Callable[[NDArray, int], NDArray],
+    func: ChunkValues,
     program: Program,
     start: int,
     count: int,
     options: dict[str, Any],
-) -> NDArray:
+) -> NDArray[np.float64]:
     """Values of samples ``start .. start+count-1`` (runs in a worker process)."""
-    out: NDArray | None = None
+    out: NDArray[np.float64] | None = None
     for offset, states in chunked_states(program, count=count, start=start, **options):
         values = func(states, program.qubits)
         if out is None:
@@ -111,7 +116,7 @@ def _sample_block(
 
 
 def sample_map(
-    func: Callable[[NDArray, int], NDArray],
+    func: ChunkValues,
     program: Program,
     *,
     count: int,
@@ -121,7 +126,7 @@ def sample_map(
     context: Context,
     stage: str = "",
     draws: Draws | None = None,
-) -> NDArray:
+) -> NDArray[np.float64]:
     """``func(states, n)`` for every sample, in sample order: an array ``(count, ...)``.
 
     ``func`` maps a chunk of states ``(rows, copies, 2**n)`` to one value (or row of
@@ -194,7 +199,7 @@ def _pool(workers: int) -> ProcessPoolExecutor:
 
 def block_map(
     func: Callable[..., Any],
-    tasks: Sequence[tuple],
+    tasks: Sequence[tuple[Any, ...]],
     *,
     context: Context,
     stage: str = "",
@@ -220,7 +225,7 @@ def block_map(
         return out
     pool = _pool(workers)
     try:
-        futures: list[Future] = [pool.submit(func, *task) for task in tasks]
+        futures: list[Future[Any]] = [pool.submit(func, *task) for task in tasks]
         done = 0
         for future, size in zip(futures, sizes, strict=True):
             future.result()

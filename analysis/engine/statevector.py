@@ -30,13 +30,13 @@ budget into a batch size.
 from __future__ import annotations
 
 import threading
-from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from haarline.circuit.gates import GateSpec, lookup
+from haarline.circuit.gates import lookup
 from haarline.circuit.program import Program
-from haarline.engine._fusion import Schedule, build_schedule
+from haarline.engine._fusion import build_schedule
+from haarline.engine._records import Complexes, Plan, PlanStep, Schedule
 from haarline.engine._tiles import execute, scratch
 from haarline.errors import LimitError
 from numpy.typing import NDArray
@@ -46,6 +46,7 @@ __all__ = [
     "DEFAULT_MEMORY_BUDGET",
     "WORK_FACTOR",
     "Plan",
+    "Complexes",
     "PlanStep",
     "apply_generator",
     "apply_pauli",
@@ -69,31 +70,6 @@ CHUNK_AMPLITUDES = 1 << 18
 cuts a chunk into cache-sized tiles itself, so larger chunks measured no faster; the
 gate-by-gate path works on pieces of at most :data:`PIECE_AMPLITUDES`. Speed only; the
 numbers never depend on it."""
-
-
-@dataclass(frozen=True)
-class PlanStep:
-    """One gate of a plan: its table row, qubits, parameter index and fixed matrix."""
-
-    spec: GateSpec
-    qubits: tuple[int, ...]
-    param: int | None
-    fixed: NDArray[np.complex128] | None  # matrix of a fixed gate or fixed-angle rotation
-
-
-@dataclass(frozen=True)
-class Plan:
-    """A program prepared for the engine (matrices of fixed gates precomputed).
-
-    ``steps`` holds one step per gate, for code that needs every gate on its own (adjoint
-    differentiation, the state Jacobian); :func:`run` applies the fused schedule built
-    from them once and kept in ``cache``.
-    """
-
-    qubits: int
-    parameters: int
-    steps: tuple[PlanStep, ...]
-    cache: dict[str, Any] = field(default_factory=dict, compare=False, repr=False)
 
 
 PLAN_CACHE_SIZE = 32
@@ -141,9 +117,9 @@ def _compile(program: Program) -> Plan:
     return Plan(program.qubits, program.columns, tuple(steps))
 
 
-def zero_states(batch: int, qubits: int, dtype: type = np.complex128) -> NDArray:
+def zero_states(batch: int, qubits: int, dtype: type = np.complex128) -> Complexes:
     """Return ``batch`` copies of |0…0⟩, shape ``(batch, 2**qubits)``."""
-    states: NDArray = np.zeros((batch, 1 << qubits), dtype=dtype)
+    states: Complexes = np.zeros((batch, 1 << qubits), dtype=dtype)
     states[:, 0] = 1.0
     return states
 
@@ -186,10 +162,13 @@ def batch_bytes(qubits: int, memory_budget: int, copies: int = 1) -> int:
     return WORK_FACTOR * copies * rows * (1 << qubits) * np.dtype(np.complex128).itemsize
 
 
-def _coefficient(m: NDArray, i: int, j: int, ndim: int) -> NDArray | complex:
+def _coefficient(
+    m: Complexes, i: int, j: int, ndim: int
+) -> Complexes | np.complexfloating[Any, Any]:
     """Entry (i, j) of a fixed (d, d) or batched (B, d, d) matrix, shaped to broadcast."""
     if m.ndim == 2:
-        return m[i, j]
+        entry: np.complexfloating[Any, Any] = m[i, j]
+        return entry
     return m[:, i, j].reshape((-1,) + (1,) * (ndim - 1))
 
 
@@ -198,7 +177,9 @@ PIECE_AMPLITUDES = 1 << 15
 in the caches and in the small scratch pool)."""
 
 
-def _pieces(views: tuple[NDArray, ...], m: NDArray) -> list[tuple[tuple[NDArray, ...], NDArray]]:
+def _pieces(
+    views: tuple[Complexes, ...], m: Complexes
+) -> list[tuple[tuple[Complexes, ...], Complexes]]:
     """Cut equal-shaped views (and a batched matrix along with them) into small pieces.
 
     Pieces hold at most :data:`PIECE_AMPLITUDES` elements; the cut runs along the first
@@ -210,7 +191,7 @@ def _pieces(views: tuple[NDArray, ...], m: NDArray) -> list[tuple[tuple[NDArray,
     axis = next(i for i, d in enumerate(views[0].shape) if d > 1)
     length = views[0].shape[axis]
     step = max(1, length * PIECE_AMPLITUDES // size)
-    out = []
+    out: list[tuple[tuple[Complexes, ...], Complexes]] = []
     for lo in range(0, length, step):
         index = (slice(None),) * axis + (slice(lo, lo + step),)
         part = m[lo : lo + step] if (axis == 0 and m.ndim == 3) else m
@@ -218,7 +199,7 @@ def _pieces(views: tuple[NDArray, ...], m: NDArray) -> list[tuple[tuple[NDArray,
     return out
 
 
-def _apply_2x2(s0: NDArray, s1: NDArray, m: NDArray, diagonal: bool) -> None:
+def _apply_2x2(s0: Complexes, s1: Complexes, m: Complexes, diagonal: bool) -> None:
     """In place: (s0, s1) ← m @ (s0, s1), with m fixed or one per batch row.
 
     Large views go piece by piece; temporaries come from the per-thread scratch pool (a
@@ -252,8 +233,8 @@ def _apply_2x2(s0: NDArray, s1: NDArray, m: NDArray, diagonal: bool) -> None:
 
 
 def step_matrix(
-    step: PlanStep, angles: NDArray | None, dtype: type, *, adjoint: bool = False
-) -> NDArray:
+    step: PlanStep, angles: NDArray[np.float64] | None, dtype: type, *, adjoint: bool = False
+) -> Complexes:
     """Matrix of one plan step: fixed ``(d, d)`` or batched ``(B, d, d)``.
 
     For controlled gates this is the one-qubit matrix acting on the target.
@@ -272,7 +253,12 @@ def step_matrix(
 
 
 def apply_step(
-    states: NDArray, n: int, step: PlanStep, angles: NDArray | None, *, adjoint: bool = False
+    states: Complexes,
+    n: int,
+    step: PlanStep,
+    angles: NDArray[np.float64] | None,
+    *,
+    adjoint: bool = False,
 ) -> None:
     """Apply one plan step (or its inverse, ``adjoint=True``) to a batch in place."""
     _apply_matrix(states, n, step, step_matrix(step, angles, states.dtype.type, adjoint=adjoint))
@@ -285,7 +271,7 @@ _PAULI_MATRICES = {
 }
 
 
-def apply_pauli(states: NDArray, n: int, paulis: str, qubits: tuple[int, ...]) -> None:
+def apply_pauli(states: Complexes, n: int, paulis: str, qubits: tuple[int, ...]) -> None:
     """Multiply a batch in place by the Pauli string ``paulis`` on ``qubits``."""
     b = states.shape[0]
     for letter, q in zip(paulis, qubits, strict=True):
@@ -306,7 +292,7 @@ def apply_pauli(states: NDArray, n: int, paulis: str, qubits: tuple[int, ...]) -
             np.copyto(s0, t)
 
 
-def apply_generator(states: NDArray, n: int, step: PlanStep) -> None:
+def apply_generator(states: Complexes, n: int, step: PlanStep) -> None:
     """Multiply a batch in place by the generator ``G`` of a rotation step.
 
     A rotation is ``exp(-i θ G / 2)``; for a controlled rotation ``G = |1⟩⟨1|_c ⊗ P_t``,
@@ -325,7 +311,7 @@ def apply_generator(states: NDArray, n: int, step: PlanStep) -> None:
     apply_pauli(states, n, spec.generator, (target,))
 
 
-def _apply_matrix(states: NDArray, n: int, step: PlanStep, m: NDArray) -> None:
+def _apply_matrix(states: Complexes, n: int, step: PlanStep, m: Complexes) -> None:
     spec = step.spec
     b = states.shape[0]
     if spec.qubits == 1:
@@ -337,7 +323,7 @@ def _apply_matrix(states: NDArray, n: int, step: PlanStep, m: NDArray) -> None:
     lo, hi = min(first, second), max(first, second)
     v = states.reshape(b, 1 << lo, 2, 1 << (hi - lo - 1), 2, 1 << (n - hi - 1))
 
-    def block(bf: int, bs: int) -> NDArray:
+    def block(bf: int, bs: int) -> Complexes:
         b_lo, b_hi = (bf, bs) if first < second else (bs, bf)
         return v[:, :, b_lo, :, b_hi, :]
 
@@ -354,7 +340,7 @@ def _apply_matrix(states: NDArray, n: int, step: PlanStep, m: NDArray) -> None:
         _apply_4x4(pieces, part)
 
 
-def _apply_4x4(subs: tuple[NDArray, ...], m: NDArray) -> None:
+def _apply_4x4(subs: tuple[Complexes, ...], m: Complexes) -> None:
     """In place: the four quarter views ``subs`` (|00>, |01>, |10>, |11>) <- m @ subs."""
     nd = subs[0].ndim
     size = subs[0].size
@@ -376,9 +362,9 @@ def run(
     program: Program | Plan,
     thetas: NDArray[np.float64],
     *,
-    states: NDArray | None = None,
+    states: Complexes | None = None,
     dtype: type = np.complex128,
-) -> NDArray:
+) -> Complexes:
     """Run a program on a batch of parameter vectors.
 
     Parameters
@@ -431,14 +417,14 @@ def run(
 
 
 def schedule(plan: Plan) -> Schedule:
-    """The fused schedule of a plan (built on first use and kept in ``plan.cache``)."""
-    found = plan.cache.get("schedule")
+    """The fused schedule of a plan (built on first use and kept in ``plan.memo``)."""
+    found = plan.memo.schedule
     if found is None:
-        found = plan.cache["schedule"] = build_schedule(plan)
+        found = plan.memo.schedule = build_schedule(plan)
     return found
 
 
-def run_steps(plan: Plan, thetas: NDArray[np.float64], states: NDArray) -> NDArray:
+def run_steps(plan: Plan, thetas: NDArray[np.float64], states: Complexes) -> Complexes:
     """Apply the plan gate by gate, in place (the unfused path)."""
     for step in plan.steps:
         angles = thetas[:, step.param] if step.param is not None else None

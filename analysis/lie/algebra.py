@@ -28,14 +28,17 @@ bracketed with each generator until nothing linearly independent appears, so the
 
 The closure stops with "at least D" (``complete = False``) once ``cap`` elements are
 found, or in the Pauli-sum case when the stored coefficients would pass ``budget`` or
-the string products ``WORK_FACTOR × budget`` (about ten seconds). The
-semisimple part is then split into simple ideals by :mod:`haarline.lie.ideals`.
+the string products ``WORK_FACTOR × budget`` (about ten seconds). Why it stopped is a
+:class:`ClosureStop` member; the report's ``stop_reason`` is that member's text
+(:meth:`ClosureStop.text`). The semisimple part is then split into simple ideals by
+:mod:`haarline.lie.ideals`.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from enum import Enum
 from typing import Any
 
 import numpy as np
@@ -49,6 +52,7 @@ __all__ = [
     "RANK_TOLERANCE",
     "WORK_FACTOR",
     "Algebra",
+    "ClosureStop",
     "generate_algebra",
     "independent_count",
 ]
@@ -66,18 +70,61 @@ RANK_TOLERANCE = 1e-7
 """Relative residual above which an element counts as linearly independent."""
 
 
-@dataclass(frozen=True, eq=False)
+class ClosureStop(Enum):
+    """Why the closure stopped: it found everything, or it hit a limit (a lower bound)."""
+
+    CLOSED = "closed"
+    """Nothing new came from bracketing with the generators: the algebra is complete."""
+    FULL = "full"
+    """All of su(2**n) was reached: complete."""
+    EMPTY = "empty"
+    """No generator had a traceless part: the algebra is {0}, complete."""
+    CAP = "cap"
+    """``cap`` elements were found: a lower bound."""
+    WORK = "work"
+    """Pauli sums: ``WORK_FACTOR × budget`` string products were spent: a lower bound."""
+    COEFFICIENTS = "coefficients"
+    """Pauli sums: the basis would store more than ``budget`` coefficients: a lower bound."""
+
+    @property
+    def complete(self) -> bool:
+        """Whether the closure found the whole algebra (not a lower bound)."""
+        return self in (ClosureStop.CLOSED, ClosureStop.FULL, ClosureStop.EMPTY)
+
+    def text(self, *, cap: int = DEFAULT_CAP, budget: int = DEFAULT_BUDGET) -> str:
+        """The report's ``stop_reason``: one plain phrase, naming the limit that was hit.
+
+        Examples
+        --------
+        >>> ClosureStop.FULL.text(), ClosureStop.CAP.text(cap=100)
+        ('all of su(2^n)', 'cap of 100 elements reached')
+        """
+        if self is ClosureStop.CLOSED:
+            return "closed"
+        if self is ClosureStop.FULL:
+            return "all of su(2^n)"
+        if self is ClosureStop.EMPTY:
+            return "no generators"
+        if self is ClosureStop.CAP:
+            return f"cap of {cap} elements reached"
+        if self is ClosureStop.WORK:
+            return f"work budget of {WORK_FACTOR * budget} string products reached"
+        return f"coefficient budget of {budget} reached"
+
+
+@dataclass(frozen=True, eq=False, kw_only=True)
 class Algebra:
     """The closure of a generator set and what is known of its structure.
 
     ``x, z`` are the Pauli strings the basis uses; ``basis`` has orthonormal rows over
     them (``None`` in the Pauli-string case: the strings themselves). ``centre`` is an
     orthonormal basis of the centre over the same strings (``None`` if unknown).
+    ``stop`` says why the closure stopped and ``stop_reason`` says it in words (the
+    report's text).
     """
 
     qubits: int
     dimension: int
-    complete: bool
     pauli_strings: bool
     generators: int
     x: Ints
@@ -85,12 +132,18 @@ class Algebra:
     basis: Floats | None
     centre: Floats | None
     ideals: tuple[Ideal, ...]
+    stop: ClosureStop
     stop_reason: str
+
+    @property
+    def complete(self) -> bool:
+        """Whether the closure found the whole algebra (``False``: a lower bound)."""
+        return self.stop.complete
 
     @property
     def maximum(self) -> int:
         """``4**n - 1``, the dimension of su(2**n)."""
-        return 4**self.qubits - 1
+        return int(4**self.qubits) - 1
 
     @property
     def full(self) -> bool:
@@ -182,7 +235,19 @@ def _traceless(g: PauliExpansion) -> PauliExpansion:
 
 def _empty(n: int) -> Algebra:
     e = np.zeros(0, dtype=np.int64)
-    return Algebra(n, 0, True, True, 0, e, e, None, np.zeros((0, 0)), (), "no generators")
+    return Algebra(
+        qubits=n,
+        dimension=0,
+        pauli_strings=True,
+        generators=0,
+        x=e,
+        z=e,
+        basis=None,
+        centre=np.zeros((0, 0)),
+        ideals=(),
+        stop=ClosureStop.EMPTY,
+        stop_reason=ClosureStop.EMPTY.text(),
+    )
 
 
 # ------------------------------------------------------------------ Pauli strings
@@ -214,7 +279,7 @@ def _string_algebra(gens: list[PauliExpansion], n: int, cap: int, split_limit: i
         table[keys] = True
     else:
         seen.update(int(v) for v in keys)
-    count, done, reason = k, 0, "closed"
+    count, done, stop = k, 0, ClosureStop.CLOSED
     X, Z = gx, gz
     block = max(1, (1 << 16) // k)
     while done < count:
@@ -238,15 +303,30 @@ def _string_algebra(gens: list[PauliExpansion], n: int, cap: int, split_limit: i
         cls.append(gclass[c[first[fresh]]])
         count += new_keys.size
         if count == top:
-            reason = "all of su(2^n)"
+            stop = ClosureStop.FULL
             break
         if count >= cap:
-            reason = f"cap of {cap} elements reached"
+            stop = ClosureStop.CAP
             break
     x, z, labels = np.concatenate(xs), np.concatenate(zs), np.concatenate(cls)
-    complete = reason != f"cap of {cap} elements reached"
-    if not complete:
-        return Algebra(n, count, False, True, k, x, z, None, None, (), reason)
+
+    def found(centre: Floats | None, ideals: tuple[Ideal, ...]) -> Algebra:
+        return Algebra(
+            qubits=n,
+            dimension=count,
+            pauli_strings=True,
+            generators=k,
+            x=x,
+            z=z,
+            basis=None,
+            centre=centre,
+            ideals=ideals,
+            stop=stop,
+            stop_reason=stop.text(cap=cap),
+        )
+
+    if not stop.complete:
+        return found(None, ())
     centre_rows = []
     ideals = []
     for label in np.unique(labels):
@@ -257,7 +337,7 @@ def _string_algebra(gens: list[PauliExpansion], n: int, cap: int, split_limit: i
         ideals += string_ideals(x[sel], z[sel], n, split_limit)
     centre = np.zeros((len(centre_rows), count))
     centre[np.arange(len(centre_rows)), centre_rows] = 1.0
-    return Algebra(n, count, True, True, k, x, z, None, centre, tuple(ideals), reason)
+    return found(centre, tuple(ideals))
 
 
 # -------------------------------------------------------------------- Pauli sums
@@ -367,14 +447,14 @@ def _sum_algebra(
     main, derived = _Span(columns), _Span(columns)
     queue = [g for g in gens if main.add(g)]
     basis_gens = list(queue)
-    top, reason, i, work = 4**n - 1, "closed", 0, 0
-    while i < len(queue) and reason == "closed":
+    top, stop, i, work = 4**n - 1, ClosureStop.CLOSED, 0, 0
+    while i < len(queue) and stop is ClosureStop.CLOSED:
         e = queue[i]
         i += 1
         for g in basis_gens:
             work += len(g) * len(e)
             if work > WORK_FACTOR * budget:
-                reason = f"work budget of {WORK_FACTOR * budget} string products reached"
+                stop = ClosureStop.WORK
                 break
             c = bracket(g, e)
             if not len(c):
@@ -384,26 +464,41 @@ def _sum_algebra(
             if main.add(c):
                 queue.append(c)
                 if main.size == top:
-                    reason = "all of su(2^n)"
+                    stop = ClosureStop.FULL
                     break
                 if main.size >= cap:
-                    reason = f"cap of {cap} elements reached"
+                    stop = ClosureStop.CAP
                     break
                 if main.size * len(columns.keys) > budget:
-                    reason = f"coefficient budget of {budget} reached"
+                    stop = ClosureStop.COEFFICIENTS
                     break
     keys = np.array(columns.keys, dtype=np.int64)
     x, z = keys >> n, keys & ((1 << n) - 1)
     basis = main.matrix()
-    d = main.size
-    if reason not in ("closed", "all of su(2^n)"):
-        return Algebra(n, d, False, False, len(basis_gens), x, z, basis, None, (), reason)
-    if reason == "all of su(2^n)":
+
+    def found(centre: Floats | None, ideals: tuple[Ideal, ...]) -> Algebra:
+        return Algebra(
+            qubits=n,
+            dimension=main.size,
+            pauli_strings=False,
+            generators=len(basis_gens),
+            x=x,
+            z=z,
+            basis=basis,
+            centre=centre,
+            ideals=ideals,
+            stop=stop,
+            stop_reason=stop.text(cap=cap, budget=budget),
+        )
+
+    if not stop.complete:
+        return found(None, ())
+    if stop is ClosureStop.FULL:
         (ideal,) = sum_ideals(basis, basis_gens, x, z, n, split_limit)
-        return Algebra(n, d, True, False, len(basis_gens), x, z, basis, basis[:0], (ideal,), reason)
+        return found(basis[:0], (ideal,))
     semi = derived.matrix()
     rest = basis - (basis @ semi.T) @ semi
     u, sv, vt = np.linalg.svd(rest, full_matrices=False)
     centre = vt[sv > 1e-6]
     ideals = sum_ideals(semi, basis_gens, x, z, n, split_limit) if semi.shape[0] else []
-    return Algebra(n, d, True, False, len(basis_gens), x, z, basis, centre, tuple(ideals), reason)
+    return found(centre, tuple(ideals))

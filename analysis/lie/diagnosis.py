@@ -61,7 +61,7 @@ SATURATION_LAYERS = 32
 """Most layers added beyond the described count while the generators keep growing."""
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, kw_only=True)
 class AlgebraPoint:
     """The algebra of the circuit at one qubit count, and its prediction."""
 
@@ -131,7 +131,7 @@ def growth_fit(qubits: list[int], dimensions: list[int]) -> dict[str, Any] | Non
     }
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, kw_only=True)
 class LieDiagnosis:
     """The report's ``lie`` object: the algebra at each qubit count of a scan."""
 
@@ -239,7 +239,17 @@ def lie_diagnosis(
             prediction = predict_variance(gens, algebra, observable_expansion(cost, n))
         else:
             why = f"the Pauli-sum cost acts on {len(cost[0][1])} qubits, not {n}"
-        points.append(AlgebraPoint(n, depth, note, gens, algebra, prediction, why))
+        points.append(
+            AlgebraPoint(
+                qubits=n,
+                layers=depth,
+                layers_note=note,
+                generators=gens,
+                algebra=algebra,
+                prediction=prediction,
+                prediction_note=why,
+            )
+        )
         if context is not None:
             context.report("lie", i, len(counts))
         grow = algebra.complete and algebra.dimension <= EXTEND_BELOW
@@ -248,7 +258,14 @@ def lie_diagnosis(
                 counts.append(n + 1)
     done = [p for p in points if p.algebra.complete]
     growth = growth_fit([p.qubits for p in done], [p.algebra.dimension for p in done])
-    return LieDiagnosis(cost, cap, rule, tuple(points), growth, _summary(points, growth))
+    return LieDiagnosis(
+        cost=cost,
+        cap=cap,
+        layers_rule=rule,
+        points=tuple(points),
+        growth=growth,
+        summary=_summary(points, growth),
+    )
 
 
 def _summary(points: list[AlgebraPoint], growth: dict[str, Any] | None) -> str:

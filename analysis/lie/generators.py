@@ -62,7 +62,7 @@ def rotation_generator(gate: str, qubits: tuple[int, ...], n: int) -> PauliExpan
     return PauliExpansion.from_labels([(0.5, plain), (-0.5, "".join(letters))], n)
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, kw_only=True)
 class CircuitGenerators:
     """Generators of a program's parameters in the frame with fixed gates moved to the end.
 
@@ -174,7 +174,9 @@ def circuit_generators(program: Program) -> CircuitGenerators:
             [Problem("layer", "the circuit has no trainable parameters; it has no generators")]
         )
     prefix = ops[:first]
-    head = Program(program.name, n, program.layers, tuple(prefix), 0)
+    head = Program(
+        name=program.name, qubits=n, layers=program.layers, operations=tuple(prefix), parameters=0
+    )
     state = run(head, np.zeros((1, 0)))[0]
     rotations = [op for op in ops[first:] if op.param is not None]
     owners = len(rotations)

@@ -69,7 +69,7 @@ def simple_algebra_names(dimension: int, rank: int) -> tuple[str, ...]:
 _EXCEPTIONAL = {"g2": (14, 2), "f4": (52, 4), "e6": (78, 6), "e7": (133, 7), "e8": (248, 8)}
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, kw_only=True)
 class Ideal:
     """One ideal of the semisimple part, with an orthonormal basis.
 
@@ -99,7 +99,8 @@ class Ideal:
 def _whole(x: Ints, z: Ints, n: int, basis: Floats | None) -> Ideal:
     """All of su(2**n), simple of rank ``2**n - 1``."""
     d, rank = 4**n - 1, (1 << n) - 1
-    return Ideal(d, rank, True, simple_algebra_names(d, rank), x, z, basis)
+    names = simple_algebra_names(d, rank)
+    return Ideal(dimension=d, rank=rank, simple=True, names=names, x=x, z=z, basis=basis)
 
 
 def _string_ad(x: Ints, z: Ints, n: int, w: Floats) -> Floats:
@@ -124,13 +125,16 @@ def string_ideals(x: Ints, z: Ints, n: int, limit: int) -> list[Ideal]:
     if d == 4**n - 1:
         return [_whole(x, z, n, None)]
     if d > limit:
-        return [Ideal(d, None, None, (), x, z, None)]
+        return [Ideal(dimension=d, rank=None, simple=None, names=(), x=x, z=z, basis=None)]
     rng = block_rng(0, (IDEAL_STREAM,), 0)
     ads = [_string_ad(x, z, n, rng.normal(size=d)) for _ in range(3)]
     out = []
     for dim, rank, rows in _split(ads):
         names = simple_algebra_names(dim, rank)
-        out.append(Ideal(dim, rank, True if names else None, names, x, z, rows))
+        simple = True if names else None
+        out.append(
+            Ideal(dimension=dim, rank=rank, simple=simple, names=names, x=x, z=z, basis=rows)
+        )
     return out
 
 
@@ -192,7 +196,7 @@ def sum_ideals(
     if d == 4**n - 1:
         return [_whole(x, z, n, semi)]
     if d > limit or len(gens) * d * d > 1 << 23:
-        return [Ideal(d, None, None, (), x, z, semi)]
+        return [Ideal(dimension=d, rank=None, simple=None, names=(), x=x, z=z, basis=semi)]
     order = np.argsort((x << n) | z)
     sorted_keys = ((x << n) | z)[order]
     rows = [PauliExpansion(n, x, z, r).merged() for r in semi]
@@ -219,5 +223,9 @@ def sum_ideals(
     out = []
     for dim, rank, coords in parts:
         names = simple_algebra_names(dim, rank)
-        out.append(Ideal(dim, rank, True if names else None, names, x, z, coords @ semi))
+        simple = True if names else None
+        basis = coords @ semi
+        out.append(
+            Ideal(dimension=dim, rank=rank, simple=simple, names=names, x=x, z=z, basis=basis)
+        )
     return out

@@ -100,10 +100,13 @@ def product_phase(x1: Ints | int, z1: Ints | int, x2: Ints | int, z2: Ints | int
     """
     x1, z1, x2, z2 = (np.asarray(v, dtype=np.int64) for v in (x1, z1, x2, z2))
     k = _count(x1 & z1) + _count(x2 & z2) - _count((x1 ^ x2) & (z1 ^ z2)) + 2 * _count(z1 & x2)
-    return np.mod(k, 4)
+    phase: Ints = np.mod(k, 4)
+    return phase
 
 
-def anticommutes(x1: Ints | int, z1: Ints | int, x2: Ints | int, z2: Ints | int) -> NDArray:
+def anticommutes(
+    x1: Ints | int, z1: Ints | int, x2: Ints | int, z2: Ints | int
+) -> NDArray[np.bool_]:
     """Whether the strings anticommute, elementwise (boolean array)."""
     x1, z1, x2, z2 = (np.asarray(v, dtype=np.int64) for v in (x1, z1, x2, z2))
     return (_count((x1 & z2) ^ (z1 & x2)) & 1).astype(bool)

@@ -76,7 +76,7 @@ def _at(expansion: PauliExpansion, x: np.ndarray, z: np.ndarray) -> np.ndarray:
     return np.where(keys[pos] == want, e.coef[pos], 0.0)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class VariancePrediction:
     """Predicted loss variance of a deep circuit from the g-purities (Ragone et al.).
 
@@ -172,7 +172,18 @@ def predict_variance(
     o_norm = dim * float(o.coef[traceless] @ o.coef[traceless])
     rho_norm = float(np.vdot(psi, psi).real) ** 2 - 1.0 / dim
     deep = parameters >= algebra.dimension
-    blank = VariancePrediction(None, False, "", 0.0, 0.0, 0.0, 0.0, (), parameters, deep)
+    blank = VariancePrediction(
+        variance=None,
+        applies=False,
+        reason="",
+        state_purity=0.0,
+        observable_purity=0.0,
+        state_share=0.0,
+        observable_share=0.0,
+        ideals=(),
+        parameters=parameters,
+        deep_enough=deep,
+    )
     if not algebra.complete:
         return _with(blank, f"the closure stopped at a lower bound ({algebra.stop_reason})")
     sv = pauli_values(psi, algebra.x, algebra.z)
@@ -181,7 +192,13 @@ def predict_variance(
     p_obs = _purity(ov, algebra.basis, float(dim))
     s_rho = p_rho / rho_norm if rho_norm > 0 else 1.0
     s_obs = p_obs / o_norm if o_norm > 0 else 1.0
-    base = VariancePrediction(None, False, "", p_rho, p_obs, s_rho, s_obs, (), parameters, deep)
+    base = replace(
+        blank,
+        state_purity=p_rho,
+        observable_purity=p_obs,
+        state_share=s_rho,
+        observable_share=s_obs,
+    )
     if generators.interleaved:
         names = ", ".join(generators.interleaved)
         return _with(
@@ -227,9 +244,7 @@ def predict_variance(
             f"; the prediction is for a deep circuit, and this one has {parameters} "
             f"parameters, fewer than dim g = {algebra.dimension}"
         )
-    return VariancePrediction(
-        total, True, reason, p_rho, p_obs, s_rho, s_obs, tuple(terms), parameters, deep
-    )
+    return replace(base, variance=total, applies=True, reason=reason, ideals=tuple(terms))
 
 
 def _with(p: VariancePrediction, reason: str) -> VariancePrediction:

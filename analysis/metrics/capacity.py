@@ -45,7 +45,9 @@ DEFAULT_RANK_TOLERANCE = 1e-8
 """Eigenvalues below this fraction of the largest QFI eigenvalue count as zero."""
 
 
-def state_jacobian(program: Program, theta: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+def state_jacobian(
+    program: Program, theta: NDArray[np.float64]
+) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """The state ``ψ(θ)`` (shape ``(2**n,)``) and ``∂ψ/∂θ`` (shape ``(2**n, P)``).
 
     Examples
@@ -92,7 +94,7 @@ def quantum_fisher(program: Program, theta: NDArray[np.float64]) -> NDArray[np.f
     return 4.0 * (gram - np.outer(overlap.conj(), overlap)).real
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Capacity:
     """The report's ``capacity`` object."""
 
@@ -159,7 +161,17 @@ def capacity(
     p = program.parameters
     ceiling = 2 ** (program.qubits + 1) - 2
     if p == 0:
-        return Capacity(0, 0, 0, ceiling, tolerance, 0, [], [], [])
+        return Capacity(
+            parameters=0,
+            qfi_rank=0,
+            redundant=0,
+            max_rank=ceiling,
+            tolerance=tolerance,
+            points=0,
+            ranks=[],
+            redundant_parameters=[],
+            eigenvalues=[],
+        )
     context = context or Context()
     # the QFI is with respect to θ: the inputs (if any) stay at one draw
     fixed = Draws(vary="parameters", law=(draws or Draws()).law)

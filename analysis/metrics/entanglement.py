@@ -18,6 +18,7 @@ from haarline.engine.batching import sample_map
 from haarline.engine.context import Context
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream
+from haarline.engine.statevector import Complexes
 from haarline.metrics.haar import haar_meyer_wallach
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
@@ -35,7 +36,7 @@ DISTRIBUTION_BINS = 20
 """Bins of the reported Meyer-Wallach distribution on [0, 1]."""
 
 
-def qubit_purities(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def qubit_purities(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """Purity ``Tr ρ_k²`` of every one-qubit reduced state.
 
     Parameters
@@ -68,7 +69,7 @@ def qubit_purities(states: NDArray, qubits: int) -> NDArray[np.float64]:
     return out
 
 
-def meyer_wallach(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def meyer_wallach(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """Meyer-Wallach value of each state, shape ``(B,)``; 0 for a single qubit.
 
     Examples
@@ -77,11 +78,11 @@ def meyer_wallach(states: NDArray, qubits: int) -> NDArray[np.float64]:
     >>> np.round(meyer_wallach(ghz, 3), 12)
     array([1.])
     """
-    q = 2.0 * (1.0 - qubit_purities(states, qubits).mean(axis=1))
+    q: NDArray[np.float64] = 2.0 * (1.0 - qubit_purities(states, qubits).mean(axis=1))
     return np.clip(q, 0.0, 1.0)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Entanglement:
     """Entangling capability (the report's ``entanglement`` object)."""
 
@@ -163,6 +164,6 @@ def entangling_capability(
     return summarize_meyer_wallach(values, program.qubits)
 
 
-def _chunk_meyer_wallach(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def _chunk_meyer_wallach(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """Meyer-Wallach values of a chunk of states ``(rows, 1, 2**n)``."""
     return meyer_wallach(states[:, 0], qubits)

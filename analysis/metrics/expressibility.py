@@ -34,6 +34,7 @@ from haarline.engine.batching import sample_map
 from haarline.engine.context import Context
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream, block_rng
+from haarline.engine.statevector import Complexes
 from haarline.metrics.haar import haar_bin_log_masses, haar_second_moment
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
@@ -53,7 +54,7 @@ BOOTSTRAP_RESAMPLES = 1000
 """Bootstrap resamples behind the KL interval."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Expressibility:
     """Expressibility of a circuit (the report's ``expressibility`` object)."""
 
@@ -78,9 +79,9 @@ class Expressibility:
         return out
 
 
-def _pair_fidelities(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def _pair_fidelities(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """``|⟨a|b⟩|²`` for a chunk of state pairs ``(rows, 2, 2**n)``."""
-    overlap = np.einsum("ij,ij->i", states[:, 0].conj(), states[:, 1])
+    overlap: Complexes = np.einsum("ij,ij->i", states[:, 0].conj(), states[:, 1])
     return (overlap.real**2 + overlap.imag**2).astype(float)
 
 
@@ -118,7 +119,9 @@ def fidelities(
     )
 
 
-def kl_from_counts(counts: NDArray, log_q: NDArray[np.float64]) -> NDArray[np.float64]:
+def kl_from_counts(
+    counts: NDArray[np.integer[Any]] | NDArray[np.float64], log_q: NDArray[np.float64]
+) -> NDArray[np.float64]:
     """Plug-in KL ``Σ p ln(p/q)`` of histogram counts (last axis = bins) from log masses.
 
     Examples
@@ -131,7 +134,8 @@ def kl_from_counts(counts: NDArray, log_q: NDArray[np.float64]) -> NDArray[np.fl
     p = counts / total
     with np.errstate(divide="ignore", invalid="ignore"):
         terms = np.where(p > 0, p * (np.log(np.where(p > 0, p, 1.0)) - log_q), 0.0)
-    return terms.sum(axis=-1)
+    kl: NDArray[np.float64] = terms.sum(axis=-1)
+    return kl
 
 
 def plugin_bias(qubits: int, bins: int, pairs: int) -> float:

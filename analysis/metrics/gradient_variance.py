@@ -30,7 +30,7 @@ from numpy.typing import NDArray
 __all__ = ["VariancePoint", "gradient_samples", "summarize_gradients"]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class VariancePoint:
     """Gradient statistics at one (qubits, layers) point."""
 

@@ -17,9 +17,18 @@ eigenvalues ±1 (rx … rzz), and the four-term rule of Anselmetti et al. (New J
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 from haarline.circuit.program import Program
-from haarline.engine.statevector import Plan, apply_generator, apply_step, compile_program, run
+from haarline.engine.statevector import (
+    Complexes,
+    Plan,
+    apply_generator,
+    apply_step,
+    compile_program,
+    run,
+)
 from haarline.metrics.observables import Observable
 from numpy.typing import NDArray
 
@@ -42,7 +51,7 @@ def cost_values(
     observable: Observable,
     *,
     dtype: type = np.complex128,
-) -> NDArray[np.float64]:
+) -> NDArray[np.floating[Any]]:
     """C(θ) for every row of ``thetas`` (shape ``(B, P)``), shape ``(B,)``."""
     return observable.expectation(run(_plan(program), thetas, dtype=dtype))
 
@@ -53,7 +62,7 @@ def adjoint_gradients(
     observable: Observable,
     *,
     dtype: type = np.complex128,
-) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+) -> tuple[NDArray[np.floating[Any]], NDArray[np.float64]]:
     """Costs and all partial derivatives by adjoint differentiation.
 
     Parameters
@@ -99,7 +108,8 @@ def adjoint_gradients(
     n = plan.qubits
     phi = run(plan, thetas, dtype=dtype)
     lam = observable.apply(phi)
-    costs = np.einsum("ij,ij->i", phi.conj(), lam).real
+    overlaps: Complexes = np.einsum("ij,ij->i", phi.conj(), lam)
+    costs = overlaps.real
     grads = np.zeros_like(thetas)
     mu = np.empty_like(phi)
     for step in reversed(plan.steps):
@@ -115,9 +125,9 @@ def adjoint_gradients(
 
 def _run_shifted(
     plan: Plan, thetas: NDArray[np.float64], index: int, delta: float, dtype: type
-) -> NDArray:
+) -> Complexes:
     """Run the plan with step ``index``'s angle shifted by ``delta``."""
-    states: NDArray = np.zeros((thetas.shape[0], 1 << plan.qubits), dtype=dtype)
+    states: Complexes = np.zeros((thetas.shape[0], 1 << plan.qubits), dtype=dtype)
     states[:, 0] = 1.0
     for k, step in enumerate(plan.steps):
         angles = thetas[:, step.param] if step.param is not None else None
@@ -150,7 +160,7 @@ def shift_gradients(
     thetas = np.asarray(thetas, dtype=float)
     grads = np.zeros_like(thetas)
 
-    def c(index: int, delta: float) -> NDArray[np.float64]:
+    def c(index: int, delta: float) -> NDArray[np.floating[Any]]:
         return observable.expectation(_run_shifted(plan, thetas, index, delta, dtype))
 
     for k, step in enumerate(plan.steps):

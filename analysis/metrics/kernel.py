@@ -34,7 +34,7 @@ from haarline.engine.batching import sample_map
 from haarline.engine.context import Context
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream
-from haarline.engine.statevector import compile_program, rows_per_chunk, run
+from haarline.engine.statevector import Complexes, compile_program, rows_per_chunk, run
 from haarline.metrics.intervals import (
     log_symmetric_interval,
     mean_interval,
@@ -85,13 +85,13 @@ class KernelPoint:
         return out
 
 
-def _overlaps(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def _overlaps(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """``|⟨a|b⟩|²`` for a chunk of state pairs ``(rows, 2, 2**n)``."""
     overlap = np.einsum("ij,ij->i", states[:, 0].conj(), states[:, 1])
-    return (overlap.real**2 + overlap.imag**2).astype(float)
+    return np.asarray(overlap.real**2 + overlap.imag**2, dtype=np.float64)
 
 
-def one_qubit_states(states: NDArray, qubits: int) -> NDArray[np.complex128]:
+def one_qubit_states(states: Complexes, qubits: int) -> NDArray[np.complex128]:
     """Reduced density matrices of every qubit: ``(rows, n, 2, 2)`` from ``(rows, 2**n)``."""
     rows = states.shape[0]
     out = np.empty((rows, qubits, 2, 2), dtype=complex)
@@ -101,12 +101,12 @@ def one_qubit_states(states: NDArray, qubits: int) -> NDArray[np.complex128]:
     return out
 
 
-def _projected(states: NDArray, qubits: int) -> NDArray[np.float64]:
+def _projected(states: Complexes, qubits: int) -> NDArray[np.float64]:
     """Projected-kernel values for a chunk of state pairs ``(rows, 2, 2**n)``."""
     a = one_qubit_states(states[:, 0], qubits)
     b = one_qubit_states(states[:, 1], qubits)
     distance = np.sum(np.abs(a - b) ** 2, axis=(1, 2, 3))
-    return np.exp(-PROJECTED_GAMMA * distance)
+    return np.asarray(np.exp(-PROJECTED_GAMMA * distance), dtype=np.float64)
 
 
 def _stream(program: Program) -> tuple[int, int, int]:

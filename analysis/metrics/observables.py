@@ -20,7 +20,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from haarline.engine.statevector import apply_pauli
+from haarline.engine.statevector import Complexes, apply_pauli
 from haarline.errors import OptionError, Problem
 from numpy.typing import NDArray
 
@@ -41,7 +41,7 @@ class Observable:
     diagonal: NDArray[np.float64] | None
     terms: tuple[tuple[float, str], ...] = ()
 
-    def apply(self, states: NDArray) -> NDArray:
+    def apply(self, states: Complexes) -> Complexes:
         """Return ``H @ state`` for every row of ``states`` (shape ``(B, 2**n)``)."""
         if self.diagonal is not None:
             return states * self.diagonal.astype(states.real.dtype, copy=False)
@@ -52,11 +52,12 @@ class Observable:
             out += coef * tmp
         return out
 
-    def expectation(self, states: NDArray) -> NDArray[np.float64]:
+    def expectation(self, states: Complexes) -> NDArray[np.floating[Any]]:
         """⟨ψ|H|ψ⟩ of every row, shape ``(B,)``."""
         if self.diagonal is not None:
             return (states.real**2 + states.imag**2) @ self.diagonal
-        return np.einsum("ij,ij->i", states.conj(), self.apply(states)).real
+        values: Complexes = np.einsum("ij,ij->i", states.conj(), self.apply(states))
+        return values.real
 
 
 def _bit_counts(n: int) -> NDArray[np.int64]:

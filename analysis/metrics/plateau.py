@@ -68,7 +68,7 @@ class Wording:
     more: str = "--grad-samples"
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Fit:
     """Weighted least squares of ``ln Var = intercept + slope · x``."""
 
@@ -84,7 +84,9 @@ class Fit:
         return asdict(self)
 
 
-def _wls(x: NDArray, y: NDArray, sigma: NDArray, model: str) -> Fit:
+def _wls(
+    x: NDArray[np.float64], y: NDArray[np.float64], sigma: NDArray[np.float64], model: str
+) -> Fit:
     w = 1.0 / sigma**2
     a = np.stack([np.ones_like(x), x], axis=1)
     cov = np.linalg.inv(a.T @ (a * w[:, None]))

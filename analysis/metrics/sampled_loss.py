@@ -67,7 +67,7 @@ def deep_layers(
     return int(min(limit, max(circuit.layers, want, 1)))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class LossVariance:
     """Sampled variance of the cost ``C(θ)`` over uniform random parameters.
 

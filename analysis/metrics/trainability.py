@@ -34,7 +34,7 @@ DEFAULT_SCAN = (2, 4, 6, 8)
 """Qubit counts of the trainability scan when none are given (pattern-only circuits)."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Trainability:
     """The report's ``trainability`` object."""
 

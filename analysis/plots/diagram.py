@@ -115,7 +115,7 @@ def _draw(ax: Axes, lay: dict[str, Any], n: int, wire: float, body: float) -> No
     small: dict[str, Any] = {"fontsize": 5.5, "color": style.INK_SOFT, "va": "bottom"}
 
     def left(c: int) -> float:  # left edge of column c
-        return LEFT + c * pitch + GAP * sum(1 for b in seps if b <= c)
+        return float(LEFT + c * pitch + GAP * sum(1 for b in seps if b <= c))
 
     def y(q: int) -> float:
         return top - (q + 0.5) * wire

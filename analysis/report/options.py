@@ -235,7 +235,7 @@ _RANGES = {
 }
 
 
-def parse_options(data: dict, *, names: dict[str, str] | None = None) -> AnalysisOptions:
+def parse_options(data: dict[str, Any], *, names: dict[str, str] | None = None) -> AnalysisOptions:
     """Validate options; ``names`` maps field names to what the caller calls them (flags).
 
     Raises

@@ -49,7 +49,7 @@ def _row(report: dict[str, Any], source: str) -> dict[str, Any]:
     }
 
 
-def _key(row: dict[str, Any]) -> tuple:
+def _key(row: dict[str, Any]) -> tuple[Any, ...]:
     inf = math.inf
     return (
         row["barren_plateau"] is True,

@@ -38,7 +38,7 @@ STANDARD_GATES: dict[str, str] = {
 SUPPORTED_LIST = " ".join(STANDARD_GATES)
 
 
-@dataclass
+@dataclass(kw_only=True)
 class Definition:
     """A ``gate`` definition; each body call is bound to its callee when it is defined."""
 
@@ -199,7 +199,7 @@ class GateBook:
                         f"({', '.join(qubits)}) by name",
                     )
             body.append((inner, callee))
-        d = Definition(name, params, qubits, body, statement)
+        d = Definition(name=name, params=params, qubits=qubits, body=body, node=statement)
         ours = STANDARD_GATES.get(name)
         if ours is not None:
             spec = GATES[ours]

@@ -222,7 +222,9 @@ class _SyntaxStop(Exception):
 class _RaiseFirst(ErrorListener):
     """Stop at the first lexer or parser error (and print nothing, unlike ANTLR's default)."""
 
-    def syntaxError(self, recognizer, offendingSymbol, line, column, msg, e):
+    def syntaxError(
+        self, recognizer: Any, offendingSymbol: Any, line: int, column: int, msg: str, e: Any
+    ) -> None:
         if len(msg) > 200:
             msg = msg[:197] + "..."
         raise _SyntaxStop(line, column + 1, f"syntax error: {msg}")
@@ -231,7 +233,7 @@ class _RaiseFirst(ErrorListener):
 class _StopAtFirstError(BailErrorStrategy):
     """Bail out at the first error, reporting it (the base class skips the report here)."""
 
-    def recoverInline(self, recognizer):
+    def recoverInline(self, recognizer: Any) -> None:
         error = InputMismatchException(recognizer)
         self.reportError(recognizer, error)
         self.recover(recognizer, error)
@@ -268,7 +270,8 @@ def _syntax_tree(text: str, source: str | None) -> ast.Program:
                     version.start.column + 1,
                     f"OPENQASM {number} is not supported; expected 3, 3.x or 2.0",
                 )
-        return QASMNodeVisitor().visitProgram(tree)
+        program: ast.Program = QASMNodeVisitor().visitProgram(tree)
+        return program
     except _SyntaxStop as stop:
         raise _problem(f"line {stop.line}, column {stop.column}: {stop.message}", source) from None
     except QASM3ParsingError as exc:  # the tree builder's own checks, 'L3:C0: message'
