@@ -44,7 +44,8 @@ class InputLaw:
 
     ``uniform`` on ``[low, high)`` (default ``[0, 2π)``), ``normal`` with ``mean`` and
     ``std``, or ``data``: rows of ``rows`` (shape ``(N, D)``), each sample taking a row
-    uniformly at random.
+    uniformly at random. A circuit instantiated at another size can have another number of
+    inputs than the data have columns (a scan): it draws from ``fallback`` instead.
     """
 
     kind: Literal["uniform", "normal", "data"] = "uniform"
@@ -53,6 +54,7 @@ class InputLaw:
     mean: float = 0.0
     std: float = 1.0
     rows: NDArray[np.float64] | None = field(default=None, compare=False, repr=False)
+    fallback: InputLaw | None = None
 
     def draw(
         self, seed: int, stream: tuple[int, ...], start: int, count: int, copies: int, width: int
@@ -60,6 +62,10 @@ class InputLaw:
         """Inputs of samples ``start .. start+count-1``, ``copies`` each: ``(count·copies, D)``."""
         if self.kind == "data":
             assert self.rows is not None
+            if width != self.rows.shape[1]:
+                if self.fallback is None:
+                    raise ValueError(f"the data have {self.rows.shape[1]} columns, not {width}")
+                return self.fallback.draw(seed, stream, start, count, copies, width)
             u = draw_angles(seed, stream, start, count, copies) / (2 * np.pi)
             index = np.minimum((u * len(self.rows)).astype(int), len(self.rows) - 1)
             return np.asarray(self.rows[index.reshape(-1), :width], dtype=float)

@@ -26,7 +26,7 @@ __all__ = ["check_inputs", "default_vary", "draws_for", "input_law"]
 def input_law(options: AnalysisOptions, data: Dataset | None = None) -> InputLaw:
     """The law of the inputs: the data set's rows, or the options' uniform or normal law."""
     if data is not None:
-        return InputLaw(kind="data", rows=data.x)
+        return InputLaw(kind="data", rows=data.x, fallback=input_law(options, None))
     if options.inputs_normal is not None:
         mean, std = options.inputs_normal
         return InputLaw(kind="normal", mean=mean, std=std)

@@ -12,7 +12,7 @@ import json
 from typing import Any
 
 import haarline
-from haarline.service.api.schemas import AnalysisCreate, CircuitSource, CompareCreate
+from haarline.service.api.schemas import AnalysisCreate, CircuitSource, CompareCreate, DataInline
 from haarline.service.errors import OverLimit
 from haarline.service.jobs.worker import circuit_of
 from haarline.service.settings import Settings
@@ -44,6 +44,42 @@ def _resolve(source: CircuitSource, path: str) -> tuple[haarline.Circuit, dict[s
     if source.reference:
         stored["reference"] = source.reference
     return circuit, stored
+
+
+def _data(data: DataInline | None, circuit: haarline.Circuit, path: str) -> dict[str, Any] | None:
+    """Check an inline data set against the circuit; return its stored form."""
+    if data is None:
+        return None
+    stored = data.model_dump(mode="json", exclude_none=True)
+    try:
+        dataset = haarline.dataset_from(stored, source="data")
+    except haarline.InputError as exc:
+        exc.body_path = "data"  # type: ignore[attr-defined]
+        exc.source = None
+        raise
+    inputs = haarline.expand(circuit).inputs
+    if dataset.features != inputs:
+        error = haarline.DataError(
+            [
+                haarline.Problem(
+                    "x",
+                    f"rows of {dataset.features} features; {path} encodes {inputs} inputs",
+                )
+            ]
+        )
+        error.body_path = "data"  # type: ignore[attr-defined]
+        raise error
+    return stored
+
+
+def _estimate(
+    circuit: haarline.Circuit, options: haarline.AnalysisOptions, settings: Settings
+) -> haarline.Estimate:
+    try:
+        return haarline.estimate(circuit, options, memory_budget=settings.memory_budget)
+    except haarline.OptionError as exc:
+        exc.body_path = "options"  # type: ignore[attr-defined]
+        raise
 
 
 _PART = {"layers_sweep": "the layer sweep"} | {m: f"the {m} metric" for m in haarline.METRICS}
@@ -84,10 +120,14 @@ def admit_analysis(
     """Validate, estimate and canonicalize an analysis request."""
     circuit, stored = _resolve(body, "(root)")
     options = body.options
-    estimate = haarline.estimate(circuit, options, memory_budget=settings.memory_budget)
+    data = _data(body.data, circuit, "the circuit")
+    estimate = _estimate(circuit, options, settings)
     cap = settings.max_score_cost if route == "score" else settings.max_cost
     _check_limits(estimate, settings, cap, route)
-    return {**stored, "options": options.model_dump(mode="json")}, estimate
+    request = {**stored, "options": options.model_dump(mode="json")}
+    if data is not None:
+        request["data"] = data
+    return request, estimate
 
 
 def admit_compare(
@@ -98,10 +138,14 @@ def admit_compare(
     total_work, memory = 0.0, 0
     for i, source in enumerate(body.circuits):
         circuit, stored = _resolve(source, f"circuits[{i}]")
-        est = haarline.estimate(circuit, body.options, memory_budget=settings.memory_budget)
+        data = _data(body.data, circuit, f"circuits[{i}]")
+        est = _estimate(circuit, body.options, settings)
         total_work += est.work
         memory = max(memory, est.memory)
         circuits.append(stored)
     estimate = haarline.Estimate(work=total_work, memory=memory)
     _check_limits(estimate, settings, settings.max_cost, "job")
-    return {"circuits": circuits, "options": body.options.model_dump(mode="json")}, estimate
+    request = {"circuits": circuits, "options": body.options.model_dump(mode="json")}
+    if data is not None:
+        request["data"] = data
+    return request, estimate

@@ -16,6 +16,8 @@ import json
 import shlex
 from typing import Any
 
+import haarline
+
 __all__ = ["comparison_page", "job_page", "report_page", "reproduce_command"]
 
 _CSS = """
@@ -82,53 +84,18 @@ def _cell(metric: str, key: str, value: str) -> str:
 
 
 def _metrics_table(report: dict[str, Any]) -> str:
+    """The headline table the Markdown summary shows too (one row list, from the registry)."""
     rows = []
-    e = report.get("expressibility")
-    if e:
-        rows.append(
-            '<tr><th scope="row">Expressibility (KL from Haar, nats)</th>'
-            + _cell("expressibility", "kl", f"{e['kl']:.4f}")
-            + _cell("expressibility", "interval", _iv(e["interval"]))
-            + f"<td>0 (an exactly Haar circuit shows {e['bias']:.4f} at {e['pairs']} pairs)</td>"
-            "</tr>"
+    for row in haarline.headline_rows(report):
+        value = _cell(*row.key.split(".", 1), row.value) if row.key else f"<td>{_e(row.value)}</td>"
+        interval = (
+            _cell(*row.interval_key.split(".", 1), row.interval)
+            if row.interval_key
+            else f"<td>{_e(row.interval)}</td>"
         )
         rows.append(
-            '<tr><th scope="row">Fidelity second moment E[F²]</th>'
-            + _cell("expressibility", "second_moment", f"{e['second_moment']:.4g}")
-            + _cell(
-                "expressibility", "second_moment_interval", _iv(e["second_moment_interval"], ".4g")
-            )
-            + f"<td>{e['haar_second_moment']:.4g}</td></tr>"
-        )
-    m = report.get("entanglement")
-    if m:
-        rows.append(
-            '<tr><th scope="row">Meyer-Wallach</th>'
-            + _cell("entanglement", "meyer_wallach", f"{m['meyer_wallach']:.4f}")
-            + _cell("entanglement", "interval", _iv(m["interval"]))
-            + f"<td>{m['haar_meyer_wallach']:.4f}</td></tr>"
-        )
-    t = report.get("trainability")
-    if t and t["points"]:
-        last = t["points"][-1]
-        rows.append(
-            f'<tr><th scope="row">Gradient variance at n = {last["qubits"]}</th>'
-            + _cell("trainability", "variance", f"{last['variance']:.3e}")
-            + _cell("trainability", "interval", _iv(last["interval"], ".3e"))
-            + "<td></td></tr>"
-        )
-        if t.get("decay_per_qubit") is not None:
-            rows.append(
-                '<tr><th scope="row">Variance decay per qubit (nats)</th>'
-                + _cell("trainability", "decay_per_qubit", f"{t['decay_per_qubit']:.3f}")
-                + f"<td>± {t['decay_per_qubit_stderr']:.3f} (standard error)</td><td></td></tr>"
-            )
-    c = report.get("capacity")
-    if c:
-        rows.append(
-            '<tr><th scope="row">QFI rank / parameters</th>'
-            + _cell("capacity", "qfi_rank", f"{c['qfi_rank']} / {c['parameters']}")
-            + f"<td>{c['redundant']} redundant</td><td>ceiling {c['max_rank']}</td></tr>"
+            f'<tr><th scope="row">{_e(row.label)}</th>{value}{interval}'
+            f"<td>{_e(row.reference)}</td></tr>"
         )
     if not rows:
         return "<p>No metrics were computed.</p>"
@@ -151,10 +118,11 @@ def _verdict(report: dict[str, Any]) -> str:
             f"Policy <strong>{_e(pol['name'])}</strong>: "
             f'<span class="status-{_e(level)}" id="policy-status">{_e(level)}</span>.'
         )
-    if t:
-        if t["barren_plateau"] is True and level == "pass":
-            level = "warn"
-        parts.append(f'Trainability: <span id="trainability-reason">{_e(t["reason"])}</span>.')
+    if t and t["barren_plateau"] is True and level == "pass":
+        level = "warn"
+    for title, sentence in haarline.verdicts(report):
+        anchor = f"{title.lower().split()[0]}-reason"
+        parts.append(f'{_e(title)}: <span id="{anchor}">{_e(sentence.rstrip("."))}</span>.')
     if not parts:
         e, m = report.get("expressibility"), report.get("entanglement")
         if e:
@@ -190,6 +158,10 @@ def _figures(images: dict[str, bytes], captions: dict[str, str] | None = None) -
         "entanglement.png",
         "trainability.png",
         "sweep.png",
+        "algebra.png",
+        "kernel.png",
+        "kernel_matrix.png",
+        "spectrum.png",
         "comparison.png",
     ]
     names = sorted(images, key=lambda n: (order.index(n) if n in order else len(order), n))
@@ -210,6 +182,10 @@ _CAPTIONS = {
     "entanglement.png": "Meyer-Wallach distribution over random parameters",
     "trainability.png": "Gradient variance against qubit count, with both fits",
     "sweep.png": "Metrics against layer count",
+    "algebra.png": "Dynamical Lie algebra dimension against qubit count",
+    "kernel.png": "Fidelity-kernel variance against qubit count, with both fits",
+    "kernel_matrix.png": "Kernel matrix of the labelled rows, sorted by label",
+    "spectrum.png": "Mean Fourier weight at every frequency the encoding can reach",
     "comparison.png": "Candidates compared",
 }
 
@@ -249,6 +225,19 @@ def reproduce_command(report: dict[str, Any], source: str = "FILE") -> str:
             args += ["--gradients", o["gradients"]]
     if "capacity" in o["metrics"]:
         args += ["--capacity-points", str(o["capacity_points"])]
+    if "kernel" in o["metrics"]:
+        args += ["--kernel-pairs", str(o["kernel_pairs"]), "--kernel-rows", str(o["kernel_rows"])]
+        if o.get("scan") and "trainability" not in o["metrics"]:
+            args += ["--scan", ",".join(map(str, o["scan"]))]
+    if "spectrum" in o["metrics"]:
+        args += ["--spectrum-samples", str(o["spectrum_samples"])]
+    for option, flag in (("vary", "--vary"), ("inputs_uniform", "--inputs-uniform"),
+                         ("inputs_normal", "--inputs-normal")):  # fmt: skip
+        value = o.get(option)
+        if value is not None:
+            args += [flag, value if isinstance(value, str) else ",".join(f"{v:g}" for v in value)]
+    if report.get("data"):
+        args += ["--data", "DATA.csv"]
     if o.get("layers_sweep"):
         args += ["--layers-sweep", ",".join(map(str, o["layers_sweep"]))]
     return shlex.join(args)

@@ -2,16 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
 from haarline import AnalysisOptions, Circuit
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import BaseModel, ConfigDict, Field, StrictInt, StrictStr, model_validator
 
 __all__ = [
     "AnalysisCreate",
     "CheckCreate",
     "CircuitSource",
     "CompareCreate",
+    "DataInline",
     "EventPublic",
     "JobLinks",
     "JobPublic",
@@ -24,6 +25,9 @@ __all__ = [
 ]
 
 MAX_QASM_CHARS = 1_000_000
+MAX_INLINE_ROWS = 10_000
+"""Most rows of an inline data set (the body size limit applies too)."""
+MAX_INLINE_FEATURES = 1_000
 MAX_NESTING = 32
 """Deepest nesting of arrays and objects a request body may have (a description needs ~8)."""
 
@@ -85,10 +89,36 @@ class CircuitSource(_Body):
         return self
 
 
+Feature = Annotated[float, Field(allow_inf_nan=False)]
+
+
+class DataInline(BaseModel):
+    """A data set for a circuit with inputs: feature rows and, optionally, their labels."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    x: list[Annotated[list[Feature], Field(min_length=1, max_length=MAX_INLINE_FEATURES)]] = Field(
+        min_length=1,
+        max_length=MAX_INLINE_ROWS,
+        description="Rows of features, one per data point, all of the same width D.",
+    )
+    labels: list[StrictInt | StrictStr] | None = Field(
+        default=None,
+        max_length=MAX_INLINE_ROWS,
+        description="One label per row (integers or short strings), for the kernel's "
+        "alignment and geometric difference.",
+    )
+
+
 class AnalysisCreate(CircuitSource):
     """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
 
     options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    data: DataInline | None = Field(
+        default=None,
+        description="For a circuit with inputs: rows to draw the inputs from instead of the "
+        "options' input law.",
+    )
 
 
 class CompareCreate(_Body):
@@ -98,6 +128,11 @@ class CompareCreate(_Body):
 
     circuits: list[CircuitSource] = Field(min_length=2, max_length=20)
     options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    data: DataInline | None = Field(
+        default=None,
+        description="For circuits with inputs: rows to draw the inputs from (every circuit "
+        "must encode as many inputs as the rows have features).",
+    )
 
 
 class CheckCreate(CircuitSource):

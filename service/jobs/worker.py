@@ -93,18 +93,19 @@ def run_request(
     """Run one stored request; return (report or comparison, Markdown, PNGs)."""
     options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
     context = haarline.Context(memory_budget=memory_budget, progress=progress)
+    data = haarline.dataset_from(request["data"]) if request.get("data") else None
     if kind == "compare":
         reports, sources = [], []
         for i, spec in enumerate(request["circuits"]):
             circuit = circuit_of(spec)
-            reports.append(haarline.analyze(circuit, options, context=context))
+            reports.append(haarline.analyze(circuit, options, data=data, context=context))
             sources.append(spec.get("reference") or f"circuits[{i}]")
         result = haarline.compare_reports(reports, sources)
         images = haarline.comparison_files(reports)
         links = [f"plots/{name}" for name in sorted(images)]
         return result, haarline.compare_markdown(result, images=links), images
     circuit = circuit_of(request)
-    report = haarline.analyze(circuit, options, context=context)
+    report = haarline.analyze(circuit, options, data=data, context=context)
     images = haarline.plot_files(report, haarline.expand(circuit))
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]

@@ -172,11 +172,13 @@ def _cautions(k: Section, report: dict[str, Any]) -> list[str]:
     out = []
     if k["concentrated"] is None:
         out.append(f"Kernel: {k['reason']}.")
-    if k["concentrated"] and k["variance"] > 0:
+    last = k["points"][-1] if k["points"] else None
+    if k["concentrated"] and last is not None and last["variance"] > 0:
         out.append(
-            f"The kernel values concentrate: they differ by about {np.sqrt(k['variance']):.2g} "
-            f"at {k['qubits']} qubits, so a shot-based estimate needs of the order of "
-            f"{1 / k['variance']:.2g} shots per entry to tell two inputs apart."
+            f"The kernel values concentrate: at {last['qubits']} qubits they differ by about "
+            f"{np.sqrt(last['variance']):.2g}, so a shot-based estimate needs of the order of "
+            f"{1 / last['variance']:.2g} shots per entry to tell two inputs apart, and the "
+            f"variance falls by x{np.exp(-k['decay_per_qubit']):.2g} per added qubit."
         )
     if k["pairs"] < 1000:
         out.append(f"Only {k['pairs']} input pairs: the kernel variance interval is wide.")

@@ -47,7 +47,23 @@ def _stages(circuit: Circuit, options: AnalysisOptions) -> int:
 
 
 def _cautions(section: Section, report: dict[str, Any]) -> list[str]:
-    return [f"Spectrum of x_{f['input']}: {f['note']}." for f in section["features"] if f["note"]]
+    notes: dict[str, list[int]] = {}
+    for f in section["features"]:
+        if f["note"]:
+            notes.setdefault(
+                f["note"].split(": ", 1)[-1] if "enters" not in f["note"] else "product", []
+            ).append(f["input"])
+    out = []
+    for note, features in notes.items():
+        names = ", ".join(f"x_{k}" for k in features)
+        if note == "product":
+            out.append(
+                f"Spectrum: {names} enter a product encoding (pi - x_a)(pi - x_b), which is "
+                "not linear in the features, so they have no spectrum of eigenvalue differences."
+            )
+        else:
+            out.append(f"Spectrum of {names}: {note}.")
+    return out
 
 
 def _listing(frequencies: list[float], limit: int = 12) -> str:
@@ -62,7 +78,7 @@ def _text(section: Section, report: dict[str, Any]) -> list[str]:
     ]
     for f in section["features"]:
         if f["frequencies"] is None:
-            lines.append(f"  x_{f['input']}: {f['note']}")
+            lines.append(f"  x_{f['input']}: no spectrum (see the cautions)")
             continue
         lines.append(
             f"  x_{f['input']}: {f['count']} frequencies up to {f['max_frequency']:g} from "

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from haarline.circuit.program import expand
+from haarline.circuit.program import expand, inputs_at
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.trainability import default_scan, layers_at, trainability, uses_only_patterns
 from haarline.report.inputs import draws_for
@@ -51,6 +51,17 @@ def _compute(request: Request) -> Section:
         draws=draws_for(request, "both" if request.program.encodings else "parameters"),
     )
     section = result.to_dict()
+    data = request.data
+    if data is not None:
+        other = [n for n in _scan(circuit, options) if inputs_at(circuit, n) != data.features]
+        if other:
+            law = "normal" if options.inputs_normal else "uniform"
+            note = (
+                (note + " " if note else "")
+                + f"At n = {', '.join(map(str, other))} the circuit has another number of "
+                f"inputs than the data's {data.features} columns: those points drew their "
+                f"inputs from the {law} law."
+            )
     section["scan_note"] = note
     return section
 
