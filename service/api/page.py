@@ -79,17 +79,17 @@ def _iv(pair: list[float] | None, spec: str = ".4f") -> str:
     return f"{format(pair[0], spec)} .. {format(pair[1], spec)}"
 
 
-def _cell(metric: str, key: str, value: str) -> str:
-    return f'<td data-metric="{metric}.{key}">{_e(value)}</td>'
+def _cell(path: str, value: str) -> str:
+    return f'<td data-metric="{path}">{_e(value)}</td>'
 
 
 def _metrics_table(report: dict[str, Any]) -> str:
     """The headline table the Markdown summary shows too (one row list, from the registry)."""
     rows = []
     for row in haarline.headline_rows(report):
-        value = _cell(*row.key.split(".", 1), row.value) if row.key else f"<td>{_e(row.value)}</td>"
+        value = _cell(row.key, row.value) if row.key else f"<td>{_e(row.value)}</td>"
         interval = (
-            _cell(*row.interval_key.split(".", 1), row.interval)
+            _cell(row.interval_key, row.interval)
             if row.interval_key
             else f"<td>{_e(row.interval)}</td>"
         )
