@@ -3,9 +3,10 @@
 Ordering rule (lexicographic; also in the README):
 
 1. circuits whose trainability verdict is a barren plateau (``true``) come last;
-2. then lower expressibility KL first (more expressive);
-3. then higher Meyer-Wallach first;
-4. then fewer parameters first; then the name.
+2. then circuits whose kernel concentrates (``true``) after those whose kernel does not;
+3. then lower expressibility KL first (more expressive);
+4. then higher Meyer-Wallach first;
+5. then fewer parameters first; then the name.
 
 Missing metrics sort after present ones at their step. Neighbours whose KL intervals
 overlap are flagged ``tied_with_previous``: at this sample size the data do not order them.
@@ -20,8 +21,8 @@ __all__ = ["COMPARE_FORMAT", "RANKING_RULE", "compare_markdown", "compare_report
 
 COMPARE_FORMAT = 1
 RANKING_RULE = (
-    "barren plateau last; then lower KL; then higher Meyer-Wallach; then fewer parameters; "
-    "then name"
+    "barren plateau last; then a concentrating kernel later; then lower KL; then higher "
+    "Meyer-Wallach; then fewer parameters; then name"
 )
 
 
@@ -30,6 +31,7 @@ def _row(report: dict[str, Any], source: str) -> dict[str, Any]:
     m = report.get("entanglement") or {}
     t = report.get("trainability") or {}
     c = report.get("capacity") or {}
+    k = report.get("kernel") or {}
     pol = report.get("policy") or {}
     return {
         "name": report["circuit"]["name"],
@@ -45,6 +47,8 @@ def _row(report: dict[str, Any], source: str) -> dict[str, Any]:
         "decay_per_qubit": t.get("decay_per_qubit"),
         "qfi_rank": c.get("qfi_rank"),
         "redundant": c.get("redundant"),
+        "kernel_variance": k.get("variance"),
+        "concentrated": k.get("concentrated"),
         "policy": pol.get("status"),
     }
 
@@ -53,6 +57,7 @@ def _key(row: dict[str, Any]) -> tuple[Any, ...]:
     inf = math.inf
     return (
         row["barren_plateau"] is True,
+        row["concentrated"] is True,
         row["kl"] if row["kl"] is not None else inf,
         -row["meyer_wallach"] if row["meyer_wallach"] is not None else inf,
         row["parameters"],
@@ -103,14 +108,17 @@ def _fmt(value: Any, spec: str) -> str:
 
 def compare_markdown(result: dict[str, Any], images: list[str] | None = None) -> str:
     """A Markdown table of the ranking, with the rule and the ties spelled out."""
+    kernels = any(r["kernel_variance"] is not None for r in result["ranking"])
     out = [
         "## haarline comparison",
         "",
         f"Ranking rule: {result['ranking_rule']}.",
         "",
         "| rank | circuit | qubits | params | KL (95% interval) | Meyer-Wallach (95% interval) |"
-        " barren plateau | QFI rank | policy |",
-        "| --- | --- | --- | --- | --- | --- | --- | --- | --- |",
+        " barren plateau | QFI rank | policy |"
+        + (" kernel variance | concentrated |" if kernels else ""),
+        "| --- | --- | --- | --- | --- | --- | --- | --- | --- |"
+        + (" --- | --- |" if kernels else ""),
     ]
     for r in result["ranking"]:
         kl = (
@@ -130,10 +138,14 @@ def compare_markdown(result: dict[str, Any], images: list[str] | None = None) ->
         if r["barren_plateau"] is None and r["decay_per_qubit"] is not None:
             bp = "undecided"
         rank = f"{r['rank']}" + (" (tie)" if r["tied_with_previous"] else "")
-        out.append(
+        line = (
             f"| {rank} | {r['name']} | {r['qubits']} | {r['parameters']} | {kl} | {mw} | {bp} | "
             f"{_fmt(r['qfi_rank'], 'd')} | {r['policy'] or '-'} |"
         )
+        if kernels:
+            concentrated = {True: "yes", False: "no", None: "-"}[r["concentrated"]]
+            line += f" {_fmt(r['kernel_variance'], '.3e')} | {concentrated} |"
+        out.append(line)
     out.append("")
     if any(r["tied_with_previous"] for r in result["ranking"]):
         out += [
