@@ -3,6 +3,7 @@
 import json
 
 from haarline import compare_reports
+from haarline.report.ranking import compare_markdown, comparison_table
 from haarline.service.cli import main as cli
 
 FAST = ["--pairs", "400", "--samples", "100"]
@@ -11,7 +12,9 @@ FAST = ["--pairs", "400", "--samples", "100"]
 def row(name, kl=None, interval=None, mw=None, bp=None, params=4):
     return {
         "circuit": {"name": name, "qubits": 2, "layers": 1, "parameters": params},
-        "expressibility": None if kl is None else {"kl": kl, "interval": interval},
+        "expressibility": None
+        if kl is None
+        else {"kl": kl + 0.005, "kl_corrected": kl, "interval": interval},
         "entanglement": None if mw is None else {"meyer_wallach": mw, "interval": [mw, mw]},
         "trainability": None if bp is None else {"barren_plateau": bp, "decay_per_qubit": 1.0},
     }
@@ -27,7 +30,7 @@ def test_ranking_rule_order_and_ties():
     ]
     result = compare_reports(reports, [r["circuit"]["name"] for r in reports])
     names = [r["name"] for r in result["ranking"]]
-    # barren plateau last; otherwise lower KL first; missing KL after present ones
+    # barren plateau last; otherwise lower bias-corrected KL first; missing KL after present
     assert names == ["best", "close", "wide", "no-kl", "plateau"]
     ties = {r["name"]: r["tied_with_previous"] for r in result["ranking"]}
     assert ties == {"best": False, "close": True, "wide": False, "no-kl": False, "plateau": False}
@@ -105,3 +108,15 @@ def test_compare_out_without_plottable_metrics_writes_no_plot(capsys, tmp_path):
         "comparison.json",
         "comparison.md",
     ]
+
+
+def test_mixed_qubit_counts_get_a_caution_and_every_circuit_keeps_its_own():
+    a, b = row("four", kl=0.1, interval=[0.05, 0.15]), row("five", kl=0.2, interval=[0.1, 0.3])
+    b["circuit"]["qubits"] = 5
+    a["cautions"] = ["only 300 pairs"]
+    result = compare_reports([a, b], ["four.json", "five.json"])
+    text = compare_markdown(result)
+    assert "different qubit counts (2, 5)" in text
+    assert "four: only 300 pairs" in text
+    headers, rows = comparison_table(result)
+    assert "Haar MW" in headers and all(len(r) == len(headers) for r in rows)

@@ -143,7 +143,7 @@ def test_metrics_stay_in_their_ranges(description, seed):
     program = expand(haarline.parse_circuit(description))
     n, p = program.qubits, program.parameters
     expr = haarline.expressibility(program, pairs=40, bins=12, seed=seed)
-    assert expr.kl >= 0 and expr.corrected >= 0 and expr.bias >= 0
+    assert expr.kl >= 0 and expr.kl_corrected >= 0 and expr.bias >= 0
     assert 0 <= expr.interval[0] <= expr.interval[1]
     assert abs(sum(expr.histogram) - 1) < 1e-12 and abs(sum(expr.haar) - 1) < 1e-9
     assert 0 <= expr.second_moment <= 1 and 0 <= expr.mean_fidelity <= 1

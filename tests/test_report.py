@@ -246,6 +246,8 @@ _MODULE_ONLY = {
     "count_text",
     "interval_text",
     "Section",
+    "comparison_cautions",
+    "comparison_table",
     "inputs_at",
     "ScanPoint",
     "Wording",

@@ -13,7 +13,7 @@ Besides the plug-in value this module reports what a reader needs to judge it:
   circuit's true binned distribution (multinomial resampling of the histogram;
   Efron & Tibshirani, *An Introduction to the Bootstrap*, 1993, §13.4), clipped at 0.
   Because it corrects for the plug-in bias it can lie below ``kl``;
-* ``corrected``: the bootstrap bias-corrected estimate ``2 kl - mean(bootstrap KL)``,
+* ``kl_corrected``: the bootstrap bias-corrected estimate ``2 kl - mean(bootstrap KL)``,
   clipped at 0, the centre of that interval;
 * ``bias``: the exact expected plug-in KL of a circuit whose fidelities are exactly
   Haar-distributed, for the same ``M`` and ``K`` (by linearity, a sum over bins of
@@ -60,7 +60,7 @@ class Expressibility:
 
     kl: float
     interval: tuple[float, float]
-    corrected: float
+    kl_corrected: float
     bias: float
     pairs: int
     bins: int
@@ -216,7 +216,7 @@ def divergence_from_haar(
     return Expressibility(
         kl=kl,
         interval=interval,
-        corrected=max(0.0, 2 * kl - float(boot_kl.mean())),
+        kl_corrected=max(0.0, 2 * kl - float(boot_kl.mean())),
         bias=plugin_bias(qubits, bins, m),
         pairs=m,
         bins=bins,

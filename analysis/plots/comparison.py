@@ -81,7 +81,8 @@ def comparison_series(reports: Sequence[Report]) -> list[dict[str, Any]]:
                 "label": str(data.need(report, "circuit", "name")),
                 "qubits": int(data.need(report, "circuit", "qubits")),
                 "layers": int(data.need(report, "circuit", "layers")),
-                "kl": float(expr["kl"]) if has_expr else None,
+                # the bias-corrected KL: the value that lies inside its interval
+                "kl": float(expr["kl_corrected"]) if has_expr else None,
                 "kl_interval": (
                     data.interval(report, "expressibility", "interval") if has_expr else None
                 ),

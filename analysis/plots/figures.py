@@ -127,6 +127,7 @@ def fidelity_series(report: Report) -> dict[str, Any]:
         "circuit": circuit,
         "haar": haar,
         "kl": float(data.need(report, "expressibility", "kl")),
+        "kl_corrected": float(data.need(report, "expressibility", "kl_corrected")),
         "interval": data.interval(report, "expressibility", "interval"),
         "bias": float(data.need(report, "expressibility", "bias")),
         "pairs": pairs,
@@ -164,10 +165,10 @@ def fidelity_histogram_png(report: Report) -> bytes:
     """
     s = fidelity_series(report)
     subtitle = (
-        f"KL from Haar {style.fmt(s['kl'])} nats (95% interval "
-        f"{style.span_text(s['interval'])}); an exactly Haar-random circuit would show "
-        f"{style.fmt(s['bias'], 2)} · {s['pairs']} parameter pairs, {s['bins']} bins, "
-        f"{style.plural(s['qubits'], 'qubit')}"
+        f"KL from Haar {style.fmt(s['kl_corrected'])} nats, bias-corrected (95% interval "
+        f"{style.span_text(s['interval'])}); plug-in KL {style.fmt(s['kl'])}, where an exactly "
+        f"Haar-random circuit would show {style.fmt(s['bias'], 2)} · {s['pairs']} parameter "
+        f"pairs, {s['bins']} bins, {style.plural(s['qubits'], 'qubit')}"
     )
     footer = []
     if s["second_moment"] is not None and s["haar_second_moment"] is not None:

@@ -245,9 +245,7 @@ def sweep_series(report: Report) -> dict[str, Any]:
             "high": np.array([float(r[span][1]) for r in rows]),
         }
 
-    kl = metric("kl", "kl_interval")
-    if kl is not None:
-        kl["bias"] = np.array([float(r.get("bias") or 0.0) for r in rows])
+    kl = metric("kl_corrected", "kl_interval")
     mw = metric("meyer_wallach", "meyer_wallach_interval")
     if mw is not None:
         ent = report.get("entanglement") or {}
@@ -273,9 +271,9 @@ def sweep_series(report: Report) -> dict[str, Any]:
 def sweep_png(report: Report) -> bytes:
     """Metrics against layer count from the ``sweep`` rows, as PNG bytes.
 
-    KL from Haar on a log axis with its intervals and the Haar-exact plug-in bias (the KL
-    an exactly Haar-random circuit shows at this sample size); the Meyer-Wallach mean with
-    its intervals and the Haar-random value in a second panel.
+    The bias-corrected KL from Haar on a log axis with its intervals (0 for a circuit the
+    data cannot tell from Haar); the Meyer-Wallach mean with its intervals and the
+    Haar-random value in a second panel.
 
     Parameters
     ----------
@@ -341,22 +339,29 @@ def sweep_png(report: Report) -> bytes:
 
 
 def _kl_panel(ax: Axes, x: Floats, m: Mapping[str, Floats]) -> None:
-    """KL with intervals on a log axis; a lower end at 0 runs to the bottom of the axis."""
-    value, low, high, bias = m["value"], m["low"], m["high"], m["bias"]
-    positive = np.concatenate([a[a > 0] for a in (value, low, high, bias)])
+    """Bias-corrected KL with intervals on a log axis.
+
+    A corrected KL of 0 (the data cannot tell the circuit from Haar) is drawn as a
+    downward mark on the floor of the axis; a lower end at 0 runs to the floor.
+    """
+    value, low, high = m["value"], m["low"], m["high"]
+    positive = np.concatenate([a[a > 0] for a in (value, low, high)])
     floor = float(positive.min()) / 3.0 if positive.size else 1e-6
     ok = value > 0
     err = np.clip(np.vstack([value - np.maximum(low, floor), high - value]), 0.0, None)
     ax.set_yscale("log")
-    ax.errorbar(x[ok], value[ok], yerr=err[:, ok], color=BLUE, marker="o", label="KL from Haar")
-    if np.any(bias > 0):
-        ax.plot(
-            x,
-            np.maximum(bias, floor),
-            color=style.INK_SOFT,
-            linewidth=1.0,
-            linestyle=(0, (1.5, 1.5)),
-            label="KL of a Haar-random circuit (plug-in bias)",
+    ax.errorbar(
+        x[ok], value[ok], yerr=err[:, ok], color=BLUE, marker="o", label="KL from Haar (corrected)"
+    )
+    if np.any(~ok):
+        ax.errorbar(
+            x[~ok],
+            np.full(int(np.sum(~ok)), floor),
+            yerr=np.vstack([np.zeros(int(np.sum(~ok))), np.maximum(high[~ok] - floor, 0.0)]),
+            color=BLUE,
+            marker="v",
+            linestyle="none",
+            label="corrected KL 0: not told apart from Haar",
         )
     ax.set_ylim(bottom=floor)
     ax.set_ylabel("KL (nats, log)")

@@ -4,7 +4,7 @@ A policy file (JSON or YAML)::
 
     {"name": "review rules",
      "rules": [
-       {"metric": "expressibility.kl", "warn_above": 0.02, "fail_above": 0.05},
+       {"metric": "expressibility.kl_corrected", "warn_above": 0.02, "fail_above": 0.05},
        {"metric": "entanglement.meyer_wallach", "fail_below": 0.5},
        {"metric": "trainability.barren_plateau", "expect": false},
        {"metric": "capacity.redundant", "fail_above": 2},
@@ -216,6 +216,7 @@ def _interval_of(parent: Any, path: str) -> tuple[float, float] | None:
     name = m.group(1) if m else name
     if not isinstance(parent, dict):
         return None
+    # kl_corrected is the centre of the expressibility interval (a plug-in kl is not)
     for key in (f"{name}_interval", "interval"):
         iv = parent.get(key)
         if isinstance(iv, list) and len(iv) == 2:

@@ -69,7 +69,7 @@ def to_text(report: dict[str, Any]) -> str:
         for entry in sweep:
             line = f"  {entry['layers']:>6} {entry['parameters']:>6} {entry['depth']:>5}"
             if has_kl:
-                line += f" {entry['kl']:>8.4f} {_iv(entry['kl_interval']):>18}"
+                line += f" {entry['kl_corrected']:>8.4f} {_iv(entry['kl_interval']):>18}"
             if has_mw:
                 line += (
                     f" {entry['meyer_wallach']:>7.4f} {_iv(entry['meyer_wallach_interval'], 3):>16}"

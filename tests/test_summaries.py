@@ -1,0 +1,83 @@
+"""What a reader sees: every value shown beside an interval lies inside it, in every format.
+
+A regression of trust (issue 18): the plug-in KL used to sit beside the interval of the
+bias-corrected KL, outside it. The checks read the numbers back from the rendered text,
+Markdown and HTML, as a reader would.
+"""
+
+from __future__ import annotations
+
+import html
+import re
+
+import haarline
+import pytest
+from haarline.service.api.page import report_page
+
+NUMBER = r"-?\d+(?:\.\d+)?(?:e[+-]?\d+)?"
+TEXT_LINE = re.compile(rf"({NUMBER})\s+95% interval ({NUMBER}) \.\. ({NUMBER})")
+TABLE_CELL = re.compile(rf"^({NUMBER})$")
+INTERVAL_CELL = re.compile(rf"^({NUMBER}) \.\. ({NUMBER})$")
+
+
+def _check_pair(value: str, interval: str, where: str) -> int:
+    m, iv = TABLE_CELL.match(value.strip()), INTERVAL_CELL.match(interval.strip())
+    if not (m and iv):
+        return 0
+    v, lo, hi = float(m.group(1)), float(iv.group(1)), float(iv.group(2))
+    assert lo <= v <= hi, f"{where}: {value} outside {interval}"
+    return 1
+
+
+def shown_pairs(report: dict) -> int:
+    """Check text, Markdown and HTML; return how many (value, interval) pairs were seen."""
+    seen = 0
+    for line in haarline.to_text(report).splitlines():
+        for m in TEXT_LINE.finditer(line):
+            v, lo, hi = (float(g) for g in m.groups())
+            assert lo <= v <= hi, f"text: {line.strip()}"
+            seen += 1
+    for line in haarline.to_markdown(report).splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if line.startswith("|") and len(cells) == 4:
+            seen += _check_pair(cells[1], cells[2], f"markdown: {line}")
+    page = report_page(report, {})
+    for row in re.findall(r"<tr><th scope=\"row\">.*?</tr>", page):
+        cells = [html.unescape(c) for c in re.findall(r"<td[^>]*>(.*?)</td>", row)]
+        if len(cells) >= 2:
+            seen += _check_pair(cells[0], cells[1], f"html: {row}")
+    return seen
+
+
+@pytest.mark.parametrize("name", haarline.reference_names())
+def test_every_reference_shows_each_value_inside_its_interval(name):
+    report = haarline.analyze(haarline.load_reference(name))
+    # expressibility, E[F^2] and Meyer-Wallach, each in three formats
+    assert shown_pairs(report) >= 9
+
+
+def test_a_model_with_every_metric_shows_each_value_inside_its_interval():
+    circuit = haarline.parse_circuit(
+        {
+            "name": "summary-check",
+            "qubits": 3,
+            "inputs": 3,
+            "layers": 2,
+            "layer": [
+                {"gate": "rx", "input": "qubit"},
+                {"gate": "ry"},
+                {"gate": "cz", "on": "ring"},
+            ],
+        }
+    )
+    options = haarline.AnalysisOptions(
+        metrics=list(haarline.REGISTRY),
+        pairs=600,
+        samples=200,
+        grad_samples=40,
+        scan=[2, 3, 4, 5, 6],
+        kernel_pairs=400,
+        spectrum_samples=2,
+        layers_sweep=[1, 2],
+    )
+    assert shown_pairs(haarline.analyze(circuit, options)) >= 15
