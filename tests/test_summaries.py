@@ -81,3 +81,43 @@ def test_a_model_with_every_metric_shows_each_value_inside_its_interval():
         layers_sweep=[1, 2],
     )
     assert shown_pairs(haarline.analyze(circuit, options)) >= 15
+
+
+def test_lie_and_scan_disagreeing_get_one_verdict_in_every_format():
+    # zz-x-ring: the algebra grows polynomially, but neither the observable nor the input
+    # state lies in it, so the sampled scan's barren-plateau verdict stands
+    report = haarline.analyze(
+        haarline.load_reference("zz-x-ring"),
+        haarline.AnalysisOptions(metrics=["lie", "trainability"], scan=[2, 4, 6, 8], seed=2),
+    )
+    text, markdown = haarline.to_text(report), haarline.to_markdown(report)
+    page = report_page(report, {})
+    for rendered in (text, markdown, html.unescape(page)):
+        assert "The sampled scan stands" in rendered
+        assert "does not apply here" in rendered
+
+
+@pytest.mark.parametrize(
+    ("name", "level", "reason"),
+    [
+        ("rx-product", "warn", "no entanglement"),
+        ("rx-product", "warn", "far from Haar"),
+        ("sim2019-11", "pass", None),
+    ],
+)
+def test_the_banner_colour_follows_the_stated_rule(name, level, reason):
+    from haarline.report.verdict import banner
+
+    flag = banner(haarline.analyze(haarline.load_reference(name)))
+    assert flag.level == level
+    if reason:
+        assert any(reason in r for r in flag.reasons)
+
+
+def test_a_failed_policy_makes_the_banner_red():
+    from haarline.report.verdict import banner
+
+    report = haarline.analyze(haarline.load_reference("ry-cz-ring"))
+    report["policy"] = {"name": "strict", "status": "fail", "rules": []}
+    assert banner(report).level == "fail"
+    assert 'class="verdict fail"' in report_page(report, {})

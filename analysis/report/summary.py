@@ -7,6 +7,7 @@ from typing import Any
 from haarline.report.metric_row import TableRow
 from haarline.report.registry import REGISTRY
 from haarline.report.text import count_text, interval_text
+from haarline.report.verdict import joint_verdict
 
 __all__ = ["headline_rows", "to_markdown", "to_text", "verdicts"]
 
@@ -51,6 +52,9 @@ def verdicts(report: dict[str, Any]) -> list[tuple[str, str]]:
 def to_text(report: dict[str, Any]) -> str:
     """Plain-text summary of a report (what ``--format text`` prints)."""
     lines = [f"haarline {report['haarline_version']}  {_headline(report)}", ""]
+    joint = joint_verdict(report)
+    if joint:
+        lines += [f"Verdict: {joint}", ""]
     for name, row in REGISTRY.items():
         section = report.get(name)
         if section:
@@ -112,6 +116,9 @@ def to_markdown(
         out += ["| metric | value | 95% interval | Haar |", "| --- | --- | --- | --- |", *rows, ""]
     for title, sentence in verdicts(report):
         out += [f"**{title} verdict:** {sentence}", ""]
+    joint = joint_verdict(report)
+    if joint:
+        out += [f"**Verdict:** {joint}", ""]
     pol = report.get("policy")
     if pol:
         out += [

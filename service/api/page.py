@@ -18,6 +18,7 @@ from typing import Any
 
 import haarline
 from haarline.report.ranking import TIE_NOTE, comparison_cautions, comparison_table
+from haarline.report.verdict import banner, joint_verdict
 
 __all__ = ["comparison_page", "job_page", "report_page", "reproduce_command"]
 
@@ -109,21 +110,22 @@ def _metrics_table(report: dict[str, Any]) -> str:
 
 
 def _verdict(report: dict[str, Any]) -> str:
+    """The banner: its colour by the rule of :func:`haarline.report.verdict.banner`."""
     pol = report.get("policy")
-    t = report.get("trainability")
+    flag = banner(report)
     parts = []
-    level = "pass"
     if pol:
-        level = pol["status"]
+        status = _e(pol["status"])
         parts.append(
             f"Policy <strong>{_e(pol['name'])}</strong>: "
-            f'<span class="status-{_e(level)}" id="policy-status">{_e(level)}</span>.'
+            f'<span class="status-{status}" id="policy-status">{status}</span>.'
         )
-    if t and t["barren_plateau"] is True and level == "pass":
-        level = "warn"
     for title, sentence in haarline.verdicts(report):
         anchor = f"{title.lower().split()[0]}-reason"
         parts.append(f'{_e(title)}: <span id="{anchor}">{_e(sentence.rstrip("."))}</span>.')
+    joint = joint_verdict(report)
+    if joint:
+        parts.append(f'<span id="joint-verdict">{_e(joint)}</span>')
     if not parts:
         e, m = report.get("expressibility"), report.get("entanglement")
         if e:
@@ -135,7 +137,9 @@ def _verdict(report: dict[str, Any]) -> str:
             parts.append(
                 f"Meyer-Wallach {m['meyer_wallach']:.3f} (Haar {m['haar_meyer_wallach']:.3f})."
             )
-    return f'<div class="verdict {level}" id="verdict">' + " ".join(parts) + "</div>"
+    if flag.reasons:
+        parts.append(f"Flagged: {_e('; '.join(flag.reasons))}.")
+    return f'<div class="verdict {flag.level}" id="verdict">' + " ".join(parts) + "</div>"
 
 
 def _policy_table(report: dict[str, Any]) -> str:
