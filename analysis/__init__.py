@@ -127,6 +127,7 @@ from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_po
 from haarline.report.ranking import compare_markdown, compare_reports
 from haarline.report.registry import REGISTRY, progress_stages, requested
 from haarline.report.summary import headline_rows, to_markdown, to_text, verdicts
+from haarline.report.verdict import Banner, banner, joint_verdict
 from haarline.report.workload import Estimate, estimate
 
 __all__ = [
@@ -140,6 +141,7 @@ __all__ = [
     "Algebra",
     "AlgebraPoint",
     "AnalysisOptions",
+    "Banner",
     "Capacity",
     "Circuit",
     "CircuitError",
@@ -190,6 +192,7 @@ __all__ = [
     "alignment",
     "analyze",
     "anticommutes",
+    "banner",
     "bracket",
     "capacity",
     "circuit_diagram_png",
@@ -231,6 +234,7 @@ __all__ = [
     "headline_rows",
     "independent_count",
     "is_clifford",
+    "joint_verdict",
     "kernel_matrix",
     "kernel_matrix_png",
     "kernel_matrix_series",
