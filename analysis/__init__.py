@@ -125,7 +125,7 @@ from haarline.report.metric_row import MetricRow, Request, TableRow, Work
 from haarline.report.options import METRICS, AnalysisOptions, parse_options
 from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from haarline.report.ranking import compare_markdown, compare_reports
-from haarline.report.registry import REGISTRY, progress_stages, requested
+from haarline.report.registry import REGISTRY, StageFraction, progress_stages, requested
 from haarline.report.summary import headline_rows, to_markdown, to_text, verdicts
 from haarline.report.verdict import Banner, banner, joint_verdict
 from haarline.report.workload import Estimate, estimate
@@ -178,6 +178,7 @@ __all__ = [
     "Progress",
     "Request",
     "Step",
+    "StageFraction",
     "Stream",
     "TableRow",
     "Trainability",

@@ -15,13 +15,12 @@ import typing
 import haarline
 import pytest
 from fastapi.testclient import TestClient
-from haarline import REGISTRY, AnalysisOptions, Context, analyze, parse_circuit
+from haarline import REGISTRY, AnalysisOptions, Context, StageFraction, analyze, parse_circuit
 from haarline.plots.figures import DRAWERS
 from haarline.report.options import Metric
 from haarline.report.policy import _resolve
 from haarline.service.api.app import create_app
 from haarline.service.cli import main as cli
-from haarline.service.jobs.worker import StageFraction
 from haarline.service.settings import Settings
 
 # a small re-uploading model: every metric of the registry applies to it

@@ -37,7 +37,7 @@ if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
     from haarline.report.options import AnalysisOptions
 
-__all__ = ["REGISTRY", "progress_stages", "requested"]
+__all__ = ["REGISTRY", "StageFraction", "progress_stages", "requested"]
 
 _ROWS = (
     expressibility.ROW,
@@ -70,3 +70,24 @@ def progress_stages(circuit: Circuit, options: AnalysisOptions) -> int:
     total = sum(row.stages(circuit, options) for row in rows)
     swept = sum(1 for row in rows if row.sweep is not None)
     return max(1, total + swept * len(options.layers_sweep or []))
+
+
+class StageFraction:
+    """The overall fraction of a job from the ``(stage, done, count)`` reports it makes.
+
+    ``total`` is the registry's upper bound on the stages
+    (:func:`progress_stages`); each change of stage name completes one, so the
+    fraction only reaches 1 when the last possible stage is done (a stage that is skipped
+    makes the fraction jump at the end, never run ahead of the work).
+    """
+
+    def __init__(self, total: int):
+        self.total = max(1, total)
+        self.seen: list[str] = []
+
+    def __call__(self, stage: str, done: int, count: int) -> float:
+        """Record a report; return the overall fraction done."""
+        if not self.seen or self.seen[-1] != stage:
+            self.seen.append(stage)
+        part = done / count if count else 1.0
+        return min(1.0, (len(self.seen) - 1 + part) / self.total)

@@ -92,17 +92,45 @@ def _context(args: argparse.Namespace, progress: haarline.Progress) -> haarline.
         ) from None
 
 
+ANNOUNCE_SECONDS = 5.0
+"""Work estimated above this many seconds is announced on stderr before it starts."""
+
+
+def _announce(estimate: haarline.Estimate, seconds: float, args: argparse.Namespace) -> None:
+    """Refuse work over ``--max-seconds``; say how long large work will take."""
+    top = estimate.largest()
+    share = (
+        f"; {top} {estimate.parts[top] / estimate.work:.0%} of it" if top and estimate.work else ""
+    )
+    what = f"about {seconds:.0f} s of work ({estimate.work:.2g} amplitude-gate updates{share})"
+    if args.max_seconds is not None and seconds > args.max_seconds:
+        raise UsageError(
+            [
+                haarline.Problem(
+                    "--max-seconds",
+                    f"the analysis is estimated at {what}, above the limit of "
+                    f"{args.max_seconds:g} s; lower the sample counts or the scan",
+                )
+            ]
+        )
+    if seconds > ANNOUNCE_SECONDS:
+        sys.stderr.write(f"haarline: estimated {what}; estimates are rough (a factor of a few)\n")
+        sys.stderr.flush()
+
+
 def _run_analysis(
     circuit: haarline.Circuit,
     options: haarline.AnalysisOptions,
     policy: haarline.Policy | None,
     args: argparse.Namespace,
 ) -> dict[str, Any]:
-    progress = TerminalProgress()
+    data = _data(args)
+    estimate = haarline.estimate(circuit, options, memory_budget=args.memory_budget)
+    seconds = estimate.seconds(args.workers)
+    _announce(estimate, seconds, args)
+    progress = TerminalProgress(stages=haarline.progress_stages(circuit, options), estimate=seconds)
     try:
-        report = haarline.analyze(
-            circuit, options, data=_data(args), context=_context(args, progress)
-        )
+        report = haarline.analyze(circuit, options, data=data, context=_context(args, progress))
     finally:
         progress.close()
     if policy is not None:

@@ -314,6 +314,12 @@ def add_analysis_flags(p: argparse.ArgumentParser) -> None:
         help="memory for state batches, e.g. 512MiB (default 1GiB); changes speed, not results",
     )
     p.add_argument(
+        "--max-seconds",
+        type=float,
+        metavar="S",
+        help="refuse work estimated above S seconds (exit 2), before it starts",
+    )
+    p.add_argument(
         "--policy",
         metavar="FILE",
         help="JSON or YAML policy of thresholds; exit code 1 when a rule fails",

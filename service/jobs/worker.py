@@ -27,7 +27,6 @@ from haarline.service.jobs.store import Store
 __all__ = [
     "ORPHAN_EXIT",
     "PARENT_POLL",
-    "StageFraction",
     "execute_job",
     "follow_parent",
     "run_request",
@@ -49,27 +48,6 @@ def _stages(kind: str, request: dict[str, Any]) -> int:
     options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
     specs = request["circuits"] if kind == "compare" else [request]
     return max(1, sum(haarline.progress_stages(circuit_of(s), options) for s in specs))
-
-
-class StageFraction:
-    """The overall fraction of a job from the ``(stage, done, count)`` reports it makes.
-
-    ``total`` is the registry's upper bound on the stages
-    (:func:`haarline.progress_stages`); each change of stage name completes one, so the
-    fraction only reaches 1 when the last possible stage is done (a stage that is skipped
-    makes the fraction jump at the end, never run ahead of the work).
-    """
-
-    def __init__(self, total: int):
-        self.total = max(1, total)
-        self.seen: list[str] = []
-
-    def __call__(self, stage: str, done: int, count: int) -> float:
-        """Record a report; return the overall fraction done."""
-        if not self.seen or self.seen[-1] != stage:
-            self.seen.append(stage)
-        part = done / count if count else 1.0
-        return min(1.0, (len(self.seen) - 1 + part) / self.total)
 
 
 def circuit_of(spec: dict[str, Any]) -> haarline.Circuit:
@@ -148,7 +126,7 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
         total = _stages(kind, request)
     except (haarline.InputError, haarline.LimitError):
         total = 1  # run_request below fails with the problem itself
-    fraction = StageFraction(total)
+    fraction = haarline.StageFraction(total)
     last = [0.0]
 
     def progress(stage: str, done: int, count: int) -> None:

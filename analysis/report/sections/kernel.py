@@ -152,7 +152,9 @@ def _work(circuit: Circuit, program: Program, options: AnalysisOptions, budget: 
     updates += own + options.kernel_rows * len(program.operations) * (1 << program.qubits)
     memory = max(batch_bytes(program.qubits, budget), options.kernel_rows**2 * 8 * 4)
     for n in _scan(circuit, options):
-        p = expand_at(circuit, n, layers_at(options.scan_layers, n, circuit))
+        p = expand_at(
+            circuit, n, layers_at(options.scan_layers, n, circuit), during=" (kernel scan)"
+        )
         updates += 2.0 * options.kernel_pairs * len(p.operations) * (1 << n)
         memory = max(memory, batch_bytes(n, budget))
     return Work(updates, memory)

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from haarline.circuit.program import expand, inputs_at
+from haarline.circuit.program import expand_at, inputs_at
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.trainability import default_scan, layers_at, trainability, uses_only_patterns
 from haarline.report.inputs import draws_for
@@ -71,7 +71,7 @@ def _work(circuit: Circuit, program: Program, options: AnalysisOptions, budget: 
     sizes += [(circuit.qubits, layers) for layers in options.depth_scan or []]
     updates, memory = 0.0, 0
     for q, layers in sizes:
-        p = expand(circuit, qubits=q, layers=layers)
+        p = expand_at(circuit, q, layers, during=" (trainability scan)")
         # adjoint differentiation: about four passes; the shift rule: four per parameter
         passes = 4.0 if options.gradients == "adjoint" else 4.0 * p.parameters
         updates += options.grad_samples * passes * len(p.operations) * (1 << q)
