@@ -20,7 +20,16 @@ def test_rz_on_zero_state_is_redundant_and_named():
     p = expand(parse_circuit({"qubits": 2, "layer": [{"gate": "rz", "on": [0]}, {"gate": "ry"}]}))
     c = capacity(p)
     assert c.qfi_rank == 2 and c.redundant == 1
-    assert c.redundant_parameters == [{"parameter": 0, "step": "layer[0]", "kind": "inactive"}]
+    assert c.redundant_parameters == [
+        {
+            "parameter": 0,
+            "step": "layer[0]",
+            "layer": 1,
+            "gate": "rz",
+            "qubits": [0],
+            "kind": "inactive",
+        }
+    ]
 
 
 def test_deep_three_qubit_circuit_reaches_the_ceiling():

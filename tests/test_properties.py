@@ -173,7 +173,9 @@ def assert_same(a, b, path="report"):
     if isinstance(a, dict):
         assert isinstance(b, dict) and a.keys() == b.keys(), path
         for k in a:
-            assert_same(a[k], b[k], f"{path}.{k}")
+            if k not in ("flat_places", "qubits") or not isinstance(a[k], (str, list)):
+                # words and qubit lists name qubits, which relabelling renames by design
+                assert_same(a[k], b[k], f"{path}.{k}")
     elif isinstance(a, list):
         assert isinstance(b, list) and len(a) == len(b), path
         for i, (x, y) in enumerate(zip(a, b, strict=True)):
@@ -211,6 +213,8 @@ def test_relabelling_qubits_changes_no_metric(drawn, seed):
     other = haarline.analyze(haarline.parse_circuit(relabel(description, pi)), options)
     for report in (one, other):
         del report["timings"]
+        # the light-cone caution names qubits, which relabelling renames by design
+        report["cautions"] = [c for c in report["cautions"] if "light cone" not in c]
     assert_same(one, other)
 
 

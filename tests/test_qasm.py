@@ -399,7 +399,8 @@ def same_numbers(a, b) -> bool:
 def strip_steps(value):
     """Drop step paths (layer[k] differs when layers are flattened) from a report section."""
     if isinstance(value, dict):
-        return {k: strip_steps(v) for k, v in value.items() if k not in ("step", "layers")}
+        words = ("step", "layers", "layer", "flat_places")  # where a parameter sits, in words
+        return {k: strip_steps(v) for k, v in value.items() if k not in words}
     if isinstance(value, list):
         return [strip_steps(v) for v in value]
     return value

@@ -121,3 +121,14 @@ def test_a_failed_policy_makes_the_banner_red():
     report["policy"] = {"name": "strict", "status": "fail", "rules": []}
     assert banner(report).level == "fail"
     assert 'class="verdict fail"' in report_page(report, {})
+
+
+def test_options_of_metrics_not_asked_for_are_named():
+    report = haarline.analyze(
+        haarline.load_reference("ry-cz-ring"),
+        haarline.AnalysisOptions(pairs=300, samples=100, grad_samples=300, capacity_points=7),
+    )
+    ignored = [c for c in report["cautions"] if "changed nothing" in c]
+    assert len(ignored) == 2
+    assert any("grad_samples (--grad-samples)" in c and "trainability, lie" in c for c in ignored)
+    assert any("capacity_points" in c for c in ignored)

@@ -2,6 +2,7 @@
 
 import math
 
+import haarline
 import numpy as np
 import pytest
 from haarline import parse_circuit
@@ -81,6 +82,7 @@ def _points(values, se_rel=0.05):
             smallest=v,
             mean_cost=0.0,
             top_sample_share=0.01,
+            flat_parameters=[],
         )
         for n, v in values
     ]
@@ -141,3 +143,18 @@ def test_shift_method_gives_the_same_report_numbers():
     b = trainability(ring, cost="local", scan=[2, 3], samples=30, seed=4, method="shift")
     for pa, pb in zip(a.points, b.points, strict=True):
         assert pa.variance == pytest.approx(pb.variance, rel=1e-9)
+
+
+def test_parameters_outside_the_light_cone_are_flat_and_named():
+    # zz cost (Z on qubits 0 and 1) after rx, rz on every qubit and no entangler: rx on
+    # qubits 2, 3 and every rz commute with or are far from the cost, so their gradients are
+    # exactly 0 (the light-cone argument of Cerezo et al., Nat. Commun. 12, 1791, 2021)
+    report = haarline.analyze(
+        haarline.load_reference("sim2019-01"),
+        haarline.AnalysisOptions(metrics=["trainability"], cost="zz", scan=[4], grad_samples=40),
+    )
+    (point,) = report["trainability"]["points"]
+    assert point["flat_parameters"] == [2, 3, 4, 5, 6, 7] and point["smallest"] == 0.0
+    assert point["largest"] > 0.01
+    caution = next(c for c in report["cautions"] if "light cone" in c)
+    assert "θ2 (layer 1, layer[0]: rx on qubit 2)" in caution

@@ -30,6 +30,8 @@ __all__ = [
     "expand_at",
     "facts",
     "inputs_at",
+    "parameter_places",
+    "place_text",
     "time_steps",
 ]
 
@@ -461,6 +463,40 @@ def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -
             ],
             source=exc.source,
         ) from exc
+
+
+def parameter_places(program: Program) -> list[dict[str, Any]]:
+    """Where each trainable parameter first appears: its step, layer, gate and qubits.
+
+    ``layer`` counts repetitions of ``layer`` from 1 (``None`` for ``prepare`` and
+    ``finish``), so a reader can tell "layer 2, step layer[0]" from "the first layer".
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> p = expand(parse_circuit({"qubits": 2, "layers": 2, "layer": [{"gate": "ry"}]}))
+    >>> parameter_places(p)[3]
+    {'parameter': 3, 'step': 'layer[0]', 'layer': 2, 'gate': 'ry', 'qubits': [1]}
+    """
+    places: dict[int, dict[str, Any]] = {}
+    for op in program.operations:
+        if op.param is not None and op.param < program.parameters and op.param not in places:
+            places[op.param] = {
+                "parameter": op.param,
+                "step": op.step,
+                "layer": None if op.layer is None else op.layer + 1,
+                "gate": op.gate,
+                "qubits": list(op.qubits),
+            }
+    return [places[k] for k in sorted(places)]
+
+
+def place_text(place: dict[str, Any]) -> str:
+    """``"θ3 (layer 2, layer[0]: ry on qubit 1)"`` for a :func:`parameter_places` entry."""
+    where = f"layer {place['layer']}, " if place["layer"] is not None else ""
+    on = ", ".join(map(str, place["qubits"]))
+    word = "qubit" if len(place["qubits"]) == 1 else "qubits"
+    return f"θ{place['parameter']} ({where}{place['step']}: {place['gate']} on {word} {on})"
 
 
 def time_steps(program: Program) -> list[int]:

@@ -24,7 +24,7 @@ from dataclasses import asdict, dataclass
 from typing import Any
 
 import numpy as np
-from haarline.circuit.program import Program
+from haarline.circuit.program import Program, parameter_places
 from haarline.engine.batching import block_map, worker_count
 from haarline.engine.context import Context
 from haarline.engine.draws import Draws
@@ -198,12 +198,17 @@ def capacity(
     _, _, piv = linalg.qr(best_f, pivoting=True)
     top = best_eig[0] if best_eig.size and best_eig[0] > 0 else 1.0
     redundant = []
+    places = {p["parameter"]: p for p in parameter_places(program)}
     for index in sorted(int(i) for i in piv[best_rank:]):
         inactive = bool(np.linalg.norm(best_f[:, index]) <= tolerance * top)
+        place = places.get(index, {})
         redundant.append(
             {
                 "parameter": index,
                 "step": program.parameter_steps[index] if program.parameter_steps else "",
+                "layer": place.get("layer"),
+                "gate": place.get("gate"),
+                "qubits": place.get("qubits"),
                 "kind": "inactive" if inactive else "dependent",
             }
         )

@@ -27,7 +27,23 @@ from haarline.metrics.intervals import log_symmetric_interval, variance_standard
 from haarline.metrics.observables import make_observable
 from numpy.typing import NDArray
 
-__all__ = ["VariancePoint", "gradient_samples", "summarize_gradients"]
+__all__ = [
+    "FLAT_ABSOLUTE",
+    "FLAT_RELATIVE",
+    "VariancePoint",
+    "gradient_samples",
+    "summarize_gradients",
+]
+
+FLAT_RELATIVE = 1e-20
+"""A parameter whose gradient variance is at most this fraction of the largest one has no
+gradient at all: in exact arithmetic it is 0 (the parameter lies outside the cost's light
+cone), and in double precision rounding leaves about 1e-34. Such variances are reported as
+0 and the parameters listed in ``flat_parameters``."""
+
+FLAT_ABSOLUTE = 1e-28
+"""A gradient variance at most this is 0 whatever the others are: double-precision
+rounding of gradients of order 1 (about 1e-16) squared, with a margin."""
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -45,6 +61,7 @@ class VariancePoint:
     smallest: float
     mean_cost: float
     top_sample_share: float
+    flat_parameters: list[int]
 
     def to_dict(self) -> dict[str, Any]:
         """Return the report object (plain JSON types)."""
@@ -169,6 +186,11 @@ def summarize_gradients(
     v = float(per_param.mean())
     se = variance_standard_error(y)
     interval = log_symmetric_interval(v, se, s - 1)
+    top = float(per_param.max())
+    flat = per_param <= max(FLAT_RELATIVE * top, FLAT_ABSOLUTE)
+    share = float(y.max() / y.sum()) if y.sum() > 0 else 0.0
+    if flat.all():  # no parameter has a gradient: every number is rounding noise
+        top, v, se, interval, share = 0.0, 0.0, 0.0, (0.0, 0.0), 0.0
     return VariancePoint(
         qubits=qubits,
         layers=layers,
@@ -177,8 +199,9 @@ def summarize_gradients(
         variance=v,
         interval=interval,
         standard_error=se,
-        largest=float(per_param.max()),
-        smallest=float(per_param.min()),
+        largest=top,
+        smallest=0.0 if flat.any() else float(per_param.min()),
         mean_cost=float(costs.mean()),
-        top_sample_share=float(y.max() / y.sum()) if y.sum() > 0 else 0.0,
+        top_sample_share=share,
+        flat_parameters=[int(k) for k in np.flatnonzero(flat)],
     )

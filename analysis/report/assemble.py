@@ -25,18 +25,40 @@ from haarline.report.metric_row import Request
 from haarline.report.options import AnalysisOptions
 from haarline.report.registry import REGISTRY, requested
 
-__all__ = ["REPORT_FORMAT", "analyze", "cautions"]
+__all__ = ["REPORT_FORMAT", "analyze", "cautions", "ignored_options"]
 
 REPORT_FORMAT = 1
 
 
-def cautions(report: dict[str, Any]) -> list[str]:
+_GENERAL_OPTIONS = {"metrics", "seed", "precision", "layers_sweep"}
+
+
+def ignored_options(options: AnalysisOptions) -> list[str]:
+    """Options set to something other than their default that no requested metric reads."""
+    defaults = AnalysisOptions()
+    read = {o for row in requested(options) for o in row.options} | _GENERAL_OPTIONS
+    out = []
+    for field in AnalysisOptions.model_fields:
+        if field in read or getattr(options, field) == getattr(defaults, field):
+            continue
+        readers = [name for name, row in REGISTRY.items() if field in row.options]
+        flag = "--" + field.replace("_", "-")
+        out.append(
+            f"Option {field} ({flag}) was given, but none of the requested metrics reads it "
+            f"(it belongs to {', '.join(readers)}): it changed nothing."
+        )
+    return out
+
+
+def cautions(report: dict[str, Any], options: AnalysisOptions | None = None) -> list[str]:
     """Plain-language warnings where the numbers could mislead a reader (registry order)."""
     out: list[str] = []
     for name, row in REGISTRY.items():
         section = report.get(name)
         if section:
             out += row.cautions(section, report)
+    if options is not None:
+        out += ignored_options(options)
     return out
 
 
@@ -109,7 +131,7 @@ def analyze(
         "sweep": sweep,
         "policy": None,
     }
-    report["cautions"] = cautions(report)
+    report["cautions"] = cautions(report, options)
     timings["total"] = time.perf_counter() - start
     report["timings"] = {k: round(v, 6) for k, v in timings.items()}
     _check_finite(report)

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
+from haarline.circuit.program import place_text
 from haarline.metrics.capacity import capacity
 from haarline.report.inputs import draws_for
 from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
@@ -65,7 +66,8 @@ def _text(c: Section, report: dict[str, Any]) -> list[str]:
     ]
     if c["redundant_parameters"]:
         shown = ", ".join(
-            f"{r['parameter']} ({r['step']}, {r['kind']})" for r in c["redundant_parameters"][:8]
+            f"{place_text(r)} {r['kind']}" if r.get("gate") else f"θ{r['parameter']} {r['kind']}"
+            for r in c["redundant_parameters"][:8]
         )
         more = len(c["redundant_parameters"]) - 8
         lines.append(f"  redundant: {shown}" + (f" and {more} more" if more > 0 else ""))

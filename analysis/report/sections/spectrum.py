@@ -113,7 +113,7 @@ ROW = MetricRow(
     title="Spectrum",
     about="the Fourier frequencies each input feature can reach and the mean weight of each "
     "coefficient over random parameters (Schuld, Sweke & Meyer, Phys. Rev. A 2021)",
-    options=("spectrum_samples",),
+    options=("spectrum_samples", "cost", "inputs_uniform", "inputs_normal"),
     compute=_compute,
     work=_work,
     stages=_stages,

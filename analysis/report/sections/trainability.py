@@ -7,12 +7,12 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from haarline.circuit.program import expand_at, inputs_at
+from haarline.circuit.program import expand_at, inputs_at, parameter_places, place_text
 from haarline.engine.statevector import batch_bytes
 from haarline.metrics.trainability import default_scan, layers_at, trainability, uses_only_patterns
 from haarline.report.inputs import draws_for
 from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
-from haarline.report.text import interval_text
+from haarline.report.text import count_text, interval_text
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
@@ -63,6 +63,11 @@ def _compute(request: Request) -> Section:
                 f"inputs from the {law} law."
             )
     section["scan_note"] = note
+    for point in section["points"] + section["layer_points"]:
+        if point["flat_parameters"]:
+            p = expand_at(circuit, point["qubits"], point["layers"])
+            places = {pl["parameter"]: pl for pl in parameter_places(p)}
+            point["flat_places"] = [place_text(places[k]) for k in point["flat_parameters"]]
     return section
 
 
@@ -94,6 +99,16 @@ def _cautions(t: Section, report: dict[str, Any]) -> list[str]:
                 f"gradient samples carries {p['top_sample_share']:.0%} of the variance "
                 "estimate: the squared gradients are heavy-tailed and the interval is "
                 "likely too narrow. Raise --grad-samples."
+            )
+    for p in t["points"] + t["layer_points"]:
+        flat = p.get("flat_places") or []
+        if flat:
+            shown = ", ".join(flat[:6]) + (f" and {len(flat) - 6} more" if len(flat) > 6 else "")
+            out.append(
+                f"At {p['qubits']} qubits and {count_text(p['layers'], 'layer')}, "
+                f"{len(flat)} parameter(s) have no gradient (variance 0 up to rounding): "
+                "they lie outside the cost's light cone, so their gates cannot change the "
+                f"cost: {shown}."
             )
     if t.get("scan_note"):
         out.append(t["scan_note"])
