@@ -161,6 +161,21 @@ def test_unknown_pattern_name():
     rejected(base(layer=[{"gate": "cz", "on": "star"}]), "layer[0].on", '"star"', "'ring'")
 
 
+def test_the_old_name_pairs_is_an_error_that_names_all_to_all():
+    # "pairs" was the name of "all-to-all" until it was renamed; it is never accepted
+    with pytest.raises(CircuitError) as info:
+        expand(parse_circuit(base(layer=[{"gate": "cz", "on": "pairs"}])))
+    assert str(info.value) == (
+        'layer[0].on: "pairs" was renamed; use "all-to-all" (every pair i < j)'
+    )
+    with pytest.raises(CircuitError) as info:
+        expand(parse_circuit(base(layer=[{"gate": "rzz", "on": "pairs", "reverse": True}])))
+    assert "renamed" in str(info.value)
+    assert "pairs" not in haarline.circuit.model.TWO_QUBIT_PATTERNS
+    names = haarline.circuit_schema()["$defs"]["Step"]["properties"]["on"]["anyOf"][0]["enum"]
+    assert "all-to-all" in names and "pairs" not in names
+
+
 def test_repeated_qubit_in_a_pair():
     rejected(
         base(layer=[{"gate": "cz", "on": [[0, 1], [3, 3]]}]),
@@ -652,7 +667,7 @@ PATTERNS = {
         5: [(0, 1), (1, 2), (2, 3), (3, 4), (4, 0)],
         6: [(0, 1), (1, 2), (2, 3), (3, 4), (4, 5), (5, 0)],
     },
-    "pairs": {
+    "all-to-all": {
         2: [(0, 1)],
         3: [(0, 1), (0, 2), (1, 2)],
         4: [(0, 1), (0, 2), (0, 3), (1, 2), (1, 3), (2, 3)],
@@ -696,7 +711,7 @@ REVERSED = {
     ("chain", 4): [(3, 2), (2, 1), (1, 0)],
     ("ring", 4): [(0, 3), (3, 2), (2, 1), (1, 0)],
     ("ring", 2): [(1, 0)],
-    ("pairs", 3): [(2, 1), (2, 0), (1, 0)],
+    ("all-to-all", 3): [(2, 1), (2, 0), (1, 0)],
     ("brick-even", 5): [(3, 2), (1, 0)],
     ("brick-odd", 6): [(4, 3), (2, 1)],
     ("brick-odd", 2): [],
@@ -871,7 +886,18 @@ def test_option_errors_use_the_callers_names():
 
 # ------------------------------------------------------------------ fuzzing (hypothesis)
 
-PATTERN_WORDS = ["all", "chain", "ring", "pairs", "brick-even", "brick-odd", "star", "", "ALL"]
+PATTERN_WORDS = [
+    "all",
+    "chain",
+    "ring",
+    "all-to-all",
+    "pairs",
+    "brick-even",
+    "brick-odd",
+    "star",
+    "",
+    "ALL",
+]
 KEY_WORDS = [
     "format", "name", "description", "qubits", "layers", "prepare", "layer", "finish",
     "gate", "on", "reverse", "angle", "share", "steps", "qubit", "",

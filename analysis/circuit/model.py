@@ -42,6 +42,7 @@ __all__ = [
     "MAX_QUBITS",
     "MAX_STEPS",
     "ONE_QUBIT_PATTERNS",
+    "RENAMED_PATTERNS",
     "TWO_QUBIT_PATTERNS",
     "Circuit",
     "Step",
@@ -62,7 +63,9 @@ MAX_INPUTS = 1_000
 """Largest number of input features a description may declare."""
 
 ONE_QUBIT_PATTERNS = ("all",)
-TWO_QUBIT_PATTERNS = ("chain", "ring", "pairs", "brick-even", "brick-odd")
+TWO_QUBIT_PATTERNS = ("chain", "ring", "all-to-all", "brick-even", "brick-odd")
+RENAMED_PATTERNS = {"pairs": "all-to-all"}
+"""Former pattern names: each is an input error that names its successor, never an alias."""
 
 GateName = Literal[
     "i", "h", "x", "y", "z", "s", "sdg", "t", "tdg", "sx",

@@ -10,7 +10,7 @@ gates ``(control, target)``):
 =============  ==========================================
 ``chain``      (0,1), (1,2), …, (n-2,n-1)
 ``ring``       ``chain`` plus (n-1,0) when n > 2
-``pairs``      every (i,j) with i < j, in lexicographic order
+``all-to-all`` every (i,j) with i < j, in lexicographic order
 ``brick-even`` (0,1), (2,3), …
 ``brick-odd``  (1,2), (3,4), … (empty for n = 2)
 =============  ==========================================
@@ -23,7 +23,13 @@ from __future__ import annotations
 from typing import Any
 
 from haarline.circuit.gates import lookup
-from haarline.circuit.model import ONE_QUBIT_PATTERNS, TWO_QUBIT_PATTERNS, Step, _describe
+from haarline.circuit.model import (
+    ONE_QUBIT_PATTERNS,
+    RENAMED_PATTERNS,
+    TWO_QUBIT_PATTERNS,
+    Step,
+    _describe,
+)
 from haarline.errors import CircuitError, Problem
 
 __all__ = ["placement", "step_targets"]
@@ -44,13 +50,17 @@ def placement(pattern: str, qubits: int) -> list[tuple[int, int]]:
         return [(i, i + 1) for i in range(n - 1)]
     if pattern == "ring":
         return [(i, i + 1) for i in range(n - 1)] + ([(n - 1, 0)] if n > 2 else [])
-    if pattern == "pairs":
+    if pattern == "all-to-all":
         return [(i, j) for i in range(n) for j in range(i + 1, n)]
     if pattern == "brick-even":
         return [(i, i + 1) for i in range(0, n - 1, 2)]
     if pattern == "brick-odd":
         return [(i, i + 1) for i in range(1, n - 1, 2)]
     raise ValueError(f"unknown pattern {pattern!r}")
+
+
+_MEANING = {"all-to-all": "every pair i < j"}
+"""What a pattern that replaced an old name places, for the message that names it."""
 
 
 def _is_int(value: Any) -> bool:
@@ -136,6 +146,10 @@ def step_targets(step: Step, path: str, n: int) -> list[tuple[int, ...]]:
     # two-qubit gate
     patterns = ", ".join(repr(p) for p in TWO_QUBIT_PATTERNS)
     if isinstance(on, str):
+        if on in RENAMED_PATTERNS:
+            new = RENAMED_PATTERNS[on]
+            renamed = f"{_describe(on)} was renamed; use {_describe(new)} ({_MEANING[new]})"
+            raise CircuitError([Problem(where, renamed)])
         if on not in TWO_QUBIT_PATTERNS:
             hint = " ('all' is for one-qubit gates)" if on in ONE_QUBIT_PATTERNS else ""
             got = f"got {_describe(on)}"
