@@ -470,10 +470,14 @@ def test_bad_trainability_flags_exit_2(capsys, flags, words):
         assert word in err, (word, err)
 
 
-def test_scan_of_an_explicit_list_circuit_names_the_size(capsys):
-    code, out, err = run(capsys, "analyze", "ref:sim2019-11", *TRAIN, "--scan", "2,4")
-    assert code == 2
-    assert_one_error_line(err, "at 2 qubits", "out of range")
+def test_a_bundled_reference_scans_at_other_sizes(capsys):
+    code, out, err = run(
+        capsys, "analyze", "ref:sim2019-11", "--metrics", "trainability", "--grad-samples", "4",
+        "--scan", "2,4,6", "--format", "json",
+    )  # fmt: skip
+    assert code == 0, err
+    points = json.loads(out)["trainability"]["points"]
+    assert [(p["qubits"], p["parameters"]) for p in points] == [(2, 4), (4, 12), (6, 20)]
 
 
 def test_text_summary_mentions_the_verdict(capsys):
