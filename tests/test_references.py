@@ -137,3 +137,32 @@ def test_reference_trainability_scan_at_2_4_6_runs(name: str, capsys) -> None:
     assert code == 0, err
     points = json.loads(out)["trainability"]["points"]
     assert [p["qubits"] for p in points] == [2, 4, 6]
+
+
+def test_a_description_drawn_for_one_size_says_so_when_resized() -> None:
+    # sim2019-11 as it was written before its rewrite: explicit pairs and qubits
+    text = json.dumps(
+        {
+            "name": "sim2019-11-as-drawn",
+            "qubits": 4,
+            "layer": [
+                {"gate": "ry", "on": "all"},
+                {"gate": "rz", "on": "all"},
+                {"gate": "cx", "on": [[1, 0], [3, 2]]},
+                {"gate": "ry", "on": [1, 2]},
+                {"gate": "rz", "on": [1, 2]},
+                {"gate": "cx", "on": "brick-odd", "reverse": True},
+            ],
+        }
+    )
+    circuit = haarline.parse_circuit_text(text, source="drawn.json")
+    assert program_record(haarline.expand(circuit)) == FROZEN["sim2019-11"]
+    for n in (2, 3):
+        with pytest.raises(haarline.CircuitError) as info:
+            expand_at(circuit, n, 1, during=" (trainability scan)")
+        (problem,) = info.value.problems
+        assert problem.path == "layer[2].on"
+        assert problem.message.startswith(f"at {n} qubits (trainability scan): this step lists")
+        assert "cannot be re-sized below 4 qubits" in problem.message
+        assert "--scan 4" in problem.message and "placement pattern" in problem.message
+    assert expand_at(circuit, 6, 1).qubits == 6  # listed qubits exist at larger sizes
