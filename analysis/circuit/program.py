@@ -37,7 +37,7 @@ MAX_OPERATIONS = 200_000
 """Largest number of gate applications an expanded program may hold."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Operation:
     """One gate application.
 
@@ -90,7 +90,7 @@ class Encoding:
         return self.scale * x[:, self.features[0]]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Program:
     """An expanded, validated circuit: what the engine runs.
 
@@ -394,7 +394,7 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
                     scale = 1.0 if step.scale is None else step.scale
                     encodings.append(Encoding(features, scale, step.input == "product"))
                     encoded.append(len(ops))
-                    ops.append(Operation(spec.name, qs, None, None, path, layer))
+                    ops.append(Operation(gate=spec.name, qubits=qs, step=path, layer=layer))
                     continue
                 if spec.takes_angle and step.angle is None:
                     if step.param is not None:
@@ -412,7 +412,16 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
                         param = shared[key]
                     else:
                         param = new_param(path)
-                ops.append(Operation(spec.name, qs, param, step.angle, path, layer))
+                ops.append(
+                    Operation(
+                        gate=spec.name,
+                        qubits=qs,
+                        param=param,
+                        angle=step.angle,
+                        step=path,
+                        layer=layer,
+                    )
+                )
 
     emit("prepare", circuit.prepare, None)
     for rep in range(reps):
