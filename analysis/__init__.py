@@ -17,7 +17,7 @@ from haarline._version import __version__
 from haarline.circuit.gates import GATES, GateSpec, gate_matrix, lookup
 from haarline.circuit.loading import load_circuit, parse_circuit_text
 from haarline.circuit.model import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
-from haarline.circuit.placements import placement
+from haarline.circuit.placements import pattern_qubits, placement
 from haarline.circuit.program import Encoding, Operation, Program, expand, facts
 from haarline.circuit.qasm.export import to_qasm
 from haarline.circuit.qasm.parse import parse_qasm
@@ -261,6 +261,7 @@ __all__ = [
     "parse_pauli",
     "parse_policy",
     "parse_qasm",
+    "pattern_qubits",
     "pauli_label",
     "pauli_values",
     "placement",

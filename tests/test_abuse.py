@@ -161,7 +161,7 @@ def test_enormous_counts_are_422_naming_the_field(app_client, body, path):
             "circuit": {"qubits": 24, "layer": [{"gate": "ry"}]},
             "options": {"metrics": ["capacity"]},
         },
-        {"circuit": {"qubits": 24, "layers": 300, "layer": [{"gate": "rzz", "on": "pairs"}]}},
+        {"circuit": {"qubits": 24, "layers": 300, "layer": [{"gate": "rzz", "on": "all-to-all"}]}},
     ],
 )
 def test_enormous_work_is_422_with_the_limit_and_estimate(app_client, body):

@@ -470,10 +470,36 @@ def test_bad_trainability_flags_exit_2(capsys, flags, words):
         assert word in err, (word, err)
 
 
-def test_scan_of_an_explicit_list_circuit_names_the_size(capsys):
-    code, out, err = run(capsys, "analyze", "ref:sim2019-11", *TRAIN, "--scan", "2,4")
-    assert code == 2
-    assert_one_error_line(err, "at 2 qubits", "out of range")
+def test_a_bundled_reference_scans_at_other_sizes(capsys):
+    code, out, err = run(
+        capsys, "analyze", "ref:sim2019-11", "--metrics", "trainability", "--grad-samples", "4",
+        "--scan", "2,4,6", "--format", "json",
+    )  # fmt: skip
+    assert code == 0, err
+    points = json.loads(out)["trainability"]["points"]
+    assert [(p["qubits"], p["parameters"]) for p in points] == [(2, 4), (4, 12), (6, 20)]
+
+
+def test_scan_of_a_description_with_listed_qubits_says_why_it_cannot_be_resized(capsys, tmp_path):
+    fixed = {
+        "name": "four-only",
+        "qubits": 4,
+        "layer": [
+            {"gate": "ry"},
+            {"gate": "cx", "on": [[1, 0], [3, 2]]},
+            {"gate": "rz", "on": [2]},
+        ],
+    }
+    path = write_json(tmp_path, "four-only.json", fixed)
+    code, out, err = run(capsys, "analyze", str(path), *TRAIN, "--scan", "2,4")
+    assert code == 2 and out == ""
+    line = assert_one_error_line(err)
+    assert line == (
+        f"haarline: error: {path}: layer[1].on: at 2 qubits (trainability scan): this step "
+        "lists qubit 3, so the description cannot be re-sized below 4 qubits (it is written "
+        "for 4); scan it at 4 qubits (--scan 4), or give this step a placement pattern "
+        "instead of listed qubits"
+    )
 
 
 def test_text_summary_mentions_the_verdict(capsys):

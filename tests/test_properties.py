@@ -40,6 +40,7 @@ import haarline
 import numpy as np
 from haarline.circuit.gates import GATES
 from haarline.circuit.model import TWO_QUBIT_PATTERNS
+from haarline.circuit.placements import placement
 from haarline.circuit.program import expand
 from haarline.engine.sampling import draw_angles
 from haarline.engine.statevector import run
@@ -66,7 +67,7 @@ def steps(draw, n: int, explicit: bool) -> dict:
         elif draw(st.booleans()):
             step["on"] = "all"
     else:
-        patterns = [p for p in TWO_QUBIT_PATTERNS if not (p == "brick-odd" and n < 3)]
+        patterns = [p for p in TWO_QUBIT_PATTERNS if placement(p, n)]
         if not explicit and draw(st.booleans()):
             step["on"] = draw(st.sampled_from(patterns))
             if draw(st.booleans()):

@@ -37,7 +37,7 @@ def hand_program(qubits: int, expected: list[tuple]) -> Program:
         name="expected",
         qubits=qubits,
         layers=1,
-        operations=tuple(Operation(g, q, p, a) for g, q, p, a in expected),
+        operations=tuple(Operation(gate=g, qubits=q, param=p, angle=a) for g, q, p, a in expected),
         parameters=max(params) + 1 if params else 0,
     )
 

@@ -125,13 +125,29 @@ def test_pauli_sum_cost_cannot_scan():
 def test_scan_point_errors_name_the_size_and_the_scan():
     from haarline import CircuitError
 
+    chain = parse_circuit({"qubits": 3, "layer": [{"gate": "ry"}, {"gate": "cz", "on": "chain"}]})
+    with pytest.raises(CircuitError) as info:
+        trainability(chain, scan=[1, 3], samples=4)
+    (problem,) = info.value.problems
+    assert problem.path == "layer[1].on"
+    assert problem.message == (
+        "at 1 qubits, 1 layers (trainability scan): pattern 'chain' needs at least 2 qubits; "
+        "the circuit has 1"
+    )
+
+
+def test_a_scan_below_the_listed_qubits_says_the_description_cannot_be_resized():
+    from haarline import CircuitError
+
     fixed = parse_circuit({"qubits": 3, "layer": [{"gate": "ry", "on": [2]}]})
     with pytest.raises(CircuitError) as info:
         trainability(fixed, scan=[2, 3], samples=4)
     (problem,) = info.value.problems
-    assert problem.path == "layer[0].on[0]"
+    assert problem.path == "layer[0].on"
     assert problem.message == (
-        "at 2 qubits, 1 layers (trainability scan): qubit 2 is out of range for 2 qubits (0..1)"
+        "at 2 qubits (trainability scan): this step lists qubit 2, so the description cannot "
+        "be re-sized below 3 qubits (it is written for 3); scan it at 3 qubits (--scan 3), or "
+        "give this step a placement pattern instead of listed qubits"
     )
 
 

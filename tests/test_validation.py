@@ -161,6 +161,21 @@ def test_unknown_pattern_name():
     rejected(base(layer=[{"gate": "cz", "on": "star"}]), "layer[0].on", '"star"', "'ring'")
 
 
+def test_the_old_name_pairs_is_an_error_that_names_all_to_all():
+    # "pairs" was the name of "all-to-all" until it was renamed; it is never accepted
+    with pytest.raises(CircuitError) as info:
+        expand(parse_circuit(base(layer=[{"gate": "cz", "on": "pairs"}])))
+    assert str(info.value) == (
+        'layer[0].on: "pairs" was renamed; use "all-to-all" (every pair i < j)'
+    )
+    with pytest.raises(CircuitError) as info:
+        expand(parse_circuit(base(layer=[{"gate": "rzz", "on": "pairs", "reverse": True}])))
+    assert "renamed" in str(info.value)
+    assert "pairs" not in haarline.circuit.model.TWO_QUBIT_PATTERNS
+    names = haarline.circuit_schema()["$defs"]["Step"]["properties"]["on"]["anyOf"][0]["enum"]
+    assert "all-to-all" in names and "pairs" not in names
+
+
 def test_repeated_qubit_in_a_pair():
     rejected(
         base(layer=[{"gate": "cz", "on": [[0, 1], [3, 3]]}]),
@@ -652,7 +667,7 @@ PATTERNS = {
         5: [(0, 1), (1, 2), (2, 3), (3, 4), (4, 0)],
         6: [(0, 1), (1, 2), (2, 3), (3, 4), (4, 5), (5, 0)],
     },
-    "pairs": {
+    "all-to-all": {
         2: [(0, 1)],
         3: [(0, 1), (0, 2), (1, 2)],
         4: [(0, 1), (0, 2), (0, 3), (1, 2), (1, 3), (2, 3)],
@@ -689,6 +704,73 @@ PATTERNS = {
         5: [(1, 2), (3, 4)],
         6: [(1, 2), (3, 4)],
     },
+    "brick-even-up": {
+        2: [(1, 0)],
+        3: [(1, 0)],
+        4: [(1, 0), (3, 2)],
+        5: [(1, 0), (3, 2)],
+        6: [(1, 0), (3, 2), (5, 4)],
+    },
+    "brick-odd-up": {
+        2: [],
+        3: [(2, 1)],
+        4: [(2, 1)],
+        5: [(2, 1), (4, 3)],
+        6: [(2, 1), (4, 3)],
+    },
+    "ring-up": {
+        2: [(1, 0)],
+        3: [(2, 1), (1, 0), (2, 0)],
+        4: [(3, 2), (2, 1), (1, 0), (3, 0)],
+        5: [(4, 3), (3, 2), (2, 1), (1, 0), (4, 0)],
+        6: [(5, 4), (4, 3), (3, 2), (2, 1), (1, 0), (5, 0)],
+    },
+    "ring-backward": {
+        2: [(0, 1)],
+        3: [(2, 0), (1, 2), (0, 1)],
+        4: [(3, 0), (2, 3), (1, 2), (0, 1)],
+        5: [(4, 0), (3, 4), (2, 3), (1, 2), (0, 1)],
+        6: [(5, 0), (4, 5), (3, 4), (2, 3), (1, 2), (0, 1)],
+    },
+    "ring-to-previous": {
+        2: [(1, 0)],
+        3: [(2, 1), (0, 2), (1, 0)],
+        4: [(3, 2), (0, 3), (1, 0), (2, 1)],
+        5: [(4, 3), (0, 4), (1, 0), (2, 1), (3, 2)],
+        6: [(5, 4), (0, 5), (1, 0), (2, 1), (3, 2), (4, 3)],
+    },
+    "all-to-all-both-ways": {
+        2: [(1, 0), (0, 1)],
+        3: [(2, 1), (2, 0), (1, 2), (1, 0), (0, 2), (0, 1)],
+        4: [
+            (3, 2), (3, 1), (3, 0),
+            (2, 3), (2, 1), (2, 0),
+            (1, 3), (1, 2), (1, 0),
+            (0, 3), (0, 2), (0, 1),
+        ],
+        5: [
+            (4, 3), (4, 2), (4, 1), (4, 0),
+            (3, 4), (3, 2), (3, 1), (3, 0),
+            (2, 4), (2, 3), (2, 1), (2, 0),
+            (1, 4), (1, 3), (1, 2), (1, 0),
+            (0, 4), (0, 3), (0, 2), (0, 1),
+        ],
+        6: [
+            (5, 4), (5, 3), (5, 2), (5, 1), (5, 0),
+            (4, 5), (4, 3), (4, 2), (4, 1), (4, 0),
+            (3, 5), (3, 4), (3, 2), (3, 1), (3, 0),
+            (2, 5), (2, 4), (2, 3), (2, 1), (2, 0),
+            (1, 5), (1, 4), (1, 3), (1, 2), (1, 0),
+            (0, 5), (0, 4), (0, 3), (0, 2), (0, 1),
+        ],
+    },
+}  # fmt: skip
+
+# The qubits of the one-qubit patterns, written out by hand.
+ONE_QUBIT = {
+    "all": {1: [0], 2: [0, 1], 3: [0, 1, 2], 4: [0, 1, 2, 3], 5: [0, 1, 2, 3, 4]},
+    "brick-even": {1: [], 2: [0, 1], 3: [0, 1], 4: [0, 1, 2, 3], 5: [0, 1, 2, 3]},
+    "brick-odd": {1: [], 2: [], 3: [1, 2], 4: [1, 2], 5: [1, 2, 3, 4]},
 }
 
 # A few reversed walks written out by hand (the rule: last pair first, each pair swapped).
@@ -696,7 +778,7 @@ REVERSED = {
     ("chain", 4): [(3, 2), (2, 1), (1, 0)],
     ("ring", 4): [(0, 3), (3, 2), (2, 1), (1, 0)],
     ("ring", 2): [(1, 0)],
-    ("pairs", 3): [(2, 1), (2, 0), (1, 0)],
+    ("all-to-all", 3): [(2, 1), (2, 0), (1, 0)],
     ("brick-even", 5): [(3, 2), (1, 0)],
     ("brick-odd", 6): [(4, 3), (2, 1)],
     ("brick-odd", 2): [],
@@ -726,6 +808,31 @@ def test_reverse_walks_back_and_swaps(pattern, n):
     assert placed(pattern, n, reverse=True) == expected
     if (pattern, n) in REVERSED:
         assert expected == REVERSED[(pattern, n)]
+
+
+def test_every_two_qubit_pattern_is_written_out_here():
+    assert sorted(PATTERNS) == sorted(haarline.circuit.model.TWO_QUBIT_PATTERNS)
+
+
+@pytest.mark.parametrize("pattern", sorted(ONE_QUBIT))
+@pytest.mark.parametrize("n", [1, 2, 3, 4, 5])
+def test_one_qubit_patterns(pattern, n):
+    assert sorted(ONE_QUBIT) == sorted(haarline.circuit.model.ONE_QUBIT_PATTERNS)
+    circuit = parse_circuit(
+        {"qubits": n, "prepare": [{"gate": "x"}], "layer": [{"gate": "ry", "on": pattern}]}
+    )
+    placed = [op.qubits for op in expand(circuit).operations if op.step == "layer[0]"]
+    assert placed == [(q,) for q in ONE_QUBIT[pattern][n]]
+    assert haarline.pattern_qubits(pattern, n) == ONE_QUBIT[pattern][n]
+
+
+def test_a_two_qubit_pattern_on_a_one_qubit_gate_lists_the_one_qubit_patterns():
+    rejected(
+        base(layer=[{"gate": "rx", "on": "brick-odd-up"}]),
+        "layer[0].on",
+        '"brick-odd-up"',
+        "'all', 'brick-even', 'brick-odd'",
+    )
 
 
 def test_patterns_rescale_with_the_qubit_count():
@@ -871,7 +978,18 @@ def test_option_errors_use_the_callers_names():
 
 # ------------------------------------------------------------------ fuzzing (hypothesis)
 
-PATTERN_WORDS = ["all", "chain", "ring", "pairs", "brick-even", "brick-odd", "star", "", "ALL"]
+PATTERN_WORDS = [
+    "all",
+    "chain",
+    "ring",
+    "all-to-all",
+    "pairs",
+    "brick-even",
+    "brick-odd",
+    "star",
+    "",
+    "ALL",
+]
 KEY_WORDS = [
     "format", "name", "description", "qubits", "layers", "prepare", "layer", "finish",
     "gate", "on", "reverse", "angle", "share", "steps", "qubit", "",

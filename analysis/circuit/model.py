@@ -42,6 +42,7 @@ __all__ = [
     "MAX_QUBITS",
     "MAX_STEPS",
     "ONE_QUBIT_PATTERNS",
+    "RENAMED_PATTERNS",
     "TWO_QUBIT_PATTERNS",
     "Circuit",
     "Step",
@@ -61,8 +62,24 @@ MAX_DESCRIPTION_BYTES = 1_048_576
 MAX_INPUTS = 1_000
 """Largest number of input features a description may declare."""
 
-ONE_QUBIT_PATTERNS = ("all",)
-TWO_QUBIT_PATTERNS = ("chain", "ring", "pairs", "brick-even", "brick-odd")
+ONE_QUBIT_PATTERNS = ("all", "brick-even", "brick-odd")
+"""Placement patterns of one-qubit gates (:mod:`haarline.circuit.placements` lists their qubits)."""
+TWO_QUBIT_PATTERNS = (
+    "chain",
+    "ring",
+    "all-to-all",
+    "brick-even",
+    "brick-odd",
+    "brick-even-up",
+    "brick-odd-up",
+    "ring-up",
+    "ring-backward",
+    "ring-to-previous",
+    "all-to-all-both-ways",
+)
+"""Placement patterns of two-qubit gates (:mod:`haarline.circuit.placements` lists their pairs)."""
+RENAMED_PATTERNS = {"pairs": "all-to-all"}
+"""Former pattern names: each is an input error that names its successor, never an alias."""
 
 GateName = Literal[
     "i", "h", "x", "y", "z", "s", "sdg", "t", "tdg", "sx",
@@ -72,12 +89,13 @@ GateName = Literal[
 
 _ON_SCHEMA: dict[str, Any] = {
     "description": (
-        "Where the gate goes. One-qubit gates: 'all' (default) or a list of qubit indices. "
+        "Where the gate goes. One-qubit gates: 'all' (default), 'brick-even', 'brick-odd' "
+        "(the qubits of those pairs) or a list of qubit indices. "
         "Two-qubit gates: a placement pattern or a list of [first, second] pairs "
         "(for controlled gates [control, target])."
     ),
     "anyOf": [
-        {"type": "string", "enum": [*ONE_QUBIT_PATTERNS, *TWO_QUBIT_PATTERNS]},
+        {"type": "string", "enum": list(dict.fromkeys([*ONE_QUBIT_PATTERNS, *TWO_QUBIT_PATTERNS]))},
         {"type": "array", "items": {"type": "integer", "minimum": 0}, "minItems": 1},
         {
             "type": "array",

@@ -39,7 +39,7 @@ MAX_OPERATIONS = 200_000
 """Largest number of gate applications an expanded program may hold."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Operation:
     """One gate application.
 
@@ -92,7 +92,7 @@ class Encoding:
         return self.scale * x[:, self.features[0]]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Program:
     """An expanded, validated circuit: what the engine runs.
 
@@ -396,7 +396,7 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
                     scale = 1.0 if step.scale is None else step.scale
                     encodings.append(Encoding(features, scale, step.input == "product"))
                     encoded.append(len(ops))
-                    ops.append(Operation(spec.name, qs, None, None, path, layer))
+                    ops.append(Operation(gate=spec.name, qubits=qs, step=path, layer=layer))
                     continue
                 if spec.takes_angle and step.angle is None:
                     if step.param is not None:
@@ -414,7 +414,16 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
                         param = shared[key]
                     else:
                         param = new_param(path)
-                ops.append(Operation(spec.name, qs, param, step.angle, path, layer))
+                ops.append(
+                    Operation(
+                        gate=spec.name,
+                        qubits=qs,
+                        param=param,
+                        angle=step.angle,
+                        step=path,
+                        layer=layer,
+                    )
+                )
 
     emit("prepare", circuit.prepare, None)
     for rep in range(reps):
@@ -437,12 +446,40 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     )
 
 
+def _listed_qubits(circuit: Circuit) -> dict[str, int]:
+    """The steps that list qubits explicitly, each with the highest qubit it lists.
+
+    Keys are JSON paths of steps (``"layer[2]"``); a description with none is written
+    with placement patterns only and exists at any qubit count.
+
+    Examples
+    --------
+    >>> from haarline.circuit.model import parse_circuit
+    >>> _listed_qubits(parse_circuit({"qubits": 4, "layer": [{"gate": "ry"},
+    ...     {"gate": "rx", "on": [1, 2]}, {"gate": "cz", "on": [[3, 0]]}]}))
+    {'layer[1]': 2, 'layer[2]': 3}
+    """
+    out: dict[str, int] = {}
+    sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
+    for section, steps in sections:
+        for i, step in enumerate(steps):
+            if isinstance(step.on, str) or not isinstance(step.on, list):
+                continue
+            flat = [q for item in step.on for q in (item if isinstance(item, list) else [item])]
+            numbers = [q for q in flat if type(q) is int]
+            if numbers:
+                out[f"{section}[{i}]"] = max(numbers)
+    return out
+
+
 def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -> Program:
     """:func:`expand` at another size, with the size in every error message.
 
     Scans and deep versions instantiate a description at sizes the user did not write; a
     problem found there is reported as ``"at {qubits} qubits, {layers} layers{during}: ..."``
-    (``during`` names the work, e.g. ``" (trainability scan)"``).
+    (``during`` names the work, e.g. ``" (trainability scan)"``). A description whose
+    steps list qubits that do not exist at the new size cannot be re-sized to it: that is
+    one problem, at the first such step, saying so and what to do instead.
 
     Examples
     --------
@@ -451,8 +488,25 @@ def expand_at(circuit: Circuit, qubits: int, layers: int, *, during: str = "") -
     >>> expand_at(c, 2, 1)  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    haarline.errors.CircuitError: layer[0].on[0][1]: at 2 qubits, 1 layers: qubit 2 is out ...
+    haarline.errors.CircuitError: layer[0].on: at 2 qubits: this step lists qubit 2, so ...
     """
+    listed = _listed_qubits(circuit)
+    too_high = [(path, q) for path, q in listed.items() if q >= qubits]
+    if qubits != circuit.qubits and too_high:
+        path, q = too_high[0]
+        lowest = max(listed.values()) + 1
+        own = circuit.qubits
+        raise CircuitError(
+            [
+                Problem(
+                    f"{path}.on",
+                    f"at {qubits} qubits{during}: this step lists qubit {q}, so the "
+                    f"description cannot be re-sized below {lowest} qubits (it is written for "
+                    f"{own}); scan it at {own} qubits (--scan {own}), or give this step a "
+                    "placement pattern instead of listed qubits",
+                )
+            ]
+        )
     try:
         return expand(circuit, qubits=qubits, layers=layers)
     except CircuitError as exc:

@@ -1,9 +1,10 @@
 """Bundled reference circuits, addressable as ``ref:NAME`` wherever a file is accepted.
 
-``sim2019-01`` … ``sim2019-19`` are the nineteen 4-qubit circuits of Sim, Johnson &
-Aspuru-Guzik (Adv. Quantum Technol. 2, 1900070, 2019, Fig. 2), transcribed from memory
-(see ``NOTES.md`` beside this file for what could not be confirmed); the others are
-common layered designs under plain names of our own.
+``sim2019-01`` … ``sim2019-19`` are the nineteen circuits of Sim, Johnson & Aspuru-Guzik
+(Adv. Quantum Technol. 2, 1900070, 2019, Fig. 2), drawn there for 4 qubits and transcribed
+from memory (``NOTES.md`` beside this file says what is not confirmed); the others are
+common layered designs under plain names of our own. Every file is written with placement
+patterns, so every reference also exists at other qubit counts.
 """
 
 from __future__ import annotations
