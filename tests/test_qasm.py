@@ -281,6 +281,8 @@ STDGATES = {
     "crx": lambda t: controlled(u_matrix(t, -PI / 2, PI / 2)),
     "cry": lambda t: controlled(u_matrix(t, 0, 0)),
     "crz": lambda t: controlled(np.exp(-0.5j * t) * u_matrix(0, 0, t)),
+    "cp": lambda t: controlled(np.diag([1, np.exp(1j * t)])),  # ctrl @ p(λ)
+    "cphase": lambda t: controlled(u_matrix(0, 0, t)),  # ctrl @ phase(λ)
     "swap": lambda t: controlled(X) @ CX_REVERSED @ controlled(X),  # cx a,b; cx b,a; cx a,b
 }
 GLOBAL_PHASE_ONLY = {"p", "phase", "u1"}
@@ -304,15 +306,25 @@ def test_standard_names_map_to_the_same_gate(name):
             np.testing.assert_allclose(mine, spec, atol=1e-12)
 
 
+# qelib1.inc (OpenQASM 2, from memory): cu1(λ) is controlled u1(λ) = diag(1, 1, 1, e^{iλ})
+QELIB1 = {"cu1": lambda t: controlled(np.diag([1, np.exp(1j * t)]))}
+
+
 def test_every_mapped_name_is_checked():
-    assert set(STDGATES) | {"rxx", "ryy", "rzz"} == set(STANDARD_GATES)
+    assert set(STDGATES) | set(QELIB1) | {"rxx", "ryy", "rzz"} == set(STANDARD_GATES)
 
 
-def test_controlled_phase_is_not_crz_up_to_a_global_phase():
-    # cp(λ) = ctrl @ p(λ) puts e^{iλ/2} on the control's |1>: a relative phase, so not mapped
+def test_controlled_phase_is_the_native_cphase_not_crz():
+    # cp(λ) = ctrl @ p(λ) puts e^{iλ/2} on the control's |1> compared with crz(λ): a
+    # relative phase, so cp, cphase and cu1 are haarline's own gate cphase
     cp = controlled(np.diag([1, np.exp(0.8j)]))
     assert not same_up_to_phase(cp, gate_matrix("crz", 0.8))
-    assert "not supported" in error_of(HEAD + "qubit[2] q;\ncp(0.8) q[0], q[1];\n")
+    np.testing.assert_allclose(QELIB1["cu1"](0.8), gate_matrix("cphase", 0.8), atol=1e-15)
+    text = HEAD + "input angle a;\nqubit[2] q;\ncp(a) q[0], q[1];\ncu1(0.8) q[1], q[0];\n"
+    assert ops(expand(parse_qasm(text))) == [
+        ("cphase", (0, 1), 0, None),
+        ("cphase", (1, 0), None, 0.8),
+    ]
 
 
 def test_phase_gates_differ_from_rz_by_a_global_phase_only():

@@ -32,6 +32,9 @@ STANDARD_GATES: dict[str, str] = {
     "cx": "cx",
     "CX": "cx",
     **{g: g for g in ("cy", "cz", "swap", "crx", "cry", "crz", "rxx", "ryy", "rzz")},
+    "cp": "cphase",
+    "cphase": "cphase",
+    "cu1": "cphase",
 }
 """OpenQASM standard gate names and the haarline gate each becomes (see :mod:`.parse`)."""
 

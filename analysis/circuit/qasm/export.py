@@ -22,7 +22,8 @@ _DEFINITIONS = {
     "rx(-pi/2) a; rx(-pi/2) b; }",
 }
 
-_EXPORT_NAMES = {"i": "id"}
+# stdgates.inc names: cp(λ) = ctrl @ p(λ) = diag(1, 1, 1, e^{iλ}) is cphase exactly
+_EXPORT_NAMES = {"i": "id", "cphase": "cp"}
 
 _RESERVED = frozenset(
     # OpenQASM 3 keywords and types
