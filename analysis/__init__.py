@@ -14,7 +14,7 @@ Examples
 """
 
 from haarline._version import __version__
-from haarline.circuit.gates import GATES, GateSpec, gate_matrix, lookup
+from haarline.circuit.gates import GATES, GateSpec, gate_matrix, generator_matrix, lookup
 from haarline.circuit.loading import load_circuit, parse_circuit_text
 from haarline.circuit.model import MAX_QUBITS, Circuit, Step, circuit_schema, parse_circuit
 from haarline.circuit.placements import pattern_qubits, placement
@@ -226,6 +226,7 @@ __all__ = [
     "fidelity_series",
     "gate_matrix",
     "generate_algebra",
+    "generator_matrix",
     "geometric_difference",
     "growth_fit",
     "haar_bin_log_masses",

@@ -58,6 +58,8 @@ def gate(name: str, theta: float | None = None) -> np.ndarray:
         return controlled(PAULI[name[1].upper()])
     if name in ("crx", "cry", "crz"):
         return controlled(rot(name[2].upper(), theta))
+    if name == "cphase":  # controlled phase shift diag(1, 1, 1, e^{i theta}) (ch. 4.3)
+        return controlled(np.diag([1, np.exp(1j * theta)]))
     if name == "swap":
         return np.array([[1, 0, 0, 0], [0, 0, 1, 0], [0, 1, 0, 0], [0, 0, 0, 1]], dtype=complex)
     raise KeyError(name)

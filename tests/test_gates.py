@@ -3,8 +3,10 @@
 import numpy as np
 import pytest
 from haarline import GATES, gate_matrix, lookup
+from haarline.circuit.gates import generator_matrix
 from reference_sim import PAULI
 from reference_sim import gate as textbook_gate
+from scipy.linalg import expm
 
 ANGLES = [0.0, 0.3, -1.7, np.pi, 2 * np.pi - 0.01]
 
@@ -50,6 +52,52 @@ def test_rotation_generator_convention(name):
     h = 1e-6
     d = (gate_matrix(name, h) - gate_matrix(name, -h)) / (2 * h)
     np.testing.assert_allclose(d, -0.5j * g, atol=1e-8)
+
+
+def pauli_sum(terms) -> np.ndarray:
+    total = 0
+    for coefficient, string in terms:
+        g = PAULI[string[0]]
+        for letter in string[1:]:
+            g = np.kron(g, PAULI[letter])
+        total = total + coefficient * g
+    return total
+
+
+@pytest.mark.parametrize("name", [n for n, s in GATES.items() if s.takes_angle])
+def test_generator_sum_reproduces_the_textbook_gate(name):
+    # every gate with an angle is exp(-i theta G / 2) with G = generator_sum, exactly
+    # (global phase included), and G / 2 has eigenvalues one apart (the two-term shift
+    # rule) or, for the controlled rotations, 0 and +-1/2 (the four-term rule)
+    spec = GATES[name]
+    g = pauli_sum(spec.generator_sum)
+    np.testing.assert_allclose(generator_matrix(name), g, atol=0)
+    for theta in ANGLES:
+        want = textbook_gate(name, theta)
+        np.testing.assert_allclose(expm(-0.5j * theta * g), want, atol=1e-12)
+    values = np.linalg.eigvalsh(g / 2)
+    gaps = {round(abs(a - b), 9) for a in values for b in values}
+    assert gaps == ({0.0, 0.5, 1.0} if spec.target is not None else {0.0, 1.0})
+
+
+def test_generator_sum_is_empty_for_fixed_gates_only():
+    for name, spec in GATES.items():
+        assert bool(spec.generator_sum) is spec.takes_angle, name
+        assert spec.generator is None or spec.generator_sum
+
+
+def test_controlled_phase_is_symmetric_and_not_a_controlled_rotation():
+    # cphase(theta) = diag(1, 1, 1, e^{i theta}): the same with either qubit as control, and
+    # crz(theta) only up to a relative phase on the control (e^{i theta/4} rz(theta/2) on
+    # it), so no haarline product with the same unscaled angle gives it
+    theta = 0.9
+    m = gate_matrix("cphase", theta)
+    swap = gate_matrix("swap")
+    np.testing.assert_allclose(swap @ m @ swap, m, atol=0)
+    on_control = np.kron(gate_matrix("rz", theta / 2), np.eye(2))
+    np.testing.assert_allclose(
+        np.exp(0.25j * theta) * on_control @ gate_matrix("crz", theta), m, atol=1e-12
+    )
 
 
 def test_unknown_gate_lists_valid_names():

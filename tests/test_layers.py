@@ -9,7 +9,9 @@ Reads every module of the package with :mod:`ast` (imports inside functions and 
 - the core never imports ``haarline.service``;
 - the layers of the service, lowest first: ``errors`` and ``settings`` → ``jobs`` → ``api``
   → ``cli``;
-- no import cycles between modules.
+- no import cycles between modules;
+- the packages the tests use as independent references (qiskit, QuTiP, scikit-learn) are
+  never imported by the package.
 
 The same rule as import-linter's layers contract, in an AST walk of our own.
 """
@@ -200,4 +202,23 @@ def test_the_source_folder_names_are_never_imported(folder: str):
                 continue
             if {"analysis", "service"} & set(roots):
                 bad.append(f"{path.relative_to(ROOT)}:{node.lineno}")
+    assert bad == []
+
+
+# packages of the `test` extra that serve only as independent references in tests
+TEST_ONLY = {"qiskit", "qiskit_qasm3_import", "qutip", "sklearn"}
+
+
+def test_reference_packages_of_the_tests_are_never_imported_by_the_package():
+    bad = []
+    for name, path in MODULES.items():
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, ast.Import):
+                roots = [a.name.split(".")[0] for a in node.names]
+            elif isinstance(node, ast.ImportFrom) and not node.level and node.module:
+                roots = [node.module.split(".")[0]]
+            else:
+                continue
+            if TEST_ONLY & set(roots):
+                bad.append(f"{name}:{node.lineno}")
     assert bad == []

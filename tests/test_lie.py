@@ -122,9 +122,11 @@ def test_conjugation_by_every_gate_matches_dense(name):
             assert np.allclose(moved.matrix(), v.conj().T @ a.matrix() @ v)
             back = conjugate(a, name, qubits, angle, adjoint=True)
             assert np.allclose(back.matrix(), v @ a.matrix() @ v.conj().T)
-        # Clifford gates (the table's flag; rotations at a quarter turn, but not controlled
-        # ones) map each Pauli string to one signed Pauli string
-        clifford = spec.clifford or (angle == np.pi / 2 and spec.target is None)
+        # Clifford gates (the table's flag; Pauli rotations at a quarter turn, but not
+        # controlled ones, nor cphase, a controlled S there) map each Pauli string to one
+        # signed Pauli string
+        pauli_rotation = spec.generator is not None and spec.target is None
+        clifford = spec.clifford or (angle == np.pi / 2 and pauli_rotation)
         assert is_clifford(name, angle) is clifford
         if clifford:
             for s in strings(n):
@@ -406,7 +408,10 @@ def dense_generators(program):
         dg = (gate(op.gate, h) - gate(op.gate, -h)) / (2 * h)
         g = embed(2j * dg, op.qubits, n)
         out[op.param] = out.get(op.param, 0) + w.conj().T @ g @ w
-    return [out[p] for p in sorted(out)]
+    # the identity part (cphase's generator has one) only turns the global phase: the
+    # algebra is that of the traceless parts (generate_algebra ignores identity terms)
+    eye = np.eye(2**n)
+    return [out[p] - np.trace(out[p]) / 2**n * eye for p in sorted(out)]
 
 
 @pytest.mark.parametrize(
@@ -421,6 +426,16 @@ def dense_generators(program):
                 {"gate": "rx", "on": [0]},
                 {"gate": "t", "on": [0]},
                 {"gate": "cx", "on": "chain"},
+            ],
+        },
+        {
+            "qubits": 3,
+            "layers": 2,
+            "layer": [
+                {"gate": "rx"},
+                {"gate": "cphase", "on": "chain"},
+                {"gate": "h", "on": [1]},
+                {"gate": "cphase", "on": [[2, 0]], "angle": 0.4},
             ],
         },
     ],

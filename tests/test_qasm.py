@@ -14,13 +14,12 @@ import re
 import haarline
 import numpy as np
 import pytest
-from haarline import CircuitError, Operation, Program, expand, gate_matrix, parse_circuit, run
+from haarline import CircuitError, Operation, Program, expand, parse_circuit, run
 from haarline.circuit.qasm.export import to_qasm
-from haarline.circuit.qasm.parse import MAX_QASM_BYTES, STANDARD_GATES, parse_qasm
+from haarline.circuit.qasm.parse import MAX_QASM_BYTES, parse_qasm
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from reference_sim import simulate
-from scipy.linalg import sqrtm
 from test_engine import random_description
 
 HEAD = 'OPENQASM 3.0;\ninclude "stdgates.inc";\n'
@@ -195,6 +194,29 @@ SPEC_PROGRAMS = {
         ],
         (),
     ),
+    # OpenQASM 3 spec, "Built-in gates" and "Quantum gate modifiers" sections: U, gphase,
+    # ctrl @, negctrl @, inv @ and pow(k) @ (the matrices are checked in test_qasm_gates.py)
+    "modifiers": (
+        HEAD
+        + "input angle theta;\nqubit[2] q;\nU(theta, 0, pi) q[0];\ngphase(pi/4);\n"
+        + "ctrl @ x q[0], q[1];\nnegctrl @ rz(theta) q[1], q[0];\ninv @ s q[1];\n"
+        + "pow(2) @ t q[0];\nctrl @ p(theta) q[0], q[1];\nctrl @ gphase(0.5) q[1];\n",
+        2,
+        [
+            ("rz", (0,), None, PI),
+            ("ry", (0,), 0, None),
+            ("cx", (0, 1), None, None),
+            ("x", (1,), None, None),
+            ("crz", (1, 0), 0, None),
+            ("x", (1,), None, None),
+            ("sdg", (1,), None, None),
+            ("t", (0,), None, None),
+            ("t", (0,), None, None),
+            ("cphase", (0, 1), 0, None),
+            ("rz", (1,), None, 0.5),
+        ],
+        ("theta",),
+    ),
     "no version line": (
         'include "stdgates.inc";\nqubit[1] q;\nx q[0];\n',
         1,
@@ -233,136 +255,6 @@ def test_inputs_are_numbered_by_first_use_and_unused_inputs_dropped():
     program = expand(parse_qasm(text + "rx(b) q[0];\nry(a) q[0];\nrz(b) q[0];\n"))
     assert program.parameter_names == ("b", "a")
     assert [op.param for op in program.operations] == [0, 1, 0]
-
-
-# ----------------------------------------------------------------- gate conventions
-
-
-def u_matrix(theta: float, phi: float, lam: float) -> np.ndarray:
-    """U(θ, φ, λ) as the OpenQASM 3 spec's "Built-in gates" section defines it (from memory)."""
-    c, s = np.cos(theta / 2), np.sin(theta / 2)
-    return np.array(
-        [[c, -np.exp(1j * lam) * s], [np.exp(1j * phi) * s, np.exp(1j * (phi + lam)) * c]]
-    )
-
-
-def controlled(u: np.ndarray) -> np.ndarray:
-    out = np.eye(4, dtype=complex)
-    out[2:, 2:] = u
-    return out
-
-
-X = u_matrix(PI, 0, PI)
-# cx with the second qubit as control, in the basis |b_first b_second>: |a b> -> |a^b, b>
-CX_REVERSED = np.eye(4)[:, [0, 3, 2, 1]]
-# stdgates.inc as given in the OpenQASM 3 spec, "Standard library" section (from memory):
-# each gate's matrix built from its definition in terms of U, gphase, ctrl @ and pow(1/2) @.
-STDGATES = {
-    "id": lambda t: u_matrix(0, 0, 0),
-    "x": lambda t: X,
-    "y": lambda t: u_matrix(PI, PI / 2, PI / 2),
-    "z": lambda t: np.diag([1, np.exp(1j * PI)]),  # p(π)
-    "h": lambda t: u_matrix(PI / 2, 0, PI),
-    "s": lambda t: sqrtm(np.diag([1, -1]).astype(complex)),  # pow(1/2) @ z
-    "sdg": lambda t: np.linalg.inv(sqrtm(np.diag([1, -1]).astype(complex))),
-    "t": lambda t: sqrtm(sqrtm(np.diag([1, -1]).astype(complex))),  # pow(1/2) @ s
-    "tdg": lambda t: np.linalg.inv(sqrtm(sqrtm(np.diag([1, -1]).astype(complex)))),
-    "sx": lambda t: sqrtm(X),  # pow(1/2) @ x
-    "rx": lambda t: u_matrix(t, -PI / 2, PI / 2),
-    "ry": lambda t: u_matrix(t, 0, 0),
-    "rz": lambda t: np.exp(-0.5j * t) * u_matrix(0, 0, t),  # gphase(-λ/2); U(0, 0, λ)
-    "p": lambda t: np.diag([1, np.exp(1j * t)]),  # ctrl @ gphase(λ)
-    "phase": lambda t: u_matrix(0, 0, t),
-    "u1": lambda t: u_matrix(0, 0, t),
-    "cx": lambda t: controlled(X),
-    "CX": lambda t: controlled(u_matrix(PI, 0, PI)),
-    "cy": lambda t: controlled(u_matrix(PI, PI / 2, PI / 2)),
-    "cz": lambda t: controlled(np.diag([1, -1])),
-    "crx": lambda t: controlled(u_matrix(t, -PI / 2, PI / 2)),
-    "cry": lambda t: controlled(u_matrix(t, 0, 0)),
-    "crz": lambda t: controlled(np.exp(-0.5j * t) * u_matrix(0, 0, t)),
-    "swap": lambda t: controlled(X) @ CX_REVERSED @ controlled(X),  # cx a,b; cx b,a; cx a,b
-}
-GLOBAL_PHASE_ONLY = {"p", "phase", "u1"}
-
-
-def same_up_to_phase(a: np.ndarray, b: np.ndarray) -> bool:
-    return bool(abs(abs(np.trace(a.conj().T @ b)) - a.shape[0]) < 1e-9)
-
-
-@pytest.mark.parametrize("name", sorted(STDGATES))
-def test_standard_names_map_to_the_same_gate(name):
-    ours = STANDARD_GATES[name]
-    for theta in (0.3, -1.9, 2.8):
-        spec = STDGATES[name](theta)
-        mine = gate_matrix(ours, theta)
-        if name in GLOBAL_PHASE_ONLY:
-            # diag(1, e^{iλ}) = e^{iλ/2} rz(λ): equal up to a global phase, not exactly
-            assert same_up_to_phase(spec, mine)
-            assert not np.allclose(spec, mine)
-        else:
-            np.testing.assert_allclose(mine, spec, atol=1e-12)
-
-
-def test_every_mapped_name_is_checked():
-    assert set(STDGATES) | {"rxx", "ryy", "rzz"} == set(STANDARD_GATES)
-
-
-def test_controlled_phase_is_not_crz_up_to_a_global_phase():
-    # cp(λ) = ctrl @ p(λ) puts e^{iλ/2} on the control's |1>: a relative phase, so not mapped
-    cp = controlled(np.diag([1, np.exp(0.8j)]))
-    assert not same_up_to_phase(cp, gate_matrix("crz", 0.8))
-    assert "not supported" in error_of(HEAD + "qubit[2] q;\ncp(0.8) q[0], q[1];\n")
-
-
-def test_phase_gates_differ_from_rz_by_a_global_phase_only():
-    circuit = parse_qasm(HEAD + "qubit[2] q;\nh q;\np(0.4) q[0];\nphase(1.1) q[1];\nu1(-2) q[0];\n")
-    state = run(expand(circuit), np.zeros((1, 0)))[0]
-    phase = np.diag([1, np.exp(0.4j)])
-    want = np.kron(np.diag([1, np.exp(-2j)]) @ phase, np.diag([1, np.exp(1.1j)]))
-    want = want @ np.full(4, 0.5)
-    assert abs(abs(np.vdot(want, state)) - 1) < 1e-12
-
-
-@pytest.mark.parametrize("gate", ["rxx", "ryy", "rzz"])
-def test_exported_definitions_of_two_qubit_rotations_are_exact(gate):
-    # to_qasm defines rxx/ryy/rzz from stdgates gates; renamed, the body is inlined, and its
-    # state must equal the textbook exp(-iθ P⊗P/2) exactly (not only up to a phase)
-    text = to_qasm(expand(parse_circuit({"qubits": 2, "layer": [{"gate": gate, "on": "chain"}]})))
-    definition = next(line for line in text.splitlines() if line.startswith(f"gate {gate}("))
-    renamed = definition.replace(f"gate {gate}(", "gate body(")
-    program = expand(
-        parse_qasm(HEAD + renamed + "\ninput angle t;\nqubit[2] q;\nh q[0];\nbody(t) q[0], q[1];\n")
-    )
-    want = hand_program(2, [("h", (0,), None, None), (gate, (0, 1), 0, None)])
-    for theta in (0.4, 2.2, -3.0):
-        state = run(program, np.array([[theta]]))[0]
-        np.testing.assert_allclose(state, simulate(want, np.array([theta])), atol=1e-12)
-
-
-def test_definition_with_a_standard_name_becomes_that_gate_only_if_it_agrees():
-    same = "gate rzz(t) a, b { cx a, b; rz(t) b; cx a, b; }\n"
-    # cx, u1(t), cx is diag(1, e^{it}, e^{it}, 1) = e^{it/2} rzz(t): a global phase away
-    phased = "gate rzz(t) a, b { cx a, b; u1(t) b; cx a, b; }\n"
-    other = "gate rzz(t) a, b { rz(t) a; }\n"
-    use = "input angle t;\nqubit[2] q;\nrzz(t) q[0], q[1];\n"
-    assert ops(expand(parse_qasm(HEAD + same + use))) == [("rzz", (0, 1), 0, None)]
-    assert ops(expand(parse_qasm(HEAD + phased + use))) == [("rzz", (0, 1), 0, None)]
-    assert ops(expand(parse_qasm(HEAD + other + use))) == [("rz", (0,), 0, None)]
-    # the same rule for the fixed gates: H Z H = X exactly, so x stays x; Z is not S
-    agrees = HEAD + "gate x a { h a; z a; h a; }\nqubit q;\nx q;\n"
-    assert ops(expand(parse_qasm(agrees))) == [("x", (0,), None, None)]
-    differs = HEAD + "gate s a { z a; }\nqubit q;\ns q;\n"
-    assert ops(expand(parse_qasm(differs))) == [("z", (0,), None, None)]
-    # without the include there are no standard gates to define anything from
-    alone = "OPENQASM 3.0;\ngate x a { y a; }\nqubit q;\nx q;\n"
-    assert "line 2, column 12: gate 'y' is not defined; add 'include" in error_of(alone)
-
-
-def test_gate_bodies_are_bound_when_defined():
-    # h inside g means the standard h; the later definition of h (calling g) cannot recurse
-    text = HEAD + "qubit[1] q;\ngate g a { h a; }\ngate h a { g a; }\nh q[0];\ng q[0];\n"
-    assert ops(expand(parse_qasm(text))) == [("h", (0,), None, None)] * 2
 
 
 # ----------------------------------------------------------------- round trips
@@ -538,16 +430,38 @@ REJECTED = [
     (Q2 + "defcal x $0 { }\n", "line 4, column 1: 'defcal' (pulse-level calibration)"),
     (Q2 + "delay[100ns] q[0];\n", "line 4, column 1: 'delay' is not supported"),
     (Q2 + "box { x q[0]; }\n", "line 4, column 1: 'box' is not supported"),
-    (Q2 + "gphase(0.5);\n", "line 4, column 1: 'gphase' is not supported"),
-    (Q2 + "ctrl @ x q[0], q[1];\n", "line 4, column 1: the gate modifier 'ctrl @'"),
-    (Q2 + "negctrl @ x q[0], q[1];\n", "line 4, column 1: the gate modifier 'negctrl @'"),
-    (Q2 + "inv @ s q[0];\n", "line 4, column 1: the gate modifier 'inv @'"),
-    (Q2 + "pow(2) @ x q[0];\n", "line 4, column 1: the gate modifier 'pow @'"),
+    # gate modifiers: one control on a one-qubit gate, integer powers, no scaled inputs
+    (
+        Q2 + "ctrl @ cx q[0], q[1];\n",
+        "line 4, column 1: gate 'cx' with 'ctrl @' acts on 3 qubits; haarline reads gates on "
+        "one or two qubits, so 'ctrl @' and 'negctrl @' take one control on a one-qubit gate",
+    ),
+    (Q2 + "ctrl(2) @ x q[0], q[1];\n", "line 4, column 1: gate 'x' with 'ctrl @' acts on 3"),
+    (Q2 + "negctrl @ ctrl @ h q[0], q[1];\n", "gate 'h' with 'negctrl @ ctrl @' acts on 3"),
+    (Q2 + "ctrl @ x q[0];\n", "line 4, column 1: gate 'x' with 'ctrl @' acts on 2 qubits, got 1"),
+    (Q2 + "ctrl @ gphase(1) q[0], q[1];\n", "gate 'gphase' with 'ctrl @' acts on 1 qubit, got 2"),
+    (Q2 + "ctrl(0) @ x q[0];\n", "line 4, column 1: 'ctrl(0) @' needs at least one control"),
+    (
+        Q2 + "pow(1/2) @ x q[0];\n",
+        "line 4, column 1: 'pow(0.5) @' is not supported: only integer powers are read (a "
+        "fractional power of a gate is not a product of haarline gates in general)",
+    ),
+    (Q2 + "inv @ pow(2.5) @ s q[0];\n", "line 4, column 7: 'pow(2.5) @' is not supported"),
+    (Q2 + "pow(10000) @ x q[0];\n", "line 4, column 1: the program applies more than 1000"),
     (Q2 + "rx(0.5)[20ns] q[0];\n", "line 4, column 1: gate durations are not supported"),
     (Q2 + "qubit[2] r;\n", "line 4, column 1: a second qubit register 'r'"),
-    (Q2 + "u3(0.1, 0.2, 0.3) q[0];\n", "line 4, column 1: gate 'u3' is not supported"),
-    (Q2 + "U(0.1, 0.2, 0.3) q[0];\n", "line 4, column 1: gate 'U' is not supported"),
-    (Q2 + "ccx q[0], q[1], q[0];\n", "line 4, column 1: gate 'ccx' is not supported"),
+    (Q2 + "u4(0.1, 0.2, 0.3) q[0];\n", "line 4, column 1: gate 'u4' is not supported"),
+    (
+        Q2 + "ccx q[0], q[1], q[0];\n",
+        "line 4, column 1: gate 'ccx' acts on three or more qubits; haarline reads gates on one "
+        "or two qubits (a 'gate' definition of it from one- and two-qubit gates is read)",
+    ),
+    (Q2 + "cswap q[0], q[1], q[0];\n", "line 4, column 1: gate 'cswap' acts on three or more"),
+    (
+        Q2 + "cu3(0.1, 0.2, 0.3) q[0], q[1];\n",
+        "line 4, column 1: gate 'cu3' is read only with its 'gate' definition in the program: "
+        "the published qelib1.inc versions differ by a phase on the control",
+    ),
     (Q2 + "input int n;\n", "line 4, column 1: input of type int is not supported"),
     (Q2 + "input bit b;\n", "line 4, column 1: input of type bit is not supported"),
     (Q2 + "input angle[64] θ;\n", "line 4, column 1: the input name 'θ' cannot be"),
@@ -586,11 +500,10 @@ REJECTED = [
     (Q2 + "for int i in [0:1] { measure q[i]; }\n", "line 4, column 22: measurement is not"),
     (Q2 + 'include "mylib.inc";\n', 'line 4, column 1: include "mylib.inc" is not supported'),
     (Q2 + "gate g a { reset a; }\n", "line 4, column 12: cannot have a non-unitary 'reset'"),
-    (Q2 + "gate g a { gphase(1); }\n", "line 4, column 12: 'gphase' is not supported"),
     (Q2 + "gate g a { for int i in [0:1] { } }\n", "line 4, column 12: only gate calls and"),
     (Q2 + "gate g a { h q[0]; }\n", "line 4, column 14: inside gate 'g', gates act on its"),
-    (Q2 + "gate g a { ctrl @ x a; }\n", "line 4, column 12: the gate modifier 'ctrl @'"),
-    (Q2 + "gate g a { u3(0, 0, 0) a; }\n", "line 4, column 12: gate 'u3' is not supported"),
+    (Q2 + "gate g a { ctrl @ x a; }\n", "line 4, column 12: gate 'x' with 'ctrl @' acts on 2"),
+    (Q2 + "gate g a { ccx a, a, a; }\n", "line 4, column 12: gate 'ccx' acts on three or more"),
     (Q2 + "gate g a { g a; }\n", "line 4, column 12: gate 'g' is not supported"),
     (Q2 + "gate g a { x a; }\ngate g b { y b; }\n", "line 5, column 1: gate 'g' is defined twice"),
     (Q2 + "gate g(a) b { rx(a/0) b; }\ng(1) q[0];\n", "line 4, column 18: division by zero"),
@@ -604,6 +517,20 @@ REJECTED = [
     (Q2T + "rx(theta * phi) q[0];\n", "line 6, column 4: the product (theta) * (phi)"),
     (Q2T + "rx(1 / theta) q[0];\n", "line 6, column 4: dividing by or raising to an input"),
     (Q2T + "x q[theta];\n", "line 6, column 5: 'theta' is not an integer"),
+    (Q2T + "pow(theta) @ x q[0];\n", "line 6, column 1: the exponent of 'pow(theta) @' must be"),
+    (
+        Q2T + "inv @ rx(theta) q[0];\n",
+        "line 6, column 1: the angle -theta cannot be represented (after 'inv @'): a haarline "
+        "step takes a number or one input exactly as declared, not a scaled or shifted input",
+    ),
+    (Q2T + "pow(-1) @ rz(theta) q[0];\n", "-theta cannot be represented (after 'pow(-1) @')"),
+    (Q2T + "U(2*theta, 0, 0) q[0];\n", "line 6, column 1: the angle 2*theta cannot be"),
+    # the general rotation r(θ, φ) as a common exporter defines it: shifted inputs
+    (
+        Q2T + "gate r(a, b) x { U(a, -pi/2 + b, pi/2 - b) x; }\nr(theta, phi) q[0];\n",
+        "line 6, column 18: the angle -phi + 1.5707963267948966 cannot be represented (in gate "
+        "'r' applied at line 7, column 1)",
+    ),
     (
         Q2T + "gate half(a) b { ry(a/2) b; }\nhalf(theta) q[1];\n",
         "line 6, column 18: the angle 0.5*theta cannot be represented (in gate 'half' applied "
@@ -687,6 +614,7 @@ TOKENS = (
     'OPENQASM 3.0;|OPENQASM 2.0;|include|"stdgates.inc"|qubit|qreg|creg|bit|[|]|q|r|2|0|1|-1|'
     "99999999999999|h|x|cx|rx|rzz|U|u3|p|(|)|pi|π|theta|input|output|angle|float|int|uint|for|"
     "in|:|{|}|,|;|gate|g|a|b|-|+|*|/|**|%|<|measure|reset|->|=|barrier|ctrl|inv|@|$0|1e999|"
+    "negctrl|pow|ctrl(2)|pow(-1)|pow(0.5)|cu|ch|cp|sxdg|u2|"
     '0.5|if|while|def|let|const|delay|box|gphase|defcal|cal|pragma|end|return|\n|// c|"|#'
 ).split("|")
 

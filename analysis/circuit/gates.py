@@ -9,7 +9,13 @@ a gate (the tests loop over every row).
 Conventions
 -----------
 Rotations are ``exp(-i θ G / 2)`` with ``G`` the Pauli string in ``generator``:
-``rx(θ) = exp(-i θ X / 2)``, ``rzz(θ) = exp(-i θ Z⊗Z / 2)``. Two-qubit matrices are
+``rx(θ) = exp(-i θ X / 2)``, ``rzz(θ) = exp(-i θ Z⊗Z / 2)``. Every gate with an angle
+also gives ``G`` as a sum of Pauli strings in ``generator_sum``; for ``cphase``, the one
+gate whose ``G`` is not a single Pauli string, that sum is all there is:
+``cphase(θ) = diag(1, 1, 1, e^{iθ}) = exp(iθ |11⟩⟨11|)``, so
+``G = -2 |11⟩⟨11| = (-II + IZ + ZI - ZZ) / 2`` (with ``|1⟩⟨1| = (I - Z) / 2``; its
+eigenvalues are 0 and -2, so ``G / 2`` has two eigenvalues one apart, as a Pauli
+string's ±1/2 are). Two-qubit matrices are
 written in the basis ``|b_first b_second⟩`` of the qubits in the order the step lists
 them (index ``2 b_first + b_second``); for controlled gates the first qubit is the
 control, and the one-qubit gate ``target`` acts on the second when the control is |1⟩.
@@ -19,11 +25,12 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import cache
 
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["ALIASES", "GATES", "GateSpec", "gate_matrix", "lookup"]
+__all__ = ["ALIASES", "GATES", "GateSpec", "gate_matrix", "generator_matrix", "lookup"]
 
 Matrix = NDArray[np.complex128]
 
@@ -72,6 +79,15 @@ def _constant(m: Matrix) -> Callable[[NDArray[np.float64]], Matrix]:
     return matrix
 
 
+def _phase_on_11(theta: NDArray[np.float64]) -> Matrix:
+    """θ ↦ diag(1, 1, 1, e^{iθ}), batched over θ."""
+    angle: NDArray[np.float64] = np.asarray(theta, dtype=float)
+    m: Matrix = np.zeros((*angle.shape, 4, 4), dtype=complex)
+    m[..., 0, 0] = m[..., 1, 1] = m[..., 2, 2] = 1.0
+    m[..., 3, 3] = np.exp(1j * angle)
+    return m
+
+
 def _controlled(one: Callable[[NDArray[np.float64]], Matrix]) -> Callable[..., Matrix]:
     def matrix(theta: NDArray[np.float64]) -> Matrix:
         u = one(theta)
@@ -102,8 +118,15 @@ class GateSpec:
         For controlled gates, the one-qubit gate applied to the second qubit when the
         first is |1⟩; ``None`` otherwise.
     generator : str or None
-        For rotations, the Pauli string ``G`` with gate ``exp(-i θ G / 2)`` (on the target
-        for controlled rotations).
+        For Pauli rotations, the Pauli string ``G`` with gate ``exp(-i θ G / 2)`` (on the
+        target for controlled rotations); ``None`` for fixed gates and for ``cphase``,
+        whose ``G`` is not one Pauli string.
+    generator_sum : tuple of (float, str)
+        For every gate with an angle, ``G`` as real coefficients of Pauli strings on the
+        gate's qubits (first qubit leftmost): ``((1.0, "X"),)`` for ``rx``,
+        ``((0.5, "IX"), (-0.5, "ZX"))`` for ``crx`` (``|1⟩⟨1| ⊗ X``); empty for fixed
+        gates. Adjoint differentiation (where ``generator`` is ``None``) and the Lie
+        algebra read it.
     clifford : bool
         Whether the fixed gate is a Clifford gate (maps Pauli strings to Pauli strings).
     matrix : callable
@@ -119,6 +142,7 @@ class GateSpec:
     diagonal: bool
     target: str | None
     generator: str | None
+    generator_sum: tuple[tuple[float, str], ...]
     clifford: bool
     matrix: Callable[[NDArray[np.float64]], Matrix]
     summary: str
@@ -147,6 +171,7 @@ def _build() -> dict[str, GateSpec]:
             diagonal=bool(np.allclose(arr, np.diag(np.diag(arr)))),
             target=None,
             generator=None,
+            generator_sum=(),
             clifford=name not in ("t", "tdg"),
             matrix=_constant(arr),
             summary=summaries[name],
@@ -159,6 +184,7 @@ def _build() -> dict[str, GateSpec]:
             diagonal=axis == "z",
             target=None,
             generator=axis.upper(),
+            generator_sum=((1.0, axis.upper()),),
             clifford=False,
             matrix=_rotation(axis.upper()),
             summary=f"rotation exp(-iθ{axis.upper()}/2)",
@@ -172,6 +198,7 @@ def _build() -> dict[str, GateSpec]:
             diagonal=one.diagonal,
             target=base,
             generator=None,
+            generator_sum=(),
             clifford=True,
             matrix=_controlled(one.matrix),
             summary=f"controlled {base.upper()} (first qubit controls)",
@@ -184,6 +211,7 @@ def _build() -> dict[str, GateSpec]:
         diagonal=False,
         target=None,
         generator=None,
+        generator_sum=(),
         clifford=True,
         matrix=_constant(swap),
         summary="exchange of two qubits",
@@ -197,6 +225,7 @@ def _build() -> dict[str, GateSpec]:
             diagonal=one.diagonal,
             target=f"r{axis}",
             generator=axis.upper(),
+            generator_sum=((0.5, "I" + axis.upper()), (-0.5, "Z" + axis.upper())),
             clifford=False,
             matrix=_controlled(one.matrix),
             summary=f"controlled rotation exp(-iθ{axis.upper()}/2) on the second qubit",
@@ -210,10 +239,23 @@ def _build() -> dict[str, GateSpec]:
             diagonal=axis == "z",
             target=None,
             generator=p + p,
+            generator_sum=((1.0, p + p),),
             clifford=False,
             matrix=_rotation(p + p),
             summary=f"two-qubit rotation exp(-iθ{p}⊗{p}/2)",
         )
+    table["cphase"] = GateSpec(
+        name="cphase",
+        qubits=2,
+        takes_angle=True,
+        diagonal=True,
+        target=None,
+        generator=None,
+        generator_sum=((-0.5, "II"), (0.5, "IZ"), (0.5, "ZI"), (-0.5, "ZZ")),
+        clifford=False,
+        matrix=_phase_on_11,
+        summary="controlled phase diag(1, 1, 1, e^{iθ}) (the same for either qubit as control)",
+    )
     return table
 
 
@@ -255,3 +297,29 @@ def gate_matrix(name: str, theta: float = 0.0) -> Matrix:
     """
     m: Matrix = lookup(name).matrix(np.array([theta]))[0]
     return m
+
+
+@cache
+def generator_matrix(name: str) -> Matrix:
+    """Return the generator ``G`` of a gate with an angle as a dense matrix.
+
+    Built from the row's ``generator_sum``, in the basis of the gate's qubits (first
+    qubit leftmost). Cached; do not modify the result.
+
+    Examples
+    --------
+    >>> generator_matrix("cphase").real.diagonal().tolist()
+    [0.0, 0.0, 0.0, -2.0]
+    """
+    spec = lookup(name)
+    if not spec.generator_sum:
+        raise ValueError(f"gate {name!r} has no angle, so no generator")
+    d = 1 << spec.qubits
+    g: Matrix = np.zeros((d, d), dtype=complex)
+    for coefficient, string in spec.generator_sum:
+        term = _PAULI[string[0]]
+        for letter in string[1:]:
+            term = np.kron(term, _PAULI[letter])
+        g += coefficient * term
+    g.setflags(write=False)
+    return g

@@ -84,7 +84,7 @@ RENAMED_PATTERNS = {"pairs": "all-to-all"}
 GateName = Literal[
     "i", "h", "x", "y", "z", "s", "sdg", "t", "tdg", "sx",
     "cx", "cnot", "cy", "cz", "swap",
-    "rx", "ry", "rz", "crx", "cry", "crz", "rxx", "ryy", "rzz",
+    "rx", "ry", "rz", "crx", "cry", "crz", "rxx", "ryy", "rzz", "cphase",
 ]  # fmt: skip
 
 _ON_SCHEMA: dict[str, Any] = {

@@ -33,7 +33,7 @@ import threading
 from typing import Any
 
 import numpy as np
-from haarline.circuit.gates import lookup
+from haarline.circuit.gates import generator_matrix, lookup
 from haarline.circuit.program import Program
 from haarline.engine._fusion import build_schedule
 from haarline.engine._records import Complexes, Plan, PlanStep, Schedule
@@ -296,11 +296,17 @@ def apply_generator(states: Complexes, n: int, step: PlanStep) -> None:
     """Multiply a batch in place by the generator ``G`` of a rotation step.
 
     A rotation is ``exp(-i θ G / 2)``; for a controlled rotation ``G = |1⟩⟨1|_c ⊗ P_t``,
-    so the half of the batch where the control is |0⟩ is set to zero.
+    so the half of the batch where the control is |0⟩ is set to zero. A gate whose ``G``
+    is not one Pauli string (``cphase``) is multiplied by the dense ``G`` of its
+    ``generator_sum``, as a gate matrix is applied.
     """
     spec = step.spec
     if spec.generator is None:
-        raise ValueError(f"gate {spec.name} has no generator")
+        if not spec.generator_sum:
+            raise ValueError(f"gate {spec.name} has no generator")
+        g = generator_matrix(spec.name).astype(states.dtype.type)
+        _apply_matrix(states, n, step, g)
+        return
     if spec.target is None:
         apply_pauli(states, n, spec.generator, step.qubits)
         return

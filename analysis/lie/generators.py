@@ -1,7 +1,8 @@
 """The Hermitian generators of a circuit, with its fixed gates moved out of the way.
 
 A rotation ``exp(-iθG/2)`` has generator ``G``: the gate table's Pauli string for
-``rx … rzz``, and ``|1⟩⟨1|_c ⊗ P_t = (P_t - Z_c P_t)/2`` for the controlled rotations.
+``rx … rzz``, ``|1⟩⟨1|_c ⊗ P_t = (P_t - Z_c P_t)/2`` for the controlled rotations and
+``-2|11⟩⟨11| = (-II + IZ + ZI - ZZ)/2`` for ``cphase`` (the table's ``generator_sum``).
 
 Fixed gates (and fixed-angle rotations) before the first parameterized gate prepare the
 input state ``|ψ_in⟩ = W_0 |0…0⟩``. Every later fixed gate is moved to the end of the
@@ -42,24 +43,27 @@ __all__ = ["CircuitGenerators", "circuit_generators", "rotation_generator"]
 def rotation_generator(gate: str, qubits: tuple[int, ...], n: int) -> PauliExpansion:
     """Generator ``G`` of the rotation ``gate`` on ``qubits`` (gate ``exp(-iθG/2)``).
 
+    The gate table's ``generator_sum`` placed on ``qubits`` of ``n``. An identity term
+    (``cphase`` has one) is kept, so ``exp(-iθG/2)`` is the gate itself; it turns only
+    the global phase, and the closure ignores it.
+
     Examples
     --------
     >>> rotation_generator("crx", (0, 1), 2).labels()
     [(0.5, 'IX'), (-0.5, 'ZX')]
+    >>> rotation_generator("cphase", (1, 0), 2).labels()
+    [(-0.5, 'II'), (0.5, 'IZ'), (0.5, 'ZI'), (-0.5, 'ZZ')]
     """
     spec = lookup(gate)
-    if spec.generator is None:
+    if not spec.generator_sum:
         raise ValueError(f"gate {gate!r} has no generator")
-    letters = ["I"] * n
-    if spec.target is None:
-        for q, letter in zip(qubits, spec.generator, strict=True):
+    terms = []
+    for coefficient, string in spec.generator_sum:
+        letters = ["I"] * n
+        for q, letter in zip(qubits, string, strict=True):
             letters[q] = letter
-        return PauliExpansion.from_labels([(1.0, "".join(letters))], n)
-    control, target = qubits
-    letters[target] = spec.generator
-    plain = "".join(letters)
-    letters[control] = "Z"
-    return PauliExpansion.from_labels([(0.5, plain), (-0.5, "".join(letters))], n)
+        terms.append((coefficient, "".join(letters)))
+    return PauliExpansion.from_labels(terms, n)
 
 
 @dataclass(frozen=True, eq=False, kw_only=True)

@@ -9,7 +9,9 @@ sum of their contributions; fixed-angle gates contribute nothing.
 
 :func:`shift_gradients` evaluates the parameter-shift rules and serves as a cross-check:
 the two-term rule ``[C(θ+π/2) - C(θ-π/2)]/2`` for rotations whose generator has
-eigenvalues ±1 (rx … rzz), and the four-term rule of Anselmetti et al. (New J. Phys. 23,
+eigenvalues ±1 (rx … rzz) or, like ``cphase``'s ``-2|11⟩⟨11|``, two eigenvalues 2 apart
+(``G + I`` has eigenvalues ±1, and the identity part is a global phase that no cost
+sees), and the four-term rule of Anselmetti et al. (New J. Phys. 23,
 113010, 2021) for controlled rotations, whose generator ``|1⟩⟨1| ⊗ P`` has eigenvalues
 {-1, 0, 1}: ``d₁[C(θ+π/2) - C(θ-π/2)] - d₂[C(θ+3π/2) - C(θ-3π/2)]`` with
 ``d₁ = (√2+1)/(4√2)``, ``d₂ = (√2-1)/(4√2)``. It costs two or four circuit runs per gate.
@@ -166,7 +168,7 @@ def shift_gradients(
     for k, step in enumerate(plan.steps):
         if step.param is None:
             continue
-        if step.spec.target is None:
+        if step.spec.target is None:  # G/2 has two eigenvalues, one apart
             g = 0.5 * (c(k, np.pi / 2) - c(k, -np.pi / 2))
         else:
             g = _D1 * (c(k, np.pi / 2) - c(k, -np.pi / 2)) - _D2 * (

@@ -88,7 +88,7 @@ def _differences(gate: str, scale: float) -> set[float]:
     s = abs(scale)
     if spec.target is not None:  # controlled rotation: eigenvalues 0, 0, ±s/2
         return {0.0, s / 2, -s / 2, s, -s}
-    return {0.0, s, -s}
+    return {0.0, s, -s}  # G/2 has two eigenvalues one apart (±1/2; 0 and -1 for cphase)
 
 
 def feature_frequencies(

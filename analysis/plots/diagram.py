@@ -44,7 +44,7 @@ def _key(lay: dict[str, Any]) -> str:
         words.append("blue boxes are rotations" + (f" ({', '.join(says)})" if says else ""))
     if any(sp.qubits == 1 and not sp.takes_angle for sp in specs.values()) or "cy" in specs:
         words.append("orange boxes fixed gates")
-    if any(sp.target is not None for sp in specs.values()) or "cz" in specs:
+    if any(sp.target is not None for sp in specs.values()) or {"cz", "cphase"} & set(specs):
         words.append("● marks a control" + (", ⊕ the target of cx" if "cx" in specs else ""))
     if "swap" in specs:
         words.append("× on both wires a swap")

@@ -39,7 +39,6 @@ REJECTED: dict[type, str] = {
     ast.CalibrationGrammarDeclaration: "'defcalgrammar' (pulse-level calibration) is not supported",
     ast.DelayInstruction: "'delay' is not supported (timing)",
     ast.Box: "'box' is not supported (timing)",
-    ast.QuantumPhase: "'gphase' is not supported (global phase instructions)",
     ast.Pragma: "pragmas are not supported",
     ast.Include: "'include' is allowed only at the top of the program",
     ast.QubitDeclaration: "qubit declarations are allowed only at the top level",

@@ -1,10 +1,10 @@
 """The walk over one OpenQASM program's statements that collects format-1 steps.
 
 :class:`Reader` handles the top-level declarations (include, the one qubit register,
-inputs), runs gate calls, barriers and ``for`` loops, bounds the work, and turns each gate
-application into a format-1 step (``on`` explicit, ``angle`` or ``param``). What a gate
-name means is :mod:`haarline.circuit.qasm._gates`; the entry point and the supported subset are
-:mod:`haarline.circuit.qasm.parse`.
+inputs), runs gate calls, ``gphase``, barriers and ``for`` loops, bounds the work, and turns
+each haarline gate a call expands to into a format-1 step (``on`` explicit, ``angle`` or
+``param``). What a gate call means is :mod:`haarline.circuit.qasm._gates`; the entry point
+and the supported subset are :mod:`haarline.circuit.qasm.parse`.
 """
 
 from __future__ import annotations
@@ -15,7 +15,9 @@ from collections.abc import Iterable
 from typing import Any
 
 from haarline.circuit.model import MAX_QUBITS, MAX_STEPS
-from haarline.circuit.qasm._gates import Application, GateBook
+from haarline.circuit.qasm._gates import GateBook, arguments, too_many_gates
+from haarline.circuit.qasm._modifiers import lowered
+from haarline.circuit.qasm._standard import Piece
 from haarline.circuit.qasm._syntax import _CONSTANTS, Scope, _angle, _Fail, _integer, _Value
 from haarline.circuit.qasm._unsupported import TYPE_WORDS, no_annotations, reject
 from openqasm3 import ast
@@ -72,7 +74,7 @@ class Reader:
     def _run(self, statement: Any, scope: Scope) -> None:
         self._tick(statement)
         no_annotations(statement)
-        if isinstance(statement, ast.QuantumGate):
+        if isinstance(statement, (ast.QuantumGate, ast.QuantumPhase)):
             self._call(statement, scope)
         elif isinstance(statement, ast.QuantumBarrier):
             pass  # a barrier only orders gates; it does not change the state
@@ -130,12 +132,14 @@ class Reader:
             )
         self.inputs[name] = _Value.of_input(name)
 
-    def _call(self, statement: ast.QuantumGate, scope: Scope) -> None:
-        callee = self.book.checked_call(statement)
-        args = [_angle(a, scope) for a in statement.arguments]
+    def _call(self, statement: ast.QuantumGate | ast.QuantumPhase, scope: Scope) -> None:
+        call = self.book.checked_call(statement)
+        args = [_angle(a, scope) for a in arguments(statement)]
         operands = [self._operand(o, scope) for o in statement.qubits]
         targets: list[tuple[int, ...]]
-        if len(operands) == 1:
+        if call.callee is None and not call.control_count:
+            targets = [()]  # a global phase: once, whatever its operands
+        elif len(operands) == 1:
             targets = [(q,) for q in operands[0]]
         elif any(len(o) != 1 for o in operands):
             raise _Fail(
@@ -146,7 +150,8 @@ class Reader:
         else:
             targets = [tuple(o[0] for o in operands)]
         for target in targets:
-            self.book.apply(callee, args, target, statement, "", self._emit)
+            for piece in lowered(self.book.pieces(call, args, target, scope, "")):
+                self._emit(piece)
 
     def _operand(self, node: Any, scope: Scope) -> list[int]:
         if self.register is None:
@@ -175,14 +180,9 @@ class Reader:
             )
         return [i % size]
 
-    def _emit(self, app: Application) -> None:
+    def _emit(self, app: Piece) -> None:
         if len(self.steps) >= MAX_STEPS:
-            raise _Fail(
-                app.node,
-                f"the program applies more than {MAX_STEPS} gates{app.via}; haarline reads at "
-                f"most {MAX_STEPS} gate applications (format 1 allows {MAX_STEPS} steps in "
-                "'layer')",
-            )
+            raise too_many_gates(app.node, app.via)
         on: list[Any] = [app.qubits[0]] if len(app.qubits) == 1 else [list(app.qubits)]
         step: dict[str, Any] = {"gate": app.gate, "on": on}
         if app.angle is not None:

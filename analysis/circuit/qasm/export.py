@@ -1,7 +1,8 @@
 """OpenQASM 3 export: write an expanded program as an equivalent OpenQASM 3 program.
 
 The reader is :mod:`haarline.circuit.qasm.parse`; :func:`to_qasm` output always reads
-back through it into the same operations.
+back through it into the same operations, and other tools' OpenQASM 3 importers read it
+into the same states (``tests/test_qasm_interchange.py`` checks one).
 """
 
 from __future__ import annotations
@@ -22,7 +23,8 @@ _DEFINITIONS = {
     "rx(-pi/2) a; rx(-pi/2) b; }",
 }
 
-_EXPORT_NAMES = {"i": "id"}
+# stdgates.inc names: cp(λ) = ctrl @ p(λ) = diag(1, 1, 1, e^{iλ}) is cphase exactly
+_EXPORT_NAMES = {"i": "id", "cphase": "cp"}
 
 _RESERVED = frozenset(
     # OpenQASM 3 keywords and types
@@ -81,7 +83,10 @@ def to_qasm(program: Program) -> str:
         per operation. Parameter ``p`` is named ``program.parameter_names[p]`` or
         ``theta_<p>``; a name that is an OpenQASM keyword, built-in or gate name, or already
         taken, gets a suffix ``_1``, ``_2``, .... Fixed angles are written with
-        ``repr(float)``, so they read back exactly; gate ``i`` is written ``id``.
+        ``repr(float)``, so they read back exactly; gate ``i`` is written ``id`` and
+        ``cphase`` is written ``cp`` (stdgates.inc's ``cp(λ) = ctrl @ p(λ)`` is
+        ``diag(1, 1, 1, e^{iλ})``, the same matrix, global phase included, so it needs no
+        definition of its own).
 
     Notes
     -----

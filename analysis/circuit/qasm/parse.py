@@ -13,8 +13,8 @@ Supported subset
   reads OpenQASM 2.0 headers and ``qreg q[n];``; such programs are read with the same rules
   as OpenQASM 3, so only the features below are accepted from them.
 - ``include "stdgates.inc";`` (or ``"qelib1.inc"``): makes the standard gate names below
-  available (``rxx ryy rzz`` too); without it only ``CX`` (built into OpenQASM 2.0) and gates
-  defined with ``gate`` are known. No other file is read.
+  available (``rxx ryy rzz`` too); without it only ``U`` (built into OpenQASM 3), ``CX``
+  (built into OpenQASM 2.0) and gates defined with ``gate`` are known. No other file is read.
 - Exactly one qubit register: ``qubit[n] q;``, ``qreg q[n];`` or ``qubit q;`` (one qubit,
   used as ``q``). The size is an integer expression, 1..24. ``q[k]`` is haarline qubit
   ``k``, the leftmost character of a bitstring; negative indices count from the end.
@@ -25,55 +25,83 @@ Supported subset
   use; an input no gate uses is not a parameter of the circuit. Names are ASCII letters,
   digits and ``_``, at most 64 characters.
 - Gate calls ``name(angles) operands;`` on ``q[i]``; a one-qubit gate may also be applied
-  to the whole register ``q``, one application per qubit in index order.
+  to the whole register ``q``, one application per qubit in index order. ``gphase(γ);``
+  (a global phase, which changes no metric: it is read as nothing) and ``gphase(γ) q;``.
+- Gate modifiers, on any gate the program can call (standard or defined): ``inv @``;
+  ``pow(k) @`` with an integer ``k`` (``k`` copies; of the inverse when ``k < 0``);
+  ``ctrl @``, ``ctrl(1) @`` and ``negctrl @`` where the result acts on at most two qubits
+  (one control on a one-qubit gate, or two on ``gphase``), and stacks of them. The rules
+  and what each gate becomes under control are in :mod:`haarline.circuit.qasm._modifiers`.
 - Angles: integer and floating-point literals, ``pi``/``π``, ``tau``/``τ``,
   ``euler``/``ℇ``, inputs, loop variables and ``+ - * / **`` with unary minus, evaluated by
   our own small evaluator over the syntax tree (never ``eval``). A gate's angle must come
   out as a number or as one input exactly as declared: ``theta``, ``(theta)`` or
   ``theta + 0`` give ``param: theta``, but ``2*theta``, ``-theta``, ``theta + pi/2`` and
   ``theta + phi`` are rejected, because format 1 has no scaled or shifted parameters
-  (declare another input for such an angle).
+  (declare another input for such an angle). The same holds for the angles a gate is
+  decomposed into, and for ``inv @`` or ``pow(-k) @`` on a gate whose angle is an input
+  (they negate it).
 - ``for int i in [a:b]``, ``[a:step:b]`` (both ends included) or ``{a, b, ...}``, with
   integer types (``int``, ``uint``, any size), constant bounds and nesting; qubit indices
   take integer expressions of loop variables with ``+ - * %`` (e.g. ``q[i+1]``,
   ``q[(i+1) % 4]``).
 - ``barrier`` (ignored: it does not change the state).
 - ``gate name(params) qubits { ... }`` whose body holds only calls of known gates (on the
-  gate's qubit arguments) and barriers; every use is inlined. A definition whose name is
-  one of the standard names below is compared with haarline's gate (at three angles); if
-  they agree up to a global phase, its uses become that gate, otherwise the body is
-  inlined. :func:`to_qasm` writes ``rxx``, ``ryy``, ``rzz`` this way, so they read back as
-  themselves.
+  gate's qubit arguments, with modifiers if any), ``gphase`` and barriers; every use is
+  inlined (on any number of qubits: a three-qubit gate defined from one- and two-qubit
+  gates is read). A definition whose name is one of the standard names below is compared
+  with that gate (at three sets of angles); if they agree up to a global phase, its uses
+  become that gate, otherwise the body is inlined. Under ``ctrl @`` the body is always
+  used, since a global phase of the body becomes a relative phase there. :func:`to_qasm`
+  writes ``rxx``, ``ryy``, ``rzz`` this way, so they read back as themselves.
 
 Standard gate names and what they become
 ----------------------------------------
-``id``→``i``; ``h x y z s sdg t tdg sx`` and ``rx ry rz``; ``cx`` and ``CX``→``cx``;
-``cy cz swap crx cry crz``: the stdgates.inc definitions (built from ``U(θ, φ, λ)``,
-``ctrl @`` and ``pow(1/2) @``) equal haarline's matrices exactly (``rz`` there includes
-``gphase(-λ/2)``, so ``rz(λ) = exp(-iλZ/2)``). ``p``, ``phase`` and ``u1``→``rz``: their
-matrix ``diag(1, e^{iλ})`` is ``e^{iλ/2} rz(λ)``, a global phase, which no haarline metric
-can see (fidelities, purities, expectation values and the quantum Fisher information all
-ignore it). In OpenQASM 2.0's qelib1.inc ``rz`` is ``u1``, again a global phase away.
-``rxx ryy rzz`` are not in stdgates.inc; they are accepted with haarline's definition
-``exp(-iθ P⊗P/2)`` (or checked against a ``gate`` definition as above). Gates whose
-definition differs by more than a global phase are not mapped: ``cp``/``cphase``/``cu1``
-(``diag(1, 1, 1, e^{iλ})`` differs from ``crz`` by a phase on the control), and ``U``,
-``u2``, ``u3``, ``cu``, ``ch``, ``ccx``, ``cswap``, ``sxdg`` have no haarline gate.
+Each name is read as an exact product of haarline gates, ``P(λ) = diag(1, e^{iλ})`` and
+global phases (:mod:`haarline.circuit.qasm._standard` gives each product and its source:
+the OpenQASM 3 specification's built-in ``U`` and ``stdgates.inc``, and OpenQASM 2.0's
+``qelib1.inc`` for ``u``, ``cu1`` and ``sxdg``); a ``P(λ)`` left uncontrolled is written
+``rz(λ)``, equal up to the global phase ``e^{iλ/2}``, and global phases are dropped (no
+haarline metric sees one: fidelities, purities, expectation values and the quantum Fisher
+information all ignore it).
+
+- one-qubit: ``id``→``i``; ``x y z h s sdg t tdg sx rx ry rz`` are haarline's gates
+  exactly; ``p``, ``phase``, ``u1``→``rz``; ``sxdg``→``rx(-π/2)``;
+  ``U(θ, φ, λ)`` and ``u``→``rz(λ) ry(θ) rz(φ)``; ``u3`` the same; ``u2(φ, λ)``→
+  ``rz(λ) ry(π/2) rz(φ)``;
+- two-qubit: ``cx``/``CX cy cz swap crx cry crz`` are haarline's gates; ``cp``,
+  ``cphase``, ``cu1``→``cphase`` (haarline's controlled phase ``diag(1, 1, 1, e^{iλ})``:
+  it is ``crz(λ)`` with ``rz(λ/2)`` on the control, which needs a scaled parameter, so
+  haarline has it as a gate of its own); ``ch``→``ry(-π/4)`` on the target, ``cz``,
+  ``ry(π/4)``; ``cu(θ, φ, λ, γ)``→``rz(γ)`` on the control, ``cphase(λ) cry(θ)
+  cphase(φ)``; ``rxx ryy rzz`` (not in stdgates.inc) are haarline's ``exp(-iθ P⊗P/2)``.
+
+**The parameter count follows the decomposition**: each input angle of a decomposed gate
+becomes the trainable parameter of the factor that carries it, so ``U(a, b, c)`` is three
+parameters and ``cu(a, b, c, d)`` four, numbered like all inputs in order of first use in
+the program as read (``U``'s ``λ`` acts first); factors with the constant angle 0 are left
+out (``U(a, 0, 0)`` is one ``ry``), and an input used twice is one shared parameter. An
+input that only ``gphase`` uses is no parameter.
 
 Everything else is rejected with :class:`~haarline.errors.CircuitError` naming the line,
-the column and what is unsupported: measurement, reset, classical bits and variables,
-``if``, ``while``, ``switch``, subroutines, ``defcal``/``cal``, ``delay``, ``box``,
-``gphase``, gate modifiers (``ctrl @``, ``inv @``, ...), durations, pragmas, annotations,
-more than one register, physical qubits ``$0``, slices, unknown gates and inputs of other
-types. Syntax errors from the parser are reported the same way. At most 1000 gate
-applications are read (format 1 allows 1000 steps in ``layer``), and at most 256 KiB of
-text (the parser reads roughly 2000 lines a second).
+the column and why: measurement, reset, classical bits and variables, ``if``, ``while``,
+``switch``, subroutines, ``defcal``/``cal``, ``delay``, ``box``, durations, pragmas,
+annotations, more than one register, physical qubits ``$0``, slices, unknown gates and
+inputs of other types; gates on three or more qubits (``ccx``, ``cswap``, ``ctrl @`` on a
+two-qubit gate, ``ctrl(2) @ x``) unless defined from smaller gates; ``pow(k) @`` with a
+non-integer ``k``; ``cu3`` without its definition (the published ``qelib1.inc`` versions
+differ by a phase on the control); and scaled or shifted inputs. Syntax errors from the
+parser are reported the same way. At most 1000 gate applications are read (format 1
+allows 1000 steps in ``layer``), and at most 256 KiB of text (the parser reads roughly
+2000 lines a second).
 
 Where the reading is done
 -------------------------
 :mod:`haarline.circuit.qasm._syntax` parses the text and evaluates angle and index expressions;
 :mod:`haarline.circuit.qasm._walk` walks the statements and collects the steps;
-:mod:`haarline.circuit.qasm._gates` resolves gate names and ``gate`` definitions;
+:mod:`haarline.circuit.qasm._gates` resolves gate calls and ``gate`` definitions;
+:mod:`haarline.circuit.qasm._standard` holds the standard gates as exact products;
+:mod:`haarline.circuit.qasm._modifiers` applies the gate modifiers;
 :mod:`haarline.circuit.qasm._unsupported` holds the message for each rejected feature.
 """
 
@@ -83,7 +111,7 @@ import re
 from pathlib import PurePath
 
 from haarline.circuit.model import Circuit, parse_circuit
-from haarline.circuit.qasm._gates import STANDARD_GATES
+from haarline.circuit.qasm._standard import STANDARD_GATES
 from haarline.circuit.qasm._syntax import _Fail, _problem, _syntax_tree, _where
 from haarline.circuit.qasm._walk import Reader
 from haarline.circuit.text import bounded_text

@@ -63,8 +63,9 @@ def _compute(request: Request) -> Section:
 def _as_sums(program: Program) -> bool:
     """Whether the closure works on Pauli sums (the slow case), read off the gate names.
 
-    Controlled rotations have two-string generators, non-Clifford fixed gates conjugate
-    later generators into sums, and a shared parameter's generator is a sum.
+    Controlled rotations and cphase have generators of several Pauli strings, non-Clifford
+    fixed gates conjugate later generators into sums, and a shared parameter's generator
+    is a sum.
     """
     used: set[int] = set()
     for op in program.operations:
