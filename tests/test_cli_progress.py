@@ -49,3 +49,39 @@ def test_nothing_is_drawn_when_stderr_is_not_a_terminal():
     time.sleep(0.05)
     bar.close()
     assert stream.getvalue() == ""
+
+
+def test_a_description_with_three_mistakes_yields_three_lines(tmp_path, capsys):
+    bad = tmp_path / "three.json"
+    bad.write_text(
+        '{"qubits": 3, "inputs": 1, "layer": [{"gate": "h", "angle": 1.0},'
+        ' {"gate": "cz", "on": [[0, 5]]}, {"gate": "rx", "input": 4}, {"gate": "ry"}]}'
+    )
+    assert cli.main(["check", str(bad)]) == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert len(lines) == 3
+    assert lines[0].endswith("layer[0].angle: the gate 'h' has no angle; only rx ry rz crx cry "
+                             "crz rxx ryy rzz cphase take 'angle'")  # fmt: skip
+    assert "layer[1].on[0][1]: qubit 5 is out of range" in lines[1]
+    assert "layer[2].input: feature 4 is out of range for 1 inputs" in lines[2]
+
+
+def test_a_policy_with_several_mistakes_names_each(tmp_path, capsys):
+    policy = tmp_path / "p.yaml"
+    policy.write_text(
+        "rules:\n  - metric: expressibility.kl\n    fail_above: x\n"
+        "  - metric: nothing.here\n    fail_below: 1\n"
+        "  - metric: entanglement.meyer_wallach\n"
+    )
+    assert cli.main(["analyze", "ref:ry-cz-ring", "--policy", str(policy)]) == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert [line.split(": ")[3] for line in lines] == ["rules[0].fail_above", "rules[2]"], lines
+
+
+def test_usage_mistakes_are_one_line_with_a_hint(capsys):
+    assert cli.main(["analyze", "ref:ry-cz-ring", "--workers", "0"]) == 2
+    err = capsys.readouterr().err
+    assert err == (
+        "haarline: error: argument --workers: expected 1..64, got 0 "
+        "(see 'haarline analyze --help')\n"
+    )

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
-from haarline.circuit.gates import lookup
+from haarline.circuit.gates import GATES, lookup
 from haarline.circuit.model import MAX_LAYERS, MAX_QUBITS, Circuit, Step, _describe
 from haarline.circuit.placements import step_targets
 from haarline.errors import CircuitError, Problem
@@ -34,6 +34,12 @@ __all__ = [
     "place_text",
     "time_steps",
 ]
+
+ANGLED = tuple(name for name, spec in GATES.items() if spec.takes_angle)
+"""The gates with an angle, in table order (named in messages)."""
+
+MAX_PROBLEMS = 20
+"""Most problems one error lists (a description with more is told the first 20)."""
 
 MAX_OPERATIONS = 200_000
 """Largest number of gate applications an expanded program may hold."""
@@ -235,6 +241,23 @@ def _check_input(step: Step, path: str, inputs: int) -> None:
         )
 
 
+def _check_input_qubits(step: Step, path: str, places: list[tuple[int, ...]], inputs: int) -> None:
+    if step.input not in ("qubit", "product"):
+        return
+    for qs in places:
+        for q in qs:
+            if q >= inputs:
+                raise CircuitError(
+                    [
+                        Problem(
+                            f"{path}.input",
+                            f"qubit {q} would encode feature x_{q}, but there are "
+                            f"{inputs} inputs (0..{inputs - 1})",
+                        )
+                    ]
+                )
+
+
 def _check_step(step: Step, path: str, section: str, inputs: int = 0) -> None:
     spec = lookup(step.gate)
     if not spec.takes_angle:
@@ -244,9 +267,8 @@ def _check_step(step: Step, path: str, section: str, inputs: int = 0) -> None:
                     [
                         Problem(
                             f"{path}.{key}",
-                            f"the gate {step.gate!r} has no "
-                            "angle; only rx ry rz crx cry crz rxx ryy rzz take "
-                            f"'{key}'",
+                            f"the gate {step.gate!r} has no angle; only "
+                            f"{' '.join(ANGLED)} take '{key}'",
                         )
                     ]
                 )
@@ -324,25 +346,20 @@ def expand(circuit: Circuit, *, qubits: int | None = None, layers: int | None = 
     sections = [("prepare", circuit.prepare), ("layer", circuit.layer), ("finish", circuit.finish)]
     d = inputs_at(circuit, n)
     targets: dict[str, list[tuple[int, ...]]] = {}
+    problems: list[Problem] = []  # every step's problems, reported together
     for section, steps in sections:
         for i, step in enumerate(steps):
             path = f"{section}[{i}]"
-            _check_step(step, path, section, d)
-            _check_input(step, path, d)
-            targets[path] = step_targets(step, path, n)
-            if step.input in ("qubit", "product"):
-                for qs in targets[path]:
-                    for q in qs:
-                        if q >= d:
-                            raise CircuitError(
-                                [
-                                    Problem(
-                                        f"{path}.input",
-                                        f"qubit {q} would encode feature x_{q}, but there are "
-                                        f"{d} inputs (0..{d - 1})",
-                                    )
-                                ]
-                            )
+            try:
+                _check_step(step, path, section, d)
+                _check_input(step, path, d)
+                targets[path] = step_targets(step, path, n)
+                _check_input_qubits(step, path, targets[path], d)
+            except CircuitError as exc:
+                problems += exc.problems
+                targets[path] = []
+    if problems:
+        raise CircuitError(problems[:MAX_PROBLEMS])
 
     total = (
         sum(len(targets[f"prepare[{i}]"]) for i in range(len(circuit.prepare)))

@@ -104,6 +104,10 @@ class Policy(BaseModel):
     rules: list[Rule] = Field(min_length=1, max_length=500)
 
 
+_UNION_MEMBERS = ("float", "int", "bool", "str")
+"""The member names pydantic appends to the location of a value of a union type."""
+
+
 def parse_policy(data: Any, *, source: str | None = None) -> Policy:
     """Validate a decoded policy.
 
@@ -119,17 +123,27 @@ def parse_policy(data: Any, *, source: str | None = None) -> Policy:
     try:
         return Policy.model_validate(data)
     except ValidationError as exc:
-        problems = []
+        problems: list[Problem] = []
         for err in exc.errors(include_url=False):
             loc = tuple(str(x) if not isinstance(x, int) else x for x in err["loc"])
-            msg = err["msg"].removeprefix("Value error, ")
-            if err["type"] == "extra_forbidden":
-                fields = Rule.model_fields if len(loc) > 1 else Policy.model_fields
-                msg = f"unknown key; allowed keys: {', '.join(fields)}"
-            elif "input" in err and err["type"] != "missing":
-                msg = f"{msg} (got {_describe(err['input'])})"
-            problems.append(Problem(format_path(loc), msg))
+            if len(loc) >= 4 and loc[-1] in _UNION_MEMBERS:  # one line per field, not per type
+                loc = loc[:-1]
+                msg = f"expected a number, got {_describe(err.get('input'))}"
+            else:
+                msg = err["msg"].removeprefix("Value error, ")
+                if err["type"] == "extra_forbidden":
+                    fields = Rule.model_fields if len(loc) > 1 else Policy.model_fields
+                    msg = f"unknown key; allowed keys: {', '.join(fields)}"
+                elif "input" in err and err["type"] != "missing":
+                    msg = f"{msg} (got {_describe(err['input'])})"
+            problem = Problem(format_path(loc), msg)
+            if problem not in problems:
+                problems.append(problem)
         raise PolicyError(problems, source=source) from exc
+
+
+_OTHER_ROOTS = ("circuit", "sweep", "data")
+"""Report keys besides the metrics that a rule may name."""
 
 
 def check_metrics(policy: Policy, metrics: list[str], *, source: str | None = None) -> None:
@@ -144,7 +158,15 @@ def check_metrics(policy: Policy, metrics: list[str], *, source: str | None = No
     problems = []
     for i, rule in enumerate(policy.rules):
         root = re.split(r"[.\[]", rule.metric, maxsplit=1)[0]
-        if root in known and root not in metrics:
+        if root not in known and root not in _OTHER_ROOTS:
+            problems.append(
+                Problem(
+                    f"rules[{i}].metric",
+                    f"{rule.metric!r} starts with {root!r}, which is not a part of the report; "
+                    f"expected one of: {', '.join((*known, *_OTHER_ROOTS))}",
+                )
+            )
+        elif root in known and root not in metrics:
             problems.append(
                 Problem(
                     f"rules[{i}].metric",

@@ -15,7 +15,7 @@ import argparse
 import json
 import sys
 from collections.abc import Sequence
-from typing import Any
+from typing import Any, NoReturn
 
 import haarline
 from haarline.circuit.model import MAX_DESCRIPTION_BYTES, MAX_LAYERS
@@ -274,9 +274,18 @@ def _cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with usage errors in one line plus a hint, instead of the whole usage."""
+
+    def error(self, message: str) -> NoReturn:
+        """Print ``haarline: error: …`` and where to read more; exit with code 2."""
+        sys.stderr.write(f"haarline: error: {message} (see '{self.prog} --help')\n")
+        raise SystemExit(EXIT_INPUT)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser (exposed for tests and the docs)."""
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="haarline",
         description="Score parameterized quantum circuits against the Haar baseline. Metrics: "
         + "; ".join(f"{name}: {row.about}" for name, row in haarline.REGISTRY.items())
