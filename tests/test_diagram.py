@@ -8,6 +8,7 @@ says. The greedy time-step rule is written out again here (it is the depth rule 
 haarline.circuit.program.facts) rather than imported.
 """
 
+import base64
 import io
 from pathlib import Path
 
@@ -372,3 +373,38 @@ def test_the_png_grows_with_its_rows():
     tall = haarline.circuit_diagram_png(haarline.expand(load(WIDE_12)))
     heights = [matplotlib.image.imread(io.BytesIO(p), format="png").shape[0] for p in (short, tall)]
     assert heights[0] < 600 < 3000 < heights[1] < 4000
+
+
+# ------------------------------------------------------------------------------ the service
+
+
+@pytest.fixture
+def client(tmp_path):
+    from fastapi.testclient import TestClient
+    from haarline.service.api.app import create_app
+    from haarline.service.api.keys import issue_key
+    from haarline.service.jobs.store import Store
+    from haarline.service.settings import Settings
+
+    cfg = Settings.from_env({}, data_dir=str(tmp_path / "data"), workers=1)
+    with TestClient(create_app(cfg, start_runner=False)) as c:
+        _, key = issue_key(Store(tmp_path / "data" / "haarline.sqlite3"), "alice")
+        c.headers["Authorization"] = f"Bearer {key}"
+        yield c
+
+
+def test_check_route_returns_the_diagram_when_asked(client):
+    plain = client.post("/v1/check", json={"reference": "ry-cz-ring", "qubits": 6})
+    assert plain.status_code == 200 and "diagram_png" not in plain.json()
+    r = client.post("/v1/check", json={"reference": "ry-cz-ring", "qubits": 6, "diagram": True})
+    assert r.status_code == 200
+    body = r.json()
+    assert {k: v for k, v in body.items() if k != "diagram_png"} == plain.json()
+    program = haarline.expand(haarline.load_reference("ry-cz-ring"), qubits=6)
+    assert base64.b64decode(body["diagram_png"]) == haarline.circuit_diagram_png(program)
+
+
+def test_check_route_refuses_a_diagram_that_is_not_a_boolean(client):
+    r = client.post("/v1/check", json={"reference": "ry-cz-ring", "diagram": "yes please"})
+    assert r.status_code == 422
+    assert [e["path"] for e in r.json()["errors"]] == ["diagram"]
