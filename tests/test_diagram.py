@@ -149,6 +149,8 @@ def test_every_gate_is_drawn_in_order_in_blocks_that_never_overlap(source):
     assert lay["hidden_gates"] == 0 and lay["note"] == "" and lay["cut_part"] is None
     assert {g["step"] for g in lay["gates"]} == set(range(1, lay["depth"] + 1))
     assert lay["rows"] <= diagram_layout.row_cap(program.qubits)
+    if not isinstance(source, dict):  # the demos and the references fit in one row
+        assert lay["rows"] == 1
     drawn_parts = {b["part"] for b in lay["blocks"]}
     assert drawn_parts == {part_of(op, program.layers) for op in program.operations}
 
