@@ -81,9 +81,15 @@ def _caption(lay: dict[str, Any], qubits: int) -> list[str]:
         says.append("xk is input feature k" + (f" ({'; '.join(more)})" if more else ""))
     if "fixed" in sources:
         says.append("a number is a fixed angle in radians")
-    lines = [f"Under a tile: {', '.join(says)}."] if says else []
+    over = any(g["angle"] and _label_over(g) for g in lay["gates"])
+    where = "Under a tile (over it when its link leaves downwards)" if over else "Under a tile"
+    lines = [f"{where}: {', '.join(says)}."] if says else []
     kinds = {b["kind"] for b in lay["blocks"]}
-    names = ["prepare"] * ("prepare" in kinds) + ["each layer"] + ["finish"] * ("finish" in kinds)
+    names = [
+        w
+        for k, w in (("prepare", "prepare"), ("layer", "each layer"), ("finish", "finish"))
+        if k in kinds
+    ]
     what = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
     shorts = {b["label"][0] for b in lay["blocks"] if b["short"]}
     forms = [
@@ -120,6 +126,11 @@ def _caption(lay: dict[str, Any], qubits: int) -> list[str]:
         marks.append(f"All {style.plural(total, 'gate')} are drawn.")
     lines.append(". ".join(m.rstrip(".") for m in marks) + ".")
     return lines
+
+
+def _label_over(g: dict[str, Any]) -> bool:
+    """Whether the angle label goes over the tile: a controlled gate whose control is below."""
+    return lookup(g["gate"]).target is not None and g["qubits"][0] > g["qubits"][1]
 
 
 def _legend_lines(families: list[Family]) -> list[list[Family]]:
@@ -294,7 +305,7 @@ def _gate(
             zorder=3,
         )
         _tile(ax, xx, b, tile, g, colour)
-        _label(ax, xx, b, tile, g["angle"], small, below=b < a)
+        _label(ax, xx, b, tile, g["angle"], small, below=not _label_over(g))
         return
     for yy in ys:
         _tile(ax, xx, yy, tile, g, colour)
