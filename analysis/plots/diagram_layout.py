@@ -43,7 +43,6 @@ from haarline.plots import _style as style
 
 __all__ = [
     "BLOCK_GAP",
-    "AngleKind",
     "FAMILIES",
     "LEFT",
     "MAX_ROWS",
@@ -53,10 +52,7 @@ __all__ = [
     "PITCH",
     "RIGHT",
     "ROW_WIDTH",
-    "Family",
     "diagram_layout",
-    "family",
-    "row_cap",
 ]
 
 AngleKind = Literal["parameter", "named", "input", "fixed", "none"]
