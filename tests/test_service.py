@@ -344,7 +344,12 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
 @pytest.mark.parametrize(
     "route,body,path,allowed",
     [
-        ("/v1/analyses", {"reference": "rx-product", "bogus": 1}, "bogus", SOURCE + ", options"),
+        (
+            "/v1/analyses",
+            {"reference": "rx-product", "bogus": 1},
+            "bogus",
+            SOURCE + ", options, data",
+        ),
         (
             "/v1/comparisons",
             {"circuits": [{"reference": "rx-product", "options": {}}, {"reference": "rx-product"}]},
@@ -355,9 +360,9 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "/v1/check",
             {"reference": "rx-product", "depth": 3},
             "depth",
-            SOURCE + ", qubits, layers",
+            SOURCE + ", qubits, layers, diagram",
         ),
-        ("/v1/score", {"reference": "rx-product", "seed": 3}, "seed", SOURCE + ", options"),
+        ("/v1/score", {"reference": "rx-product", "seed": 3}, "seed", SOURCE + ", options, data"),
     ],
 )
 def test_an_unknown_field_names_the_allowed_ones(quiet, route, body, path, allowed):
