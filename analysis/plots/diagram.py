@@ -19,6 +19,7 @@ when the drawing is capped.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
 from haarline.circuit.gates import lookup
@@ -57,6 +58,8 @@ _WIRE = "#A9A79F"
 """Wire colour: lighter than the text, darker than the block shades."""
 BAND, ROW_GAP, LEGEND_LINE = 0.2, 0.16, 0.2
 """Inches above each row for block labels, between rows, and per legend line."""
+SWATCH, ENTRY_GAP, LEGEND_PT = 0.21, 0.22, 6.5
+"""Legend: inches from a swatch to its words and between entries, and the words' size."""
 MAX_PITCH = 0.36
 """Widest column, in inches (a one-row drawing spreads out up to this)."""
 
@@ -133,17 +136,21 @@ def _label_over(g: dict[str, Any]) -> bool:
     return lookup(g["gate"]).target is not None and g["qubits"][0] > g["qubits"][1]
 
 
-def _legend_lines(families: list[Family]) -> list[list[Family]]:
-    """The legend entries, cut into lines that fit the width."""
-    lines: list[list[Family]] = [[]]
+def _legend_lines(families: list[Family]) -> list[list[tuple[Family, float]]]:
+    """The legend entries with the width of their words (inches), in lines that fit."""
+    from matplotlib.font_manager import FontProperties
+    from matplotlib.textpath import TextToPath
+
+    font = FontProperties(family=style.RC["font.sans-serif"], size=LEGEND_PT)
+    lines: list[list[tuple[Family, float]]] = [[]]
     used = 0.0
     for f in families:
-        need = 0.3 + len(WORDS[f]) * 6.5 * 0.56 / 72
-        if lines[-1] and used + need > style.WIDTH - 0.4:
+        words = TextToPath().get_text_width_height_descent(WORDS[f], font, ismath=False)[0] / 72
+        if lines[-1] and used + SWATCH + words > style.WIDTH - 0.2:
             lines.append([])
             used = 0.0
-        lines[-1].append(f)
-        used += need
+        lines[-1].append((f, words))
+        used += SWATCH + words + ENTRY_GAP
     return lines
 
 
@@ -281,9 +288,10 @@ def _gate(
     xx: float,
     pitch: float,
     wire: float,
-    y: Any,
+    y: Callable[[int], float],
     small: float,
 ) -> None:
+    """Gate ``g`` centred at ``xx``: its tiles, link and control mark, and its angle label."""
     colour = COLOURS[g["family"]]
     tile = (pitch - 0.06, min(0.16, 0.55 * wire))
     ys = [y(q) for q in g["qubits"]]
@@ -316,6 +324,7 @@ def _gate(
 def _tile(
     ax: Axes, xx: float, yy: float, size: tuple[float, float], g: dict[str, Any], colour: str
 ) -> None:
+    """A rounded tile in the family ``colour`` reading the gate's name."""
     from matplotlib.patches import FancyBboxPatch
 
     w, h = size
@@ -348,6 +357,7 @@ def _tile(
 def _label(
     ax: Axes, xx: float, yy: float, size: tuple[float, float], text: str, pt: float, *, below: bool
 ) -> None:
+    """The angle label under (or over) the tile at ``(xx, yy)``."""
     if not text:
         return
     h = size[1]
@@ -364,15 +374,14 @@ def _label(
     )
 
 
-def _legend(ax: Axes, lines: list[list[Family]], height: float) -> None:
+def _legend(ax: Axes, lines: list[list[tuple[Family, float]]], height: float) -> None:
     """One swatch and its words per family drawn, in lines under the rows."""
     from matplotlib.patches import FancyBboxPatch
 
-    renderer = ax.figure.canvas.get_renderer()  # type: ignore[attr-defined]
     for i, line in enumerate(lines):
         yy = height - (i + 0.5) * LEGEND_LINE
         xx = LEFT - 0.3
-        for f in line:
+        for f, width in line:
             ax.add_patch(
                 FancyBboxPatch(
                     (xx, yy - 0.05),
@@ -383,5 +392,5 @@ def _legend(ax: Axes, lines: list[list[Family]], height: float) -> None:
                     edgecolor="none",
                 )
             )
-            words = ax.text(xx + 0.21, yy, WORDS[f], va="center", fontsize=6.5, color=style.INK)
-            xx += 0.21 + words.get_window_extent(renderer).width / style.DPI + 0.22
+            ax.text(xx + SWATCH, yy, WORDS[f], va="center", fontsize=LEGEND_PT, color=style.INK)
+            xx += SWATCH + width + ENTRY_GAP
