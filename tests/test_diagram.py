@@ -127,8 +127,9 @@ def check_layout(program, lay, row_width=diagram_layout.ROW_WIDTH):
         part = b["part"]
         name = "prepare" if part == 0 else "finish" if part > program.layers else f"layer {part}"
         short = {"prepare": "prep", "finish": "fin"}.get(name, f"L{part}")
-        full = name + (" (continued)" if b["continued"] else "")
-        assert b["label"] == (short if b["short"] else full)
+        tails = [" (continued)", " (cont.)"] if b["continued"] else [""]
+        shown = [short + t for t in [*tails[1:], ""]] if b["short"] else [name + t for t in tails]
+        assert b["label"] in shown
         assert b["kind"] == name.split()[0]
 
 
@@ -310,6 +311,30 @@ def test_demo_input_labels_name_features():
     lay = diagram_layout.diagram_layout(program)
     inputs = [g for g in lay["gates"] if g["family"] == "input"]
     assert [g["angle"] for g in inputs] == ["x0", "x1", "x2", "x3"] * 2
+
+
+EXPECTED_FAMILY = {
+    **dict.fromkeys(["i", "h", "x", "y", "z", "s", "sdg", "t", "tdg", "sx"], "fixed"),
+    **dict.fromkeys(["rx", "ry", "rz"], "rotation"),
+    **dict.fromkeys(["cx", "cy", "cz", "crx", "cry", "crz"], "controlled"),
+    **dict.fromkeys(["rxx", "ryy", "rzz"], "pair"),
+    "swap": "swap",
+}
+
+
+def test_every_gate_of_the_table_is_drawn_in_its_family():
+    from haarline.circuit.gates import GATES
+
+    assert set(GATES) == set(EXPECTED_FAMILY)  # a new gate: say here which family it joins
+    steps = [{"gate": g, "on": [0] if GATES[g].qubits == 1 else [[1, 0]]} for g in GATES]
+    program = haarline.expand(
+        haarline.parse_circuit({"name": "every-gate", "qubits": 2, "layer": steps})
+    )
+    lay = diagram_layout.diagram_layout(program)
+    check_layout(program, lay)
+    assert {g["gate"]: g["family"] for g in lay["gates"]} == EXPECTED_FAMILY
+    png = haarline.circuit_diagram_png(program)
+    assert abs(matplotlib.image.imread(io.BytesIO(png), format="png").shape[1] - 900) <= 3
 
 
 def test_every_family_has_its_own_colour_and_words():

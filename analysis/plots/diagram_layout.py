@@ -98,18 +98,19 @@ def row_cap(qubits: int) -> int:
 def family(op: Operation) -> Family:
     """The family of ``op``: its colour in the drawing.
 
-    ``input`` for a gate whose angle is an input feature, else by the gate table:
-    ``rotation`` (rx ry rz), ``fixed`` (the other one-qubit gates), ``controlled`` (cx cy
-    cz crx cry crz), ``pair`` (rxx ryy rzz) and ``swap``.
+    ``input`` for a gate whose angle is an input feature, else by the gate's row in the
+    table: ``rotation`` (one qubit, an angle: rx ry rz), ``fixed`` (one qubit, no angle),
+    ``controlled`` (a controlled one-qubit gate: cx cy cz crx cry crz), ``pair`` (two
+    qubits, an angle: rxx ryy rzz) and ``swap`` (two qubits, neither).
     """
     spec = lookup(op.gate)
     if op.encoding is not None:
         return "input"
     if spec.qubits == 1:
         return "rotation" if spec.takes_angle else "fixed"
-    if op.gate == "swap":
-        return "swap"
-    return "controlled" if spec.target is not None else "pair"
+    if spec.target is not None:
+        return "controlled"
+    return "pair" if spec.takes_angle else "swap"
 
 
 def _part(op: Operation, layers: int) -> int:
@@ -128,6 +129,21 @@ def _part_names(part: int, layers: int) -> tuple[str, str]:
     if part == layers + 1:
         return "finish", "fin"
     return f"layer {part}", f"L{part}"
+
+
+def _label(part: int, layers: int, continued: bool, width: float) -> tuple[str, bool]:
+    """The longest label that fits over a block piece ``width`` columns wide, and if it is short.
+
+    In this order: ``layer 3 (continued)``, ``layer 3 (cont.)``, ``L3 (cont.)``, ``L3``
+    (``layer 3`` or ``L3`` for a first piece).
+    """
+    name, short = _part_names(part, layers)
+    tails = (" (continued)", " (cont.)") if continued else ("",)
+    options = [(name + t, False) for t in tails] + [(short + t, True) for t in tails[1:]]
+    for text, is_short in options:
+        if len(text) * _LABEL_CHAR <= width + BLOCK_GAP:
+            return text, is_short
+    return short, True
 
 
 def _param_text(program: Program, param: int) -> str:
@@ -308,8 +324,9 @@ def diagram_layout(
         and ``x1`` (its extent in column widths), ``first`` and ``last`` (columns),
         ``continued`` (begun on an earlier row), ``continues`` (goes on in the next row,
         or is cut there), ``kind`` (``prepare``, ``layer`` or ``finish``), ``label`` (what
-        is written above it) and ``short`` (whether that is the short form, ``L3`` for
-        ``layer 3``).
+        is written above it: the block's name, ``(continued)`` or ``(cont.)`` on a later
+        piece) and ``short`` (whether the label uses the short name, ``L3`` for ``layer 3``,
+        ``prep``, ``fin``).
         ``rows``: the number of rows.
         ``columns`` (drawn) and ``total_columns``; ``depth``; ``block_steps``: the time
         steps of all blocks together (``depth`` or more); ``families``: those
@@ -357,12 +374,9 @@ def diagram_layout(
             break
         if pc["last"] >= cut:  # the piece the cap ends inside
             pc = {**pc, "last": cut - 1, "x1": pc["x0"] + cut - pc["first"], "continues": True}
-        label, short = _part_names(pc["part"], layers)
-        if pc["continued"]:
-            label += " (continued)"
-        fits = len(label) * _LABEL_CHAR <= pc["x1"] - pc["x0"] + BLOCK_GAP
+        label, short = _label(pc["part"], layers, pc["continued"], pc["x1"] - pc["x0"])
         kind = "prepare" if pc["part"] == 0 else "finish" if pc["part"] > layers else "layer"
-        blocks.append({**pc, "kind": kind, "label": label if fits else short, "short": not fits})
+        blocks.append({**pc, "kind": kind, "label": label, "short": short})
     drawn = [k for k, c in enumerate(column) if c < cut]
     steps = time_steps(program)
     piece_of = {c: b for b in blocks for c in range(b["first"], b["last"] + 1)}
