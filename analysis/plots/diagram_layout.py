@@ -40,6 +40,7 @@ from typing import Any, Literal
 from haarline.circuit.gates import lookup
 from haarline.circuit.program import Operation, Program, time_steps
 from haarline.plots import _style as style
+from haarline.plots._diagram_words import capped_note, gate_texts, part_names
 
 __all__ = [
     "BLOCK_GAP",
@@ -48,15 +49,12 @@ __all__ = [
     "MAX_ROWS",
     "MAX_WIRE_LINES",
     "MIN_PIECE",
-    "NAME_CHARS",
     "PITCH",
     "RIGHT",
     "ROW_WIDTH",
     "diagram_layout",
 ]
 
-AngleKind = Literal["parameter", "named", "input", "fixed", "none"]
-"""Where a gate's angle comes from (``none`` for a gate without one)."""
 Family = Literal["rotation", "input", "fixed", "controlled", "pair", "swap"]
 """The gate families the diagram tells apart, each drawn in its own colour."""
 FAMILIES: tuple[Family, ...] = ("rotation", "input", "fixed", "controlled", "pair", "swap")
@@ -76,8 +74,6 @@ MAX_WIRE_LINES = 80
 """Wire lines in all rows together (rows times qubits) at most: a cap on a drawing's height."""
 MAX_ROWS = 12
 """Rows at most, whatever the qubit count."""
-NAME_CHARS = 6
-"""Longest parameter name shown in full; longer ones keep their first 5 characters and …."""
 _LABEL_CHAR = 0.6 * 6.0 / 72 / PITCH
 """Width of one character of a 6 pt block label, in column widths (an upper estimate)."""
 
@@ -122,56 +118,19 @@ def _part(op: Operation, layers: int) -> int:
     return 1 + int(op.layer or 0)
 
 
-def _part_names(part: int, layers: int) -> tuple[str, str]:
-    """The block's label and its short form (for a narrow block)."""
-    if part == 0:
-        return "prepare", "prep"
-    if part == layers + 1:
-        return "finish", "fin"
-    return f"layer {part}", f"L{part}"
-
-
 def _label(part: int, layers: int, continued: bool, width: float) -> tuple[str, bool]:
     """The longest label that fits over a block piece ``width`` columns wide, and if it is short.
 
     In this order: ``layer 3 (continued)``, ``layer 3 (cont.)``, ``L3 (cont.)``, ``L3``
     (``layer 3`` or ``L3`` for a first piece).
     """
-    name, short = _part_names(part, layers)
+    name, short = part_names(part, layers)
     tails = (" (continued)", " (cont.)") if continued else ("",)
     options = [(name + t, False) for t in tails] + [(short + t, True) for t in tails[1:]]
     for text, is_short in options:
         if len(text) * _LABEL_CHAR <= width + BLOCK_GAP:
             return text, is_short
     return short, True
-
-
-def _param_text(program: Program, param: int) -> str:
-    name = program.parameter_names[param] if param < len(program.parameter_names) else None
-    if name is None:
-        return f"θ{param}"
-    return name if len(name) <= NAME_CHARS else name[: NAME_CHARS - 1] + "…"
-
-
-def _texts(op: Operation, program: Program) -> tuple[str, str, AngleKind]:
-    """The text of the gate's tile (the target's, for a controlled gate), its angle, its source.
-
-    A trainable angle reads ``θk``, or the description's ``param`` name; an input angle
-    names its features (``x2``, ``3·x0``, ``x0·x1`` for a product encoding); a fixed angle
-    is in radians with two decimals.
-    """
-    spec = lookup(op.gate)
-    name = str(spec.target if spec.target else op.gate)
-    if op.encoding is not None:
-        e = program.encodings[op.encoding]
-        text = "·".join(f"x{f}" for f in e.features)
-        return name, (text if e.scale == 1 else f"{e.scale:g}·{text}"), "input"
-    if op.param is not None:
-        named = op.param < len(program.parameter_names) and program.parameter_names[op.param]
-        return name, _param_text(program, op.param), "named" if named else "parameter"
-    if op.angle is not None:
-        return name, f"{op.angle:.2f}", "fixed"
-    return name, "", "none"
 
 
 def _block_columns(program: Program, parts: list[int]) -> tuple[list[int], dict[int, int], int]:
@@ -255,48 +214,6 @@ def _cut(pieces: list[dict[str, Any]], rows: int) -> int:
     return ends[-1] if ends and 2 * ends[-1] >= room else room
 
 
-def _span(parts: list[int], layers: int) -> str:
-    """``prepare, layers 1–12 and finish``: the blocks ``parts`` in words."""
-    words = [_part_names(p, layers)[0] for p in parts if p == 0]
-    inner = [p for p in parts if 1 <= p <= layers]
-    runs: list[list[int]] = []
-    for p in inner:
-        if runs and runs[-1][-1] == p - 1:
-            runs[-1].append(p)
-        else:
-            runs.append([p])
-    for run in runs:
-        words.append(f"layer {run[0]}" if len(run) == 1 else f"layers {run[0]}–{run[-1]}")
-    words += [_part_names(p, layers)[0] for p in parts if p == layers + 1]
-    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
-
-
-def _note(
-    program: Program,
-    drawn: int,
-    whole: list[int],
-    cut: tuple[int, int, int] | None,
-    rest: list[int],
-) -> str:
-    """What a capped drawing shows and leaves out, in words.
-
-    ``whole``: the blocks drawn in full; ``cut``: (block, columns drawn, its columns) for a
-    block drawn in part; ``rest``: the blocks not drawn at all.
-    """
-    layers = program.layers
-    shown = [_span(whole, layers)] if whole else []
-    left = [_span(rest, layers)] if rest else []
-    if cut is not None:
-        name = _part_names(cut[0], layers)[0]
-        shown.append(f"the first {cut[1]} of the {cut[2]} columns of {name}")
-        left.insert(0, f"the rest of {name}")
-    total = len(program.operations)
-    return (
-        f"Drawn: {'; '.join(shown)} ({drawn} of {style.plural(total, 'gate')}). "
-        f"Not drawn: {'; '.join(left)}."
-    )
-
-
 def diagram_layout(
     program: Program, *, row_width: float = ROW_WIDTH, max_rows: int | None = None
 ) -> dict[str, Any]:
@@ -319,7 +236,7 @@ def diagram_layout(
         depth), ``part`` (0 prepare, 1..L layers, L+1 finish), ``column`` (counted over
         the whole drawing), ``row``, ``x`` (left edge in column widths from the row's
         start), ``family``, ``name`` (what its tile reads), ``angle`` (the label under
-        it, or ``""``) and ``source`` (an :data:`AngleKind`).
+        it, or ``""``) and ``source`` (an ``AngleKind`` of :mod:`haarline.plots._diagram_words`).
         ``blocks``: one dict per piece of a block in a row, with ``part``, ``row``, ``x0``
         and ``x1`` (its extent in column widths), ``first`` and ``last`` (columns),
         ``continued`` (begun on an earlier row), ``continues`` (goes on in the next row,
@@ -383,7 +300,7 @@ def diagram_layout(
     gates = []
     for k in drawn:
         op, b = program.operations[k], piece_of[column[k]]
-        name, angle, source = _texts(op, program)
+        name, angle, source = gate_texts(op, program)
         gates.append(
             dict(
                 index=k,
@@ -418,5 +335,5 @@ def diagram_layout(
         "hidden_gates": len(program.operations) - len(drawn),
         "hidden_layers": sum(1 for p in range(1, layers + 1) if p not in whole),
         "cut_part": cut_part,
-        "note": _note(program, len(drawn), whole, cut_info, rest) if rest or cut_info else "",
+        "note": capped_note(program, len(drawn), whole, cut_info, rest) if rest or cut_info else "",
     }
