@@ -122,6 +122,33 @@ def test_check_size_flags_out_of_range(capsys, tiny, flag, value):
     assert_one_error_line(err, flag, value, "allowed range")
 
 
+def test_check_draws_the_diagram_without_analysing(capsys, tiny, tmp_path, monkeypatch):
+    def no_analysis(*args, **kwargs):
+        raise AssertionError("check --diagram must not analyse")
+
+    monkeypatch.setattr(haarline, "analyze", no_analysis)
+    target = tmp_path / "tiny.png"
+    code, out, err = run(capsys, "check", str(tiny), "--layers", "3", "--diagram", str(target))
+    assert code == 0 and out.splitlines()[0] == "tiny-ladder: valid"
+    assert err == f"haarline: wrote the circuit diagram to {target}\n"
+    program = haarline.expand(haarline.parse_circuit(TINY), layers=3)
+    assert target.read_bytes() == haarline.circuit_diagram_png(program)
+
+
+def test_check_json_with_a_diagram_prints_only_the_facts(capsys, tiny, tmp_path):
+    target = tmp_path / "tiny.png"
+    code, out, _ = run(capsys, "check", str(tiny), "--format", "json", "--diagram", str(target))
+    assert code == 0 and json.loads(out)["gates"] == 14
+    assert target.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_check_diagram_that_cannot_be_written(capsys, tiny, tmp_path):
+    target = tmp_path / "missing" / "tiny.png"
+    code, out, err = run(capsys, "check", str(tiny), "--diagram", str(target))
+    assert code == 2 and out == ""
+    assert_one_error_line(err, "--diagram", "cannot write", "No such file or directory")
+
+
 def test_check_yaml_file(capsys, tmp_path):
     path = tmp_path / "tiny.yaml"
     path.write_text(

@@ -360,7 +360,7 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "/v1/check",
             {"reference": "rx-product", "depth": 3},
             "depth",
-            SOURCE + ", qubits, layers",
+            SOURCE + ", qubits, layers, diagram",
         ),
         ("/v1/score", {"reference": "rx-product", "seed": 3}, "seed", SOURCE + ", options, data"),
     ],

@@ -89,8 +89,8 @@ INK_SOFT = "#5F5F5F"
 """Axes, ticks, secondary text."""
 RULE = "#E2E0D8"
 """Grid lines and light rules."""
-FILLS: dict[str, str] = {"blue": "#CFE3F1", "orange": "#F8E2B4", "shade": "#F3F2EC"}
-"""Pale tints for filled areas and gate boxes (``shade``: alternate time steps)."""
+FILLS: dict[str, str] = {"blue": "#CFE3F1"}
+"""Pale tints for filled areas."""
 
 RC: dict[str, Any] = {
     "font.family": "sans-serif",

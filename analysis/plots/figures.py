@@ -31,7 +31,7 @@ exponential     #D55E00    exponential fit of the variance scan (solid)
 power law       #CC79A7    power-law fit (reddish purple, dashed)
 depth scan      #009E73    variance against layers; Meyer-Wallach in sweeps (green)
 bias, notes     #5F5F5F    plug-in bias, secondary text (grey, dotted)
-fixed gates     #E69F00    boxes of fixed gates in the circuit diagram (orange)
+gate families   by family  tiles of the circuit diagram (``diagram.COLOURS``)
 series          in order   #0072B2 #E69F00 #009E73 #CC79A7 #56B4E9 #D55E00 #000000
 ==============  =========  ===============================================
 

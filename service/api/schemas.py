@@ -140,6 +140,11 @@ class CheckCreate(CircuitSource):
 
     qubits: int | None = Field(default=None, ge=1, le=24)
     layers: int | None = Field(default=None, ge=1, le=10_000)
+    diagram: bool = Field(
+        default=False,
+        description="Also return the circuit diagram, a PNG in base64, as `diagram_png` "
+        "(drawn from the description alone: nothing is simulated).",
+    )
 
 
 class ProgressPublic(BaseModel):

@@ -199,6 +199,15 @@ def _cmd_check(args: argparse.Namespace) -> int:
             raise UsageError([haarline.Problem(flag, f"got {value}; allowed range is 1..{top}")])
     program = haarline.expand(circuit, qubits=args.qubits, layers=args.layers)
     f = haarline.facts(program)
+    if args.diagram:  # drawn from the program alone: nothing is simulated
+        try:
+            with open(args.diagram, "wb") as fh:
+                fh.write(haarline.circuit_diagram_png(program))
+        except OSError as exc:
+            raise UsageError(
+                [haarline.Problem("--diagram", f"cannot write {args.diagram!r}: {exc.strerror}")]
+            ) from None
+        sys.stderr.write(f"haarline: wrote the circuit diagram to {args.diagram}\n")
     if args.format == "json":
         _emit(json.dumps(f, indent=2))
         return EXIT_OK
@@ -311,10 +320,17 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--format", choices=["markdown", "json"], default="markdown")
     p.set_defaults(func=_cmd_compare)
 
-    p = sub.add_parser("check", help="validate a description and print its static facts")
+    p = sub.add_parser(
+        "check", help="validate a description and print its static facts (and draw it)"
+    )
     p.add_argument("file", metavar="FILE")
     p.add_argument("--qubits", type=int, help="check at another qubit count")
     p.add_argument("--layers", type=int, help="check at another layer count")
+    p.add_argument(
+        "--diagram",
+        metavar="PNG",
+        help="also write the circuit diagram to this PNG file (no analysis is run)",
+    )
     p.add_argument("--format", choices=["text", "json"], default="text")
     p.set_defaults(func=_cmd_check)
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import base64
 from typing import Any
 
 import haarline
@@ -42,7 +43,7 @@ async def score(
     "/check",
     operation_id="checkCircuit",
     tags=["circuits"],
-    summary="Validate a description and return its static facts",
+    summary="Validate a description and return its static facts (and, if asked, its diagram)",
     responses=problem_responses(401, 408, 413, 422, 503),
 )
 def check(body: CheckCreate, caller: CallerDep) -> Any:
@@ -53,7 +54,11 @@ def check(body: CheckCreate, caller: CallerDep) -> Any:
     except haarline.InputError as exc:
         exc.body_path = "circuit" if body.circuit is not None else ""  # type: ignore[attr-defined]
         raise
-    return haarline.facts(program)
+    facts = haarline.facts(program)
+    if body.diagram:
+        png = haarline.circuit_diagram_png(program)
+        facts["diagram_png"] = base64.b64encode(png).decode("ascii")
+    return facts
 
 
 @v1.get(
