@@ -120,3 +120,11 @@ def test_mixed_qubit_counts_get_a_caution_and_every_circuit_keeps_its_own():
     assert "four: only 300 pairs" in text
     headers, rows = comparison_table(result)
     assert "Haar MW" in headers and all(len(r) == len(headers) for r in rows)
+
+
+def test_compare_out_says_what_it_wrote(capsys, tmp_path):
+    out = tmp_path / "cmp"
+    code = cli.main(["compare", "ref:ry-cz-ring", "ref:rx-product", *FAST, "--out", str(out)])
+    assert code == 0
+    err = capsys.readouterr().err
+    assert f"wrote comparison.json, comparison.md, comparison.html and 1 plot(s) to {out}" in err

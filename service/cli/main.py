@@ -185,6 +185,11 @@ def _cmd_compare(args: argparse.Namespace) -> int:
         _emit(json.dumps(result, indent=2, allow_nan=False))
     else:
         _emit(haarline.compare_markdown(result, images=images))
+    if args.out:
+        sys.stderr.write(
+            f"haarline: wrote comparison.json, comparison.md, comparison.html and "
+            f"{len(images)} plot(s) to {args.out}\n"
+        )
     failed = any(r["policy"] == "fail" for r in result["ranking"])
     return EXIT_POLICY if failed else EXIT_OK
 
