@@ -726,3 +726,25 @@ def test_service_accepts_a_qasm_body(tmp_path):
         assert facts["parameters"] == 1 and facts["gates"] == 3
         r = c.post("/v1/check", json={"qasm": program.replace("h q[0]", "measure q[0]")})
         assert r.status_code == 422 and "line 5, column 1" in r.json()["detail"]
+
+
+def test_every_failing_statement_is_reported_in_one_run():
+    # one line per problem, each with its line and column (issue 18: all problems at once)
+    text = (
+        'OPENQASM 3;\ninclude "stdgates.inc";\nqubit[2] q;\n'
+        "ccx q[0], q[1], q[0];\nrx(0.1) q[5];\nmeasure q[0];\nh q[0];\n"
+    )
+    with pytest.raises(haarline.CircuitError) as info:
+        parse_qasm(text)
+    messages = [p.message for p in info.value.problems]
+    assert [m.split(":")[0] for m in messages] == [
+        "line 4, column 1",
+        "line 5, column 9",
+        "line 6, column 1",
+    ]
+
+
+def test_a_failed_declaration_stops_the_reading_there():
+    with pytest.raises(haarline.CircuitError) as info:
+        parse_qasm("OPENQASM 3;\nqubit[0] q;\nh q[0];\nx q[0];\n")
+    assert len(info.value.problems) == 1

@@ -30,6 +30,18 @@ _MAX_WORK = 100_000
 _PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")
 
 
+MAX_FAILURES = 20
+"""Most statement failures one reading reports."""
+
+
+class Failures(Exception):
+    """Several statements failed; each keeps its node (for line and column)."""
+
+    def __init__(self, failures: list[_Fail]):
+        super().__init__("; ".join(f.message for f in failures))
+        self.failures = failures
+
+
 class Reader:
     """Walk the syntax tree of one program and collect format-1 steps."""
 
@@ -43,24 +55,48 @@ class Reader:
         self.book = GateBook(version, self.constants, self._tick)
 
     def read(self, program: ast.Program) -> list[dict[str, Any]]:
-        """Read the program; return its format-1 steps in program order."""
+        """Read the program; return its format-1 steps in program order.
+
+        Every statement is read even after one fails, so one run reports the problems of
+        all of them (up to :data:`MAX_FAILURES`); a failed declaration (include, register,
+        input) stops the reading there, since what follows depends on it.
+
+        Raises
+        ------
+        Failures
+            When any statement failed, with every failure in order.
+        """
+        failures: list[_Fail] = []
         for statement in program.statements:
-            no_annotations(statement)
-            if isinstance(statement, ast.Include):
-                self._include(statement)
-            elif isinstance(statement, ast.QubitDeclaration):
-                self._register(statement)
-            elif isinstance(statement, ast.IODeclaration):
-                self._input(statement)
-            elif isinstance(statement, ast.QuantumGateDefinition):
-                self.book.define(statement)
-            else:
-                self._run(statement, self.scope)
+            declaration = isinstance(
+                statement, (ast.Include, ast.QubitDeclaration, ast.IODeclaration)
+            )
+            try:
+                self._statement(statement)
+            except _Fail as exc:
+                failures.append(exc)
+                if declaration or len(failures) >= MAX_FAILURES:
+                    break
+        if failures:
+            raise Failures(failures)
         if self.register is None:
             raise _Fail(None, "no qubit register is declared (expected 'qubit[n] q;')")
         if not self.steps:
             raise _Fail(None, "the program applies no gates")
         return self.steps
+
+    def _statement(self, statement: Any) -> None:
+        no_annotations(statement)
+        if isinstance(statement, ast.Include):
+            self._include(statement)
+        elif isinstance(statement, ast.QubitDeclaration):
+            self._register(statement)
+        elif isinstance(statement, ast.IODeclaration):
+            self._input(statement)
+        elif isinstance(statement, ast.QuantumGateDefinition):
+            self.book.define(statement)
+        else:
+            self._run(statement, self.scope)
 
     def _tick(self, node: Any) -> None:
         self.work += 1

@@ -113,8 +113,9 @@ from pathlib import PurePath
 from haarline.circuit.model import Circuit, parse_circuit
 from haarline.circuit.qasm._standard import STANDARD_GATES
 from haarline.circuit.qasm._syntax import _Fail, _problem, _syntax_tree, _where
-from haarline.circuit.qasm._walk import Reader
+from haarline.circuit.qasm._walk import Failures, Reader
 from haarline.circuit.text import bounded_text
+from haarline.errors import CircuitError, Problem
 
 __all__ = ["MAX_QASM_BYTES", "STANDARD_GATES", "parse_qasm"]
 
@@ -190,6 +191,12 @@ def parse_qasm(text: str | bytes, *, source: str | None = None) -> Circuit:
     reader = Reader(tree.version)
     try:
         steps = reader.read(tree)
+    except Failures as many:
+        problems = []
+        for exc in many.failures:
+            where = _where(exc.node)
+            problems.append(Problem("(root)", f"{where}: {exc.message}" if where else exc.message))
+        raise CircuitError(problems, source=source) from None
     except _Fail as exc:
         where = _where(exc.node)
         raise _problem(f"{where}: {exc.message}" if where else exc.message, source) from None
