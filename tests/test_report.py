@@ -247,6 +247,7 @@ _MODULE_ONLY = {
     "interval_text",
     "Section",
     "comparison_cautions",
+    "sentence",
     "ignored_options",
     "parameter_places",
     "place_text",

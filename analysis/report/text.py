@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-__all__ = ["count_text", "interval_text"]
+__all__ = ["count_text", "interval_text", "sentence"]
 
 
 def interval_text(pair: Sequence[float] | None, spec: str = ".4f") -> str:
@@ -29,3 +29,15 @@ def count_text(k: int, word: str) -> str:
     ('1 layer', '3 layers')
     """
     return f"{k} {word}" + ("" if k == 1 else "s")
+
+
+def sentence(text: str) -> str:
+    """A clause as a sentence: capital first letter, one final period.
+
+    Examples
+    --------
+    >>> sentence("not concentrated: the variance is flat")
+    'Not concentrated: the variance is flat.'
+    """
+    text = text.rstrip(".")
+    return f"{text[:1].upper()}{text[1:]}."

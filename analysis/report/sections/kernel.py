@@ -27,7 +27,7 @@ from haarline.metrics.plateau import Wording, fit_decay, verdict
 from haarline.metrics.trainability import default_scan, layers_at, uses_only_patterns
 from haarline.report.inputs import draws_for, input_law, labelled_rows
 from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
-from haarline.report.text import interval_text
+from haarline.report.text import interval_text, sentence
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
@@ -266,7 +266,7 @@ def _table(k: Section, report: dict[str, Any]) -> list[TableRow]:
 
 
 def _verdict(k: Section) -> str:
-    return f"{k['reason'][0].upper()}{k['reason'][1:]}."
+    return sentence(k["reason"])
 
 
 ROW = MetricRow(

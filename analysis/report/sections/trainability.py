@@ -12,7 +12,7 @@ from haarline.engine.statevector import batch_bytes
 from haarline.metrics.trainability import default_scan, layers_at, trainability, uses_only_patterns
 from haarline.report.inputs import draws_for
 from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
-from haarline.report.text import count_text, interval_text
+from haarline.report.text import count_text, interval_text, sentence
 
 if TYPE_CHECKING:
     from haarline.circuit.model import Circuit
@@ -177,7 +177,7 @@ def _table(t: Section, report: dict[str, Any]) -> list[TableRow]:
 
 
 def _verdict(t: Section) -> str:
-    return f"{t['reason'][0].upper()}{t['reason'][1:]}."
+    return sentence(t["reason"])
 
 
 ROW = MetricRow(
