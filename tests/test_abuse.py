@@ -12,33 +12,28 @@ from concurrent.futures import ThreadPoolExecutor
 
 import httpx2 as httpx
 import pytest
-from fastapi.testclient import TestClient
 from haarline.service.api import keys
-from haarline.service.api.app import create_app
 from haarline.service.api.keys import issue_key, verify_key
 from haarline.service.jobs.store import Store
-from haarline.service.settings import Settings
 from live_server import LiveServer
 
 PNG = b"\x89PNG\r\n\x1a\n" + b"\0" * 16
 
 
-@pytest.fixture(scope="module")
-def app_client(tmp_path_factory):
+@pytest.fixture
+def app_client(make_client):
     """An app without a dispatcher, a key, and one finished job with a stored plot."""
-    data = tmp_path_factory.mktemp("abuse-app") / "data"
-    cfg = Settings.from_env({}, data_dir=str(data), workers=1)
-    with TestClient(create_app(cfg, start_runner=False), raise_server_exceptions=False) as c:
-        store = c.app.state.store
-        key_id, key = issue_key(store, "alice")
-        c.headers["Authorization"] = f"Bearer {key}"
-        job, _ = store.create_job(
-            owner=key_id, kind="analysis", request={"reference": "x"}, request_hash="h"
-        )
-        store.claim(job["id"])
-        store.finish(job["id"], report={"ok": 1}, markdown="# ok", artifacts={"fidelity.png": PNG})
-        c.job = job["id"]
-        yield c
+    c = make_client(runner=False, key=None, raise_server_exceptions=False)
+    store = c.app.state.store
+    key_id, key = issue_key(store, "alice")
+    c.headers["Authorization"] = f"Bearer {key}"
+    job, _ = store.create_job(
+        owner=key_id, kind="analysis", request={"reference": "x"}, request_hash="h"
+    )
+    store.claim(job["id"])
+    store.finish(job["id"], report={"ok": 1}, markdown="# ok", artifacts={"fidelity.png": PNG})
+    c.job = job["id"]
+    return c
 
 
 def is_problem(r, status):

@@ -100,20 +100,16 @@ def test_problem_responses_are_problem_json_with_the_problem_schema():
                 assert response["description"] and response["description"][0].isupper(), where
 
 
-def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(tmp_path):
+def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, tmp_path):
     """Provoke each status the table lists; no probe may get one the operation does not list."""
     from fastapi.testclient import TestClient
-    from haarline.service.api.app import create_app
     from haarline.service.api.deps import get_store
     from haarline.service.api.keys import issue_key
     from haarline.service.jobs.store import Store
-    from haarline.service.settings import Settings
 
     ops = declared()
-    cfg = Settings.from_env(
-        {}, data_dir=str(tmp_path / "data"), queue_per_key=2, max_body_bytes=2048
-    )
-    app = create_app(cfg, start_runner=False)  # jobs stay queued; /readyz says not ready
+    # jobs stay queued; /readyz says not ready
+    app = make_app(runner=False, queue_per_key=2, max_body_bytes=2048)
     seen: dict[str, set[int]] = {i: set() for i in ops}
     unlisted: list[str] = []
 

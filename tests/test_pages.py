@@ -5,14 +5,11 @@ import re
 import time
 
 import pytest
-from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
-from haarline.service.api.keys import issue_key
+from conftest import bearer
 from haarline.service.api.page import job_page, reproduce_command
 from haarline.service.api.tokens import check_token, make_token
 from haarline.service.cli import main as cli
 from haarline.service.errors import TokenError
-from haarline.service.settings import Settings
 
 SMALL = {
     "pairs": 300,
@@ -22,16 +19,15 @@ SMALL = {
 }
 
 
+SECRET = "a test secret, 16 characters or more"
+
+
 @pytest.fixture
-def client(tmp_path, monkeypatch):
-    monkeypatch.setenv("HAARLINE_PAGE_SECRET", "test-secret")
-    app = create_app(Settings.from_env({}, data_dir=str(tmp_path / "d"), workers=1))
-    with TestClient(app) as c:
-        _, key = issue_key(c.app.state.store, "alice")
-        _, other = issue_key(c.app.state.store, "bob")
-        c.key = {"Authorization": f"Bearer {key}"}
-        c.other = {"Authorization": f"Bearer {other}"}
-        yield c
+def client(make_client):
+    c = make_client(key=None, page_secret=SECRET)
+    c.key = bearer(c.app, "alice")
+    c.other = bearer(c.app, "bob")
+    return c
 
 
 def finished(client, body):
@@ -87,7 +83,7 @@ def test_share_link_opens_only_that_page(client):
 def test_expired_token_is_403(client):
     url = finished(client, {"reference": "rx-product", "options": SMALL})
     job_id = url.rsplit("/", 1)[1]
-    token, _ = make_token(b"test-secret", job_id, 60, now=time.time() - 3600)
+    token, _ = make_token(SECRET.encode(), job_id, 60, now=time.time() - 3600)
     r = client.get(f"{url}/page", params={"token": token})
     assert r.status_code == 403 and "expired" in r.json()["detail"]
 
@@ -119,13 +115,13 @@ def test_status_aware_pages():
 
 
 def test_token_checks():
-    token, _ = make_token(b"k", "j" * 32, 100, now=1000)
-    check_token(b"k", token, "j" * 32, now=1050)
+    token, _ = make_token(b"k", "a" * 32, 100, now=1000)
+    check_token(b"k", token, "a" * 32, now=1050)
     for args in [
-        (b"k", token, "x" * 32, 1050),
-        (b"other", token, "j" * 32, 1050),
-        (b"k", token, "j" * 32, 2000),
-        (b"k", "junk", "j" * 32, 1050),
+        (b"k", token, "b" * 32, 1050),
+        (b"other", token, "a" * 32, 1050),
+        (b"k", token, "a" * 32, 2000),
+        (b"k", "junk", "a" * 32, 1050),
     ]:
         with pytest.raises(TokenError):
             check_token(args[0], args[1], args[2], now=args[3])

@@ -85,7 +85,7 @@ def admit_analysis(
     circuit, stored = _resolve(body, "(root)")
     options = body.options
     estimate = haarline.estimate(circuit, options, memory_budget=settings.memory_budget)
-    cap = settings.max_score_cost if route == "score" else settings.max_cost
+    cap = settings.max_score_work if route == "score" else settings.max_work
     _check_limits(estimate, settings, cap, route)
     return {**stored, "options": options.model_dump(mode="json")}, estimate
 
@@ -103,5 +103,5 @@ def admit_compare(
         memory = max(memory, est.memory)
         circuits.append(stored)
     estimate = haarline.Estimate(work=total_work, memory=memory)
-    _check_limits(estimate, settings, settings.max_cost, "job")
+    _check_limits(estimate, settings, settings.max_work, "job")
     return {"circuits": circuits, "options": body.options.model_dump(mode="json")}, estimate

@@ -26,6 +26,7 @@ from typing import Any
 from haarline.service.errors import StoreUnavailable
 from haarline.service.jobs.pool import PoolStopped, WorkerLost, WorkerPool
 from haarline.service.jobs.scoring import ScorePool
+from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
 from haarline.service.jobs.worker import execute_job
 from haarline.service.settings import Settings
@@ -48,7 +49,7 @@ class Runner:
         self._wake = threading.Event()
         self._stop = threading.Event()
         self._inflight: dict[str, Future[Any]] = {}
-        self._unrecorded: dict[str, tuple[str, str]] = {}
+        self._unrecorded: dict[str, tuple[JobState, str]] = {}
         self._pool: WorkerPool | None = None
         self._dask: Any = None
         self._thread: threading.Thread | None = None
@@ -169,14 +170,16 @@ class Runner:
                 log.error("job %s failed: %s", job_id, reason)
             try:
                 if again:
-                    self.store.mark(job_id, "queued", error=f"{reason}; retrying")
+                    self.store.mark(job_id, JobState.QUEUED, error=f"{reason}; retrying")
                 else:
-                    self.store.mark(job_id, "failed", error=reason)
+                    self.store.mark(job_id, JobState.FAILED, error=reason)
             except StoreUnavailable:
                 log.warning("could not record the outcome of job %s; will retry", job_id)
                 with self._lock:
                     self._unrecorded[job_id] = (
-                        ("queued", f"{reason}; retrying") if again else ("failed", reason)
+                        (JobState.QUEUED, f"{reason}; retrying")
+                        if again
+                        else (JobState.FAILED, reason)
                     )
         self._wake.set()
 

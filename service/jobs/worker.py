@@ -22,6 +22,7 @@ from typing import Any
 
 import haarline
 from haarline.service.errors import JobCancelled
+from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
 
 __all__ = [
@@ -140,7 +141,7 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
     """Run a claimed job to its end; return its final state."""
     store = Store(database)
     job = store.get_job(job_id)
-    if job is None or job["state"] != "running":
+    if job is None or job["state"] is not JobState.RUNNING:
         return "skipped"
     kind, request = job["kind"], job["request"]
     try:
@@ -164,16 +165,18 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
             kind, request, memory_budget=memory_budget, progress=progress
         )
     except JobCancelled:
-        store.mark(job_id, "cancelled", error="cancelled on request")
+        store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
     except (haarline.InputError, haarline.LimitError) as exc:
-        store.mark(job_id, "failed", error=str(exc))
+        store.mark(job_id, JobState.FAILED, error=str(exc))
         return "failed"
     except MemoryError:
-        store.mark(job_id, "failed", error="out of memory; lower the sample counts or qubits")
+        store.mark(
+            job_id, JobState.FAILED, error="out of memory; lower the sample counts or qubits"
+        )
         return "failed"
     if store.get_job(job_id) and store.set_progress(job_id, 1.0, "storing"):
-        store.mark(job_id, "cancelled", error="cancelled on request")
+        store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
     store.finish(job_id, report=result, markdown=markdown, artifacts=images)
     return "succeeded"

@@ -15,6 +15,8 @@ from haarline.service.api.problems import problem_response, problem_responses
 from haarline.service.api.schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
 from haarline.service.jobs.backoff import full_queue_wait
 from haarline.service.jobs.space import require_free_space
+from haarline.service.jobs.states import JobState
+from haarline.service.jobs.store import Store, is_job_id
 
 __all__ = ["analyses", "comparisons"]
 
@@ -32,28 +34,29 @@ IdempotencyKey = Annotated[
 ]
 
 
-def _owned(store: Any, job_id: str, caller: str, kind: str) -> dict[str, Any]:
-    job = store.get_job(job_id, owner=caller) if re.fullmatch(r"[0-9a-f]{32}", job_id) else None
+def _owned(store: Store, job_id: str, caller: str, kind: str) -> dict[str, Any]:
+    job = store.get_job(job_id, owner=caller) if is_job_id(job_id) else None
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
     return job
 
 
-def _get(store: Any, job_id: str) -> dict[str, Any]:
+def _get(store: Store, job_id: str) -> dict[str, Any]:
     job = store.get_job(job_id)
     if job is None:
         raise HTTPException(404, f"no job {job_id!r}")
-    return job  # type: ignore[no-any-return]
+    return job
 
 
-def _finished(store: Any, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
-    if job["state"] != "succeeded":
+def _finished(store: Store, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
+    state: JobState = job["state"]
+    if state is not JobState.SUCCEEDED:
         what = {
-            "queued": "is queued",
-            "running": f"is running ({job['fraction']:.0%}, {job['stage']})",
-            "failed": f"failed: {job['error']}",
-            "cancelled": "was cancelled",
-        }[job["state"]]
+            JobState.QUEUED: "is queued",
+            JobState.RUNNING: f"is running ({job['fraction']:.0%}, {job['stage']})",
+            JobState.FAILED: f"failed: {job['error']}",
+            JobState.CANCELLED: "was cancelled",
+        }[state]
         raise HTTPException(409, f"job {job['id']} {what}; it has no result")
     result = store.result(job["id"])
     if result is None:
@@ -119,7 +122,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             idempotency_key=idempotency_key,
         )
         if created:
-            source = store.find_finished(digest)
+            # the cache is per key unless HAARLINE_SHARED_RESULT_CACHE shares it
+            shared = settings.shared_result_cache
+            source = store.find_finished(digest, owner=None if shared else caller)
             if source is not None and source != job["id"]:
                 store.copy_result(source, job["id"])
             else:
