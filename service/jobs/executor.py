@@ -23,8 +23,8 @@ import threading
 from concurrent.futures import Future
 from typing import Any
 
-from haarline.service.errors import StoreUnavailable
-from haarline.service.jobs.pool import PoolStopped, WorkerLost, WorkerPool
+from haarline.service.errors import PoolStopped, StoreUnavailable, WorkerLost
+from haarline.service.jobs.pool import WorkerPool
 from haarline.service.jobs.scoring import ScorePool
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
@@ -193,7 +193,7 @@ class Runner:
                 self._unrecorded.pop(job_id, None)
 
 
-class _DaskFuture(Future):  # type: ignore[type-arg]
+class _DaskFuture(Future[Any]):
     """Adapts a ``distributed.Future`` to :class:`concurrent.futures.Future`."""
 
     def __init__(self, inner: Any):
@@ -204,5 +204,5 @@ class _DaskFuture(Future):  # type: ignore[type-arg]
     def _copy(self, inner: Any) -> None:
         try:
             self.set_result(inner.result())
-        except BaseException as exc:  # noqa: BLE001 - handed to the caller
+        except BaseException as exc:  # handed to whoever waits on this future
             self.set_exception(exc)
