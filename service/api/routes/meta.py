@@ -26,7 +26,7 @@ health = APIRouter(tags=["health"])
     "/score",
     operation_id="scoreCircuit",
     tags=["score"],
-    summary="Analyze a small circuit synchronously (under the score cost cap and time limit)",
+    summary="Analyze a small circuit synchronously (under the score work cap and time limit)",
     responses=problem_responses(401, 408, 413, 422, 503, 504),
 )
 async def score(
