@@ -28,9 +28,9 @@ KEYED = {401, 503}  # the key check reads the store
 BODY = {408, 413}  # the body guard, on routes that take a body
 JOB = KEYED | {404}
 RESULT = JOB | {409}
-CREATE = KEYED | BODY | {409, 422, 429}
+CREATE = KEYED | BODY | {409, 415, 422, 429}
 PAGE = KEYED | {403, 404, 422}
-SHARE = KEYED | BODY | {404, 422}
+SHARE = KEYED | BODY | {404, 415, 422}
 CAN_RETURN = {
     "health": set(),  # no key, no store: 200 or nothing
     "ready": {503},  # no key: store, dispatcher or disk
@@ -54,8 +54,8 @@ CAN_RETURN = {
     "getComparisonPage": PAGE,
     "shareAnalysisPage": SHARE,
     "shareComparisonPage": SHARE,
-    "scoreCircuit": KEYED | BODY | {422, 504},
-    "checkCircuit": KEYED | BODY | {422},
+    "scoreCircuit": KEYED | BODY | {415, 422, 504},
+    "checkCircuit": KEYED | BODY | {415, 422},
     "getCircuitSchema": KEYED,
     "listReferences": KEYED,
     "getReference": KEYED | {404},
@@ -162,6 +162,15 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
         for i in ("createAnalysis", "createComparison", "scoreCircuit", "checkCircuit"):
             probe(i, json={})
             probe(i, content=b"x" * 4096, headers={"Content-Type": "application/json"})
+        # a body that is not JSON: 415
+        for i in (
+            *bodies,
+            "scoreCircuit",
+            "checkCircuit",
+            "shareAnalysisPage",
+            "shareComparisonPage",
+        ):
+            probe(i, content=b"ttl_seconds=60", headers={"Content-Type": "text/plain"})
         for i in ("listAnalyses", "listComparisons"):
             probe(i, params={"limit": 0})
         for noun, job in jobs.items():

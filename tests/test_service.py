@@ -174,7 +174,7 @@ def test_idempotency_key(quiet):
     body = {"reference": "rx-product", "options": {"seed": 9}}
     a = quiet.post("/v1/analyses", json=body, headers={"Idempotency-Key": "pr-17"})
     b = quiet.post("/v1/analyses", json=body, headers={"Idempotency-Key": "pr-17"})
-    assert a.status_code == 202 and b.status_code == 200
+    assert a.status_code == 202 and b.status_code == 202
     assert a.json()["id"] == b.json()["id"] and b.headers["Idempotent-Replayed"] == "true"
     c = quiet.post(
         "/v1/analyses", json={**body, "options": {"seed": 10}}, headers={"Idempotency-Key": "pr-17"}
@@ -327,3 +327,34 @@ def test_an_unknown_field_names_the_allowed_ones(quiet, route, body, path, allow
     r = quiet.post(route, json=body)
     assert r.status_code == 422, r.text
     assert {"path": path, "message": f"unknown field; allowed: {allowed}"} in r.json()["errors"]
+
+
+def test_the_result_cache_is_per_key_by_default(client):
+    body = {"reference": "rx-product", "options": SMALL}
+    first = wait(client, client.post("/v1/analyses", json=body).headers["Location"])
+    # another key's identical request runs on its own: a cached answer would tell bob
+    # that someone else analysed this circuit with these options and seed
+    bob = client.post("/v1/analyses", json=body, headers=bearer(client.app)).json()
+    assert not bob["cached"] and bob["state"] == "queued"
+    again = client.post("/v1/analyses", json=body).json()
+    assert again["cached"] and again["id"] != first["id"]
+
+
+def test_a_shared_result_cache_is_a_setting(make_client):
+    c = make_client(shared_result_cache=True)
+    body = {"reference": "rx-product", "options": SMALL}
+    wait(c, c.post("/v1/analyses", json=body).headers["Location"])
+    bob = c.post("/v1/analyses", json=body, headers=bearer(c.app)).json()
+    assert bob["cached"] and bob["state"] == "succeeded"
+
+
+def test_keys_add_takes_the_data_dir_after_the_action(tmp_path, capsys):
+    from haarline.service.api.keys import verify_key
+    from haarline.service.cli import main as cli
+
+    data = str(tmp_path / "after")
+    assert cli.main(["keys", "add", "bot", "--data-dir", data]) == 0
+    key = capsys.readouterr().out.strip()
+    assert verify_key(Store(tmp_path / "after" / "haarline.sqlite3"), key) is not None
+    assert cli.main(["keys", "list", "--data-dir", data]) == 0
+    assert "bot" in capsys.readouterr().out

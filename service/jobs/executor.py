@@ -9,7 +9,8 @@ once, then failed with the reason, and the service keeps serving. A job interrup
 because the store could not be written (locked, full disk) is queued again; an outcome
 the store refuses to record is written on a later round. On start-up, jobs that were
 running when the previous process died, or when the service stopped, are queued again
-(:meth:`Store.requeue_interrupted`).
+(:meth:`Store.requeue_interrupted`). The same thread runs retention
+(:mod:`haarline.service.jobs.retention`) when ``HAARLINE_RETENTION_DAYS`` is set.
 
 The synchronous score route never uses these workers: the runner also owns the score
 route's own small pool (:class:`haarline.service.jobs.scoring.ScorePool`), whose processes
@@ -25,6 +26,7 @@ from typing import Any
 
 from haarline.service.errors import PoolStopped, StoreUnavailable, WorkerLost
 from haarline.service.jobs.pool import WorkerPool
+from haarline.service.jobs.retention import Retention
 from haarline.service.jobs.scoring import ScorePool
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
@@ -55,6 +57,8 @@ class Runner:
         self._thread: threading.Thread | None = None
         self.scores = ScorePool(settings)
         """The score route's own processes (never the job workers)."""
+        self.retention = Retention(store, settings.retention_days)
+        """Deletes old finished jobs, from the dispatcher thread (HAARLINE_RETENTION_DAYS)."""
 
     # --- life cycle -------------------------------------------------------------------------
 
@@ -107,6 +111,7 @@ class Runner:
             self._wake.clear()
             try:
                 self._dispatch()
+                self.retention.maybe_sweep()
             except PoolStopped:  # stop() is under way; a claimed job is requeued next start
                 return
             except StoreUnavailable as exc:

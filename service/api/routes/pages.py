@@ -1,14 +1,17 @@
 """Report pages and the signed links that open them without an API key.
 
 ``GET /v1/analyses/{id}/page`` (and ``/v1/comparisons/{id}/page``) answers the owner's key
-or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is expired,
-tampered with or made for another job: 403. The page is self-contained (PNGs inlined), so
-a token never needs to open anything but the page itself.
+or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is malformed
+(whatever its characters), expired, tampered with, made for another job, or made by a key
+that has since been revoked: 403. A deleted job: 404. The page is self-contained (PNGs
+inlined), so a token never needs to open anything but the page itself. A finished job's
+page never changes: it carries a strong ``ETag`` and answers 304 to ``If-None-Match``;
+the page of a job still queued or running refreshes itself and is ``no-store``.
 """
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, HTTPException, Query
+from fastapi import APIRouter, Depends, HTTPException, Query, Request, Response
 from fastapi.responses import HTMLResponse
 from haarline.service.api.deps import (
     DEV_OWNER,
@@ -18,6 +21,7 @@ from haarline.service.api.deps import (
     SettingsDep,
     StoreDep,
 )
+from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.page import comparison_page, job_page, report_page
 from haarline.service.api.problems import problem_responses
 from haarline.service.api.tokens import MAX_TTL, check_token, make_token
@@ -93,12 +97,13 @@ def _page_route(collection: str) -> None:
     )
     def page(
         job_id: str,
+        request: Request,
         settings: SettingsDep,
         store: StoreDep,
         secret: PageSecretDep,
         owner: KeyOwnerDep,
         token: Annotated[str | None, Query(max_length=300)] = None,
-    ) -> HTMLResponse:
+    ) -> Response:
         if token is not None:
             try:
                 check_token(secret, token, job_id)
@@ -120,23 +125,24 @@ def _page_route(collection: str) -> None:
             job = _job(store, job_id, kind)
             if job["owner"] != owner:
                 raise HTTPException(404, f"no such job {job_id!r}")
-        return HTMLResponse(
-            _render(store, job),
-            headers={
-                "Cache-Control": "no-store",
-                "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
-                "'unsafe-inline'; base-uri 'none'; form-action 'none'",
-                "X-Content-Type-Options": "nosniff",
-                "Referrer-Policy": "no-referrer",
-            },
-        )
+        headers = {
+            "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
+            "'unsafe-inline'; base-uri 'none'; form-action 'none'",
+            "X-Content-Type-Options": "nosniff",
+            "Referrer-Policy": "no-referrer",
+        }
+        text = _render(store, job)
+        if job["state"] is JobState.SUCCEEDED:
+            return immutable(request, text.encode(), "text/html; charset=utf-8", headers=headers)
+        return HTMLResponse(text, headers={**headers, "Cache-Control": NO_STORE})
 
     @router.post(
         f"/v1/{collection}/{{job_id}}/share",
         response_model=SharePublic,
         operation_id=f"share{noun}Page",
         summary="A short-lived signed link to this job's page, for reviewers without a key",
-        responses=problem_responses(401, 404, 408, 413, 422, 503),
+        responses=problem_responses(401, 404, 408, 413, 415, 422, 503),
+        dependencies=[Depends(require_json)],
     )
     def share(
         job_id: str,
