@@ -17,12 +17,12 @@ WORKDIR /app
 COPY pyproject.toml setup.py README.md ./
 COPY analysis ./analysis
 COPY service ./service
-# the same installation the README's `make` targets perform, without the test extras
-RUN python -m pip install --upgrade pip && python -m pip install .
+# exactly what `make run` installs (the package and its dependencies, no extras)
+RUN python -m pip install .
 
-USER haarline
+USER 10001
 VOLUME ["/data"]
 EXPOSE 8000
 HEALTHCHECK --interval=30s --timeout=5s --start-period=20s --retries=3 \
-    CMD python -c "import urllib.request, sys; sys.exit(0 if urllib.request.urlopen('http://127.0.0.1:8000/healthz', timeout=4).status == 200 else 1)"
+    CMD ["python", "-c", "import urllib.request, sys; sys.exit(0 if urllib.request.urlopen('http://127.0.0.1:8000/healthz', timeout=4).status == 200 else 1)"]
 CMD ["haarline", "serve"]

@@ -87,12 +87,13 @@ load: $(VENV)/.test
 faults: $(VENV)/.test
 	$(BIN)/python tests/faults.py --cycles 10
 
-## lint: style, docstrings and types (CI runs it after the tests)
+## lint: style, docstrings, types and the Dockerfile (CI runs it after the tests)
 lint: $(VENV)/.lint typecheck-tree
 	$(BIN)/ruff check analysis service tests bench
 	$(BIN)/ruff format --check analysis service tests bench
 	MYPYPATH=$(TYPECHECK) $(BIN)/mypy -p haarline
 	MYPYPATH=$(TYPECHECK) $(BIN)/mypy bench
+	$(BIN)/hadolint Dockerfile
 
 # mypy finds modules by folder name, and the folders analysis/ and service/ install as
 # haarline and haarline.service: a tree of links under build/ gives it that layout

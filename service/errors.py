@@ -7,6 +7,7 @@ HTTP answer, the CLI turns input problems into exit code 2::
     Exception
     ├── SettingsError        a HAARLINE_* setting is invalid or unsafe (start-up refused)
     ├── StoreUnavailable     the job store is locked, full or unreadable (503)
+    │   └── StoreTooNew      its schema is newer than this release (start-up refused)
     ├── Unavailable          the service cannot serve now: low disk, busy score pool (503)
     ├── TimedOut             synchronous work ran past its limit and was stopped (504)
     ├── OverLimit            estimated work or memory above a configured limit (422)
@@ -30,6 +31,7 @@ __all__ = [
     "OverLimit",
     "PoolStopped",
     "SettingsError",
+    "StoreTooNew",
     "StoreUnavailable",
     "TimedOut",
     "TokenError",
@@ -45,6 +47,10 @@ class SettingsError(Exception):
 
 class StoreUnavailable(Exception):
     """The database cannot be used right now (locked, full disk, unreadable)."""
+
+
+class StoreTooNew(StoreUnavailable):
+    """The database was written by a newer release: its schema version is unknown here."""
 
 
 class Unavailable(Exception):

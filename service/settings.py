@@ -12,9 +12,9 @@ variable                           meaning (default)
 ``HAARLINE_MAX_BODY_BYTES``        largest request body (``1048576``)
 ``HAARLINE_READ_TIMEOUT``          seconds a client may take to send a request's headers,
                                    and again its body (``30``); slower ones are cut off
-``HAARLINE_MAX_COST``              largest estimated cost of one job, in amplitude-gate
+``HAARLINE_MAX_WORK``              largest estimated work of one job, in amplitude-gate
                                    updates (``2e11``)
-``HAARLINE_MAX_SCORE_COST``        the same for the synchronous score route (``2e8``)
+``HAARLINE_MAX_SCORE_WORK``        the same for the synchronous score route (``2e8``)
 ``HAARLINE_SCORE_TIMEOUT``         seconds one score may take before it is stopped with a
                                    504 (``20``)
 ``HAARLINE_SCORE_WORKERS``         processes of the score route's own, beside the job
@@ -28,26 +28,53 @@ variable                           meaning (default)
                                    and a 429 before any job has run (``5``); see
                                    :mod:`haarline.service.jobs.backoff`
 ``HAARLINE_PUBLIC_URL``            base URL used in links (``http://HOST:PORT``)
+``HAARLINE_PAGE_SECRET``           the key that signs share links (default: 32 random bytes
+                                   created once in ``DATA_DIR/page-secret``); changing it
+                                   ends every link given out
+``HAARLINE_RETENTION_DAYS``        delete finished jobs, with their results and plots, this
+                                   many days after they finished (unset: keep them)
+``HAARLINE_SHARED_RESULT_CACHE``   ``1``: a request identical to one *any* key has run is
+                                   answered from that stored result (``0``: only the same
+                                   key's results are reused). Sharing saves work but tells a
+                                   key that another key analysed the same circuit with the
+                                   same options and seed: turn it on only where every key
+                                   belongs to one team
+``HAARLINE_CORS_ORIGINS``          comma-separated origins (``https://wiki.example.org``)
+                                   whose pages may call the API from a browser (unset: none)
 =================================  ==========================================================
 
 An unsafe configuration refuses to start: development mode on anything but a loopback
-address, a non-positive limit, or a data directory that cannot be created.
+address, a non-positive limit, a data directory that cannot be created, an origin that is
+not ``scheme://host[:port]``, or a variable of an older release that was renamed
+(``HAARLINE_MAX_COST``: the error names its new name; it is never read silently).
+
+This is a plain pydantic model read by :meth:`Settings.from_env` rather than
+pydantic-settings: every variable is one flat string, tests pass a mapping instead of the
+process environment, and the start-up errors name the variable as the operator typed it;
+the few lines here do exactly that without another dependency.
 """
 
 from __future__ import annotations
 
 import ipaddress
 import os
+import re
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 from haarline.service.errors import SettingsError
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, SecretStr, ValidationError, model_validator
 
-__all__ = ["ENV_PREFIX", "Settings", "SettingsError"]
+__all__ = ["ENV_PREFIX", "RENAMED", "Settings", "SettingsError"]
 
 ENV_PREFIX = "HAARLINE_"
+
+RENAMED = {"MAX_COST": "MAX_WORK", "MAX_SCORE_COST": "MAX_SCORE_WORK"}
+"""Variables of earlier releases and their new names (the estimate is called "work")."""
+
+_FLAGS = ("dev_mode", "shared_result_cache")
+_ORIGIN = re.compile(r"https?://[A-Za-z0-9.\-\[\]:]+")
 
 
 def _is_loopback(host: str) -> bool:
@@ -72,8 +99,8 @@ class Settings(BaseModel):
     dev_mode: bool = False
     max_body_bytes: int = Field(default=1_048_576, ge=1024)
     read_timeout: float = Field(default=30.0, gt=0, le=3600)
-    max_cost: float = Field(default=2e11, gt=0)
-    max_score_cost: float = Field(default=2e8, gt=0)
+    max_work: float = Field(default=2e11, gt=0)
+    max_score_work: float = Field(default=2e8, gt=0)
     score_timeout: float = Field(default=20.0, gt=0, le=600)
     score_workers: int = Field(default=1, ge=1, le=32)
     max_memory_bytes: int = Field(default=2 << 30, gt=0)
@@ -82,6 +109,10 @@ class Settings(BaseModel):
     min_free_bytes: int = Field(default=64 << 20, ge=0)
     retry_after: int = Field(default=5, ge=1)
     public_url: str | None = None
+    page_secret: SecretStr | None = Field(default=None, min_length=16)
+    retention_days: float | None = Field(default=None, gt=0, le=36_500)
+    shared_result_cache: bool = False
+    cors_origins: tuple[str, ...] = ()
 
     @model_validator(mode="after")
     def _safe(self) -> Settings:
@@ -90,6 +121,12 @@ class Settings(BaseModel):
                 f"development mode serves without API keys and may only bind a loopback "
                 f"address, not {self.host!r}"
             )
+        for origin in self.cors_origins:
+            if not _ORIGIN.fullmatch(origin):
+                raise ValueError(
+                    f"cors_origins: {origin!r} is not an origin; expected scheme://host[:port] "
+                    "such as https://wiki.example.org (no path, no wildcard)"
+                )
         return self
 
     @property
@@ -112,17 +149,28 @@ class Settings(BaseModel):
             Naming the variable and the problem.
         """
         env = os.environ if env is None else env
+        for old, new in RENAMED.items():
+            if env.get(ENV_PREFIX + old, "") != "":
+                raise SettingsError(
+                    f"{ENV_PREFIX}{old} was renamed {ENV_PREFIX}{new} (the estimate is called "
+                    f"work now); set {ENV_PREFIX}{new} instead and remove {ENV_PREFIX}{old}"
+                )
         raw: dict[str, Any] = {}
         for name in cls.model_fields:
             key = ENV_PREFIX + name.upper()
             if key in env and env[key] != "":
                 raw[name] = env[key]
+        if isinstance(raw.get("cors_origins"), str):
+            raw["cors_origins"] = tuple(o.strip() for o in raw["cors_origins"].split(",") if o)
         raw.update({k: v for k, v in overrides.items() if v is not None})
-        if "dev_mode" in raw and isinstance(raw["dev_mode"], str):
-            flag = raw["dev_mode"].strip().lower()
-            if flag not in ("0", "1", "true", "false", "yes", "no"):
-                raise SettingsError(f"{ENV_PREFIX}DEV_MODE: expected 0 or 1, got {flag!r}")
-            raw["dev_mode"] = flag in ("1", "true", "yes")
+        for name in _FLAGS:
+            if isinstance(raw.get(name), str):
+                flag = raw[name].strip().lower()
+                if flag not in ("0", "1", "true", "false", "yes", "no"):
+                    raise SettingsError(
+                        f"{ENV_PREFIX}{name.upper()}: expected 0 or 1, got {flag!r}"
+                    )
+                raw[name] = flag in ("1", "true", "yes")
         try:
             settings = cls.model_validate(raw)
         except ValidationError as exc:
@@ -130,7 +178,10 @@ class Settings(BaseModel):
             for err in exc.errors(include_url=False):
                 field = str(err["loc"][0]) if err["loc"] else ""
                 where = ENV_PREFIX + field.upper() if field else "settings"
-                lines.append(f"{where}: {err['msg'].removeprefix('Value error, ')}")
+                message = err["msg"].removeprefix("Value error, ")
+                if message.startswith("cors_origins: "):
+                    where, message = ENV_PREFIX + "CORS_ORIGINS", message[len("cors_origins: ") :]
+                lines.append(f"{where}: {message}")
             raise SettingsError("; ".join(lines)) from None
         try:
             settings.data_dir.mkdir(parents=True, exist_ok=True)

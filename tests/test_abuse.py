@@ -12,33 +12,28 @@ from concurrent.futures import ThreadPoolExecutor
 
 import httpx2 as httpx
 import pytest
-from fastapi.testclient import TestClient
 from haarline.service.api import keys
-from haarline.service.api.app import create_app
 from haarline.service.api.keys import issue_key, verify_key
 from haarline.service.jobs.store import Store
-from haarline.service.settings import Settings
 from live_server import LiveServer
 
 PNG = b"\x89PNG\r\n\x1a\n" + b"\0" * 16
 
 
-@pytest.fixture(scope="module")
-def app_client(tmp_path_factory):
+@pytest.fixture
+def app_client(make_client):
     """An app without a dispatcher, a key, and one finished job with a stored plot."""
-    data = tmp_path_factory.mktemp("abuse-app") / "data"
-    cfg = Settings.from_env({}, data_dir=str(data), workers=1)
-    with TestClient(create_app(cfg, start_runner=False), raise_server_exceptions=False) as c:
-        store = c.app.state.store
-        key_id, key = issue_key(store, "alice")
-        c.headers["Authorization"] = f"Bearer {key}"
-        job, _ = store.create_job(
-            owner=key_id, kind="analysis", request={"reference": "x"}, request_hash="h"
-        )
-        store.claim(job["id"])
-        store.finish(job["id"], report={"ok": 1}, markdown="# ok", artifacts={"fidelity.png": PNG})
-        c.job = job["id"]
-        yield c
+    c = make_client(runner=False, key=None, raise_server_exceptions=False)
+    store = c.app.state.store
+    key_id, key = issue_key(store, "alice")
+    c.headers["Authorization"] = f"Bearer {key}"
+    job, _ = store.create_job(
+        owner=key_id, kind="analysis", request={"reference": "x"}, request_hash="h"
+    )
+    store.claim(job["id"])
+    store.finish(job["id"], report={"ok": 1}, markdown="# ok", artifacts={"fidelity.png": PNG})
+    c.job = job["id"]
+    return c
 
 
 def is_problem(r, status):
@@ -179,14 +174,21 @@ def test_enormous_work_is_422_with_the_limit_and_estimate(app_client, body):
         "multipart/form-data; boundary=zz",
         "application/xml",
         "application/octet-stream",
-        None,
+        "application/yaml",
+        "application/json-patch",
+        "",
     ],
 )
-def test_wrong_content_types_are_422_never_500(app_client, content_type):
-    headers = {} if content_type is None else {"Content-Type": content_type}
+def test_wrong_content_types_are_415_never_500(app_client, content_type):
     body = b'{"reference": "rx-product"}'
     for route in ("/v1/analyses", "/v1/check", "/v1/score"):
-        is_problem(app_client.post(route, content=body, headers=headers), 422)
+        r = app_client.post(route, content=body, headers={"Content-Type": content_type})
+        assert "application/json" in is_problem(r, 415)["detail"]
+
+
+def test_a_body_without_a_content_type_is_415(app_client):
+    r = app_client.post("/v1/check", content=b'{"reference": "rx-product"}')
+    assert "no Content-Type" in is_problem(r, 415)["detail"]
 
 
 def test_replayed_idempotency_key_with_another_body_is_409(app_client):
@@ -195,7 +197,7 @@ def test_replayed_idempotency_key_with_another_body_is_409(app_client):
     first = c.post("/v1/analyses", json=body, headers={"Idempotency-Key": "k-1"})
     assert first.status_code == 202
     again = c.post("/v1/analyses", json=body, headers={"Idempotency-Key": "k-1"})
-    assert again.status_code == 200 and again.json()["id"] == first.json()["id"]
+    assert again.status_code == 202 and again.json()["id"] == first.json()["id"]
     other = {"reference": "rx-product", "options": {"seed": 10}}
     is_problem(c.post("/v1/analyses", json=other, headers={"Idempotency-Key": "k-1"}), 409)
     # the key is scoped to its API key: someone else's identical key is a new job

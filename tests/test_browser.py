@@ -24,8 +24,6 @@ pytestmark = pytest.mark.skipif(
     CHROMIUM is None, reason="Chromium is not installed (Debian package 'chromium')"
 )
 
-from test_server_process import server  # noqa: E402,F401  (the real-server fixture)
-
 REPO = Path(__file__).resolve().parent.parent
 FLAGS = [
     "--headless",
@@ -45,10 +43,10 @@ FLAGS = [
 class Browser:
     """The least of a DevTools client: one page, commands and collected events."""
 
-    def __init__(self):
+    def __init__(self, *extra: str):
         self.profile = tempfile.mkdtemp(prefix="haarline-chromium-")
         self.proc = subprocess.Popen(
-            [CHROMIUM, *FLAGS, f"--user-data-dir={self.profile}", "about:blank"],
+            [CHROMIUM, *FLAGS, *extra, f"--user-data-dir={self.profile}", "about:blank"],
             stdout=subprocess.DEVNULL,
             stderr=subprocess.DEVNULL,
         )
@@ -121,8 +119,8 @@ def browser():
     b.close()
 
 
-def test_report_page_in_headless_chromium(server, browser):  # noqa: F811
-    c = server["client"]
+def test_report_page_in_headless_chromium(live_server, live_client, browser):
+    c = live_client
     opts = {
         "pairs": 500,
         "samples": 200,
@@ -140,7 +138,7 @@ def test_report_page_in_headless_chromium(server, browser):  # noqa: F811
         time.sleep(0.2)
     report = c.get(f"{url}/report").json()
     share = c.post(f"{url}/share", json={"ttl_seconds": 600}).json()
-    base = f"http://127.0.0.1:{server['port']}"
+    base = live_server.url
     link = share["url"].replace("http://127.0.0.1:8000", base)
 
     browser.call("Page.navigate", url=link)
@@ -186,13 +184,58 @@ def test_report_page_in_headless_chromium(server, browser):  # noqa: F811
     (out / "report-page-phone.png").write_bytes(base64.b64decode(shot["data"]))
 
 
-def test_share_link_for_another_job_is_refused_in_the_browser(server, browser):  # noqa: F811
-    c = server["client"]
+def test_share_link_for_another_job_is_refused_in_the_browser(live_server, live_client, browser):
+    c = live_client
     body = {"reference": "rx-product", "options": {"pairs": 200, "samples": 50}}
     first = c.post("/v1/analyses", json=body).headers["location"]
     second = c.post("/v1/analyses", json={**body, "options": {"pairs": 201, "samples": 50}})
     token = c.post(f"{first}/share").json()["url"].split("token=")[1]
-    base = f"http://127.0.0.1:{server['port']}"
+    base = live_server.url
     r = httpx.get(f"{base}{second.headers['location']}/page", params={"token": token})
     assert r.status_code == 403
     assert httpx.get(f"{base}{first}/page").status_code == 401
+
+
+# every host but loopback is unreachable: a proxy on a closed loopback port takes all
+# other traffic (Chromium never proxies loopback), and no name but 127.0.0.1 resolves
+OFFLINE = (
+    "--proxy-server=http://127.0.0.1:9",
+    "--host-resolver-rules=MAP * ~NOTFOUND, EXCLUDE 127.0.0.1",
+)
+
+
+def test_interactive_docs_work_with_the_network_blocked(live_server):
+    offline = Browser(*OFFLINE)
+    try:
+        offline.call("Network.enable")
+        offline.call("Page.navigate", url=f"{live_server.url}/docs")
+        offline.wait_event("Page.loadEventFired")
+        deadline = time.time() + 30
+        count = 0
+        while time.time() < deadline:
+            count = offline.evaluate("document.querySelectorAll('.opblock').length")
+            if count:
+                break
+            time.sleep(0.2)
+        document = httpx.get(f"{live_server.url}/openapi.json").json()
+        operations = [
+            op["operationId"] for ops in document["paths"].values() for op in ops.values()
+        ]
+        assert count == len(operations) > 20
+        shown = offline.evaluate(
+            "JSON.stringify([...document.querySelectorAll('.opblock')].map(e => e.id))"
+        )
+        for operation in ("createAnalysis", "getAnalysisReport", "scoreCircuit"):
+            assert operation in shown
+        requested = [
+            e["params"]["request"]["url"]
+            for e in offline.events
+            if e.get("method") == "Network.requestWillBeSent"
+        ]
+        elsewhere = [u for u in requested if not u.startswith((live_server.url, "data:"))]
+        assert requested and elsewhere == []
+        failed = [e["params"] for e in offline.events if e.get("method") == "Network.loadingFailed"]
+        assert failed == []
+        assert offline.errors() == []
+    finally:
+        offline.close()

@@ -24,9 +24,7 @@ from contextlib import closing
 import psutil
 from fastapi.testclient import TestClient
 from faults import run_cycles
-from haarline.service.api.app import create_app
 from haarline.service.api.keys import issue_key
-from haarline.service.settings import Settings
 from live_server import LiveServer, wait_for
 
 SMALL = {"reference": "rx-product", "options": {"pairs": 100, "samples": 50}}
@@ -103,9 +101,8 @@ def exited(pid: int) -> bool:
         return True
 
 
-def test_a_locked_database_is_a_503_and_nothing_is_corrupted(tmp_path):
-    cfg = Settings.from_env({}, data_dir=str(tmp_path / "data"), workers=1)
-    with TestClient(create_app(cfg, start_runner=False)) as c:
+def test_a_locked_database_is_a_503_and_nothing_is_corrupted(make_app, tmp_path):
+    with TestClient(make_app(runner=False)) as c:
         store = c.app.state.store
         store.timeout = 0.5  # the busy wait before giving up (5 s by default)
         _, key = issue_key(store, "alice")

@@ -50,8 +50,8 @@ APP = create_app(
         {},
         data_dir=str(DATA / "data"),
         workers=1,
-        max_cost=1e7,  # accepted jobs stay small
-        max_score_cost=1e6,
+        max_work=1e7,  # accepted jobs stay small
+        max_score_work=1e6,
         max_body_bytes=65_536,
     )
 )

@@ -28,9 +28,9 @@ KEYED = {401, 503}  # the key check reads the store
 BODY = {408, 413}  # the body guard, on routes that take a body
 JOB = KEYED | {404}
 RESULT = JOB | {409}
-CREATE = KEYED | BODY | {409, 422, 429}
+CREATE = KEYED | BODY | {409, 415, 422, 429}
 PAGE = KEYED | {403, 404, 422}
-SHARE = KEYED | BODY | {404, 422}
+SHARE = KEYED | BODY | {404, 415, 422}
 CAN_RETURN = {
     "health": set(),  # no key, no store: 200 or nothing
     "ready": {503},  # no key: store, dispatcher or disk
@@ -54,8 +54,8 @@ CAN_RETURN = {
     "getComparisonPage": PAGE,
     "shareAnalysisPage": SHARE,
     "shareComparisonPage": SHARE,
-    "scoreCircuit": KEYED | BODY | {422, 504},
-    "checkCircuit": KEYED | BODY | {422},
+    "scoreCircuit": KEYED | BODY | {415, 422, 504},
+    "checkCircuit": KEYED | BODY | {415, 422},
     "getCircuitSchema": KEYED,
     "listReferences": KEYED,
     "getReference": KEYED | {404},
@@ -100,20 +100,16 @@ def test_problem_responses_are_problem_json_with_the_problem_schema():
                 assert response["description"] and response["description"][0].isupper(), where
 
 
-def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(tmp_path):
+def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, tmp_path):
     """Provoke each status the table lists; no probe may get one the operation does not list."""
     from fastapi.testclient import TestClient
-    from haarline.service.api.app import create_app
     from haarline.service.api.deps import get_store
     from haarline.service.api.keys import issue_key
     from haarline.service.jobs.store import Store
-    from haarline.service.settings import Settings
 
     ops = declared()
-    cfg = Settings.from_env(
-        {}, data_dir=str(tmp_path / "data"), queue_per_key=2, max_body_bytes=2048
-    )
-    app = create_app(cfg, start_runner=False)  # jobs stay queued; /readyz says not ready
+    # jobs stay queued; /readyz says not ready
+    app = make_app(runner=False, queue_per_key=2, max_body_bytes=2048)
     seen: dict[str, set[int]] = {i: set() for i in ops}
     unlisted: list[str] = []
 
@@ -166,6 +162,15 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(tmp_path):
         for i in ("createAnalysis", "createComparison", "scoreCircuit", "checkCircuit"):
             probe(i, json={})
             probe(i, content=b"x" * 4096, headers={"Content-Type": "application/json"})
+        # a body that is not JSON: 415
+        for i in (
+            *bodies,
+            "scoreCircuit",
+            "checkCircuit",
+            "shareAnalysisPage",
+            "shareComparisonPage",
+        ):
+            probe(i, content=b"ttl_seconds=60", headers={"Content-Type": "text/plain"})
         for i in ("listAnalyses", "listComparisons"):
             probe(i, params={"limit": 0})
         for noun, job in jobs.items():

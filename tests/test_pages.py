@@ -5,14 +5,14 @@ import re
 import time
 
 import pytest
-from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
+from conftest import bearer
 from haarline.service.api.keys import issue_key
 from haarline.service.api.page import job_page, reproduce_command
 from haarline.service.api.tokens import check_token, make_token
 from haarline.service.cli import main as cli
 from haarline.service.errors import TokenError
-from haarline.service.settings import Settings
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 SMALL = {
     "pairs": 300,
@@ -22,22 +22,22 @@ SMALL = {
 }
 
 
+SECRET = "a test secret, 16 characters or more"
+
+
 @pytest.fixture
-def client(tmp_path, monkeypatch):
-    monkeypatch.setenv("HAARLINE_PAGE_SECRET", "test-secret")
-    app = create_app(Settings.from_env({}, data_dir=str(tmp_path / "d"), workers=1))
-    with TestClient(app) as c:
-        _, key = issue_key(c.app.state.store, "alice")
-        _, other = issue_key(c.app.state.store, "bob")
-        c.key = {"Authorization": f"Bearer {key}"}
-        c.other = {"Authorization": f"Bearer {other}"}
-        yield c
+def client(make_client):
+    c = make_client(key=None, page_secret=SECRET)
+    c.key = bearer(c.app, "alice")
+    c.other = bearer(c.app, "bob")
+    return c
 
 
-def finished(client, body):
-    url = client.post("/v1/analyses", json=body, headers=client.key).headers["Location"]
+def finished(client, body, key=None):
+    key = key or client.key
+    url = client.post("/v1/analyses", json=body, headers=key).headers["Location"]
     deadline = time.time() + 60
-    while client.get(url, headers=client.key).json()["state"] not in ("succeeded", "failed"):
+    while client.get(url, headers=key).json()["state"] not in ("succeeded", "failed"):
         assert time.time() < deadline
         time.sleep(0.1)
     return url
@@ -87,7 +87,7 @@ def test_share_link_opens_only_that_page(client):
 def test_expired_token_is_403(client):
     url = finished(client, {"reference": "rx-product", "options": SMALL})
     job_id = url.rsplit("/", 1)[1]
-    token, _ = make_token(b"test-secret", job_id, 60, now=time.time() - 3600)
+    token, _ = make_token(SECRET.encode(), job_id, 60, now=time.time() - 3600)
     r = client.get(f"{url}/page", params={"token": token})
     assert r.status_code == 403 and "expired" in r.json()["detail"]
 
@@ -119,13 +119,13 @@ def test_status_aware_pages():
 
 
 def test_token_checks():
-    token, _ = make_token(b"k", "j" * 32, 100, now=1000)
-    check_token(b"k", token, "j" * 32, now=1050)
+    token, _ = make_token(b"k", "a" * 32, 100, now=1000)
+    check_token(b"k", token, "a" * 32, now=1050)
     for args in [
-        (b"k", token, "x" * 32, 1050),
-        (b"other", token, "j" * 32, 1050),
-        (b"k", token, "j" * 32, 2000),
-        (b"k", "junk", "j" * 32, 1050),
+        (b"k", token, "b" * 32, 1050),
+        (b"other", token, "a" * 32, 1050),
+        (b"k", token, "a" * 32, 2000),
+        (b"k", "junk", "a" * 32, 1050),
     ]:
         with pytest.raises(TokenError):
             check_token(args[0], args[1], args[2], now=args[3])
@@ -165,3 +165,56 @@ def test_reproduce_command_round_trips_the_options(tmp_path, capsys):
     page = (out / "report.html").read_text()
     assert cell(page, "expressibility.kl") == f"{report['expressibility']['kl']:.4f}"
     assert "[report.html](report.html)" in (out / "summary.md").read_text()
+
+
+# --- issue 17: any token text is a 403, never a 500; revoked keys and deleted jobs end links
+
+
+TOKEN_TEXT = st.one_of(
+    st.text(max_size=120),
+    st.text(alphabet="0123456789abcdef.²³¹٠١٢éß_-", max_size=120),
+    st.builds(
+        lambda j, e, s: f"{j}.{e}.{s}",
+        st.text(max_size=40),
+        st.text(max_size=15),
+        st.text(max_size=50),
+    ),
+)
+
+
+@settings(max_examples=400, deadline=None)
+@given(token=st.one_of(TOKEN_TEXT, st.binary(max_size=120)), job_id=st.text(max_size=40))
+def test_the_token_checker_raises_only_its_own_error(token, job_id):
+    # a.².b: '²'.isdigit() is true and int('²') fails; a.1.é: compare_digest refuses non-ASCII
+    with pytest.raises(TokenError):
+        check_token(b"k" * 32, token, job_id)
+    with pytest.raises(TokenError):
+        check_token(b"k" * 32, token, "a" * 32)
+
+
+@pytest.mark.parametrize("token", ["a.².b", "a.1.é", "a.1.b", "%s.1e3.x", "٠" * 40, "\x00.1.x"])
+def test_odd_tokens_are_403_on_the_page(client, token):
+    url = client.post("/v1/analyses", json={"reference": "rx-product"}, headers=client.key)
+    path = url.headers["Location"]
+    r = client.get(f"{path}/page", params={"token": token.replace("%s", "a" * 32)})
+    assert r.status_code == 403 and r.headers["content-type"] == "application/problem+json"
+
+
+def test_a_revoked_key_ends_its_share_links(client):
+    store = client.app.state.store
+    key_id, key = issue_key(store, "carol")
+    carol = {"Authorization": f"Bearer {key}"}
+    url = finished(client, {"reference": "rx-product", "options": SMALL}, carol)
+    token = client.post(f"{url}/share", headers=carol).json()["url"].split("token=")[1]
+    assert client.get(f"{url}/page", params={"token": token}).status_code == 200
+    store.revoke_key(key_id)
+    r = client.get(f"{url}/page", params={"token": token})
+    assert r.status_code == 403 and "revoked" in r.json()["detail"]
+
+
+def test_a_deleted_job_ends_its_share_links(client):
+    url = finished(client, {"reference": "rx-product", "options": SMALL})
+    token = client.post(f"{url}/share", headers=client.key).json()["url"].split("token=")[1]
+    assert client.get(f"{url}/page", params={"token": token}).status_code == 200
+    assert client.delete(url, headers=client.key).status_code == 204
+    assert client.get(f"{url}/page", params={"token": token}).status_code == 404

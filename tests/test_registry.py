@@ -19,9 +19,7 @@ from haarline import REGISTRY, AnalysisOptions, Context, StageFraction, analyze,
 from haarline.plots.figures import DRAWERS
 from haarline.report.options import Metric
 from haarline.report.policy import _resolve
-from haarline.service.api.app import create_app
 from haarline.service.cli import main as cli
-from haarline.service.settings import Settings
 
 # a small re-uploading model: every metric of the registry applies to it
 DESCRIPTION = {
@@ -140,9 +138,8 @@ def test_the_cli_accepts_every_row_and_says_what_each_measures(capsys, tmp_path)
     assert all(report[name] is not None for name in REGISTRY)
 
 
-def test_the_service_accepts_every_row_and_its_schema_lists_them(tmp_path):
-    app = create_app(Settings.from_env({}, data_dir=tmp_path, dev_mode=True), start_runner=False)
-    with TestClient(app) as client:
+def test_the_service_accepts_every_row_and_its_schema_lists_them(make_app):
+    with TestClient(make_app(runner=False, dev_mode=True)) as client:
         schema = client.get("/openapi.json").json()
         metrics = schema["components"]["schemas"]["AnalysisOptions"]["properties"]["metrics"]
         assert metrics["items"]["enum"] == list(REGISTRY)

@@ -5,39 +5,12 @@ import time
 
 import haarline
 import pytest
-from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
+from conftest import bearer
 from haarline.service.api.keys import issue_key
 from haarline.service.jobs.store import Store
 from haarline.service.settings import Settings
 
 SMALL = {"pairs": 300, "samples": 100, "seed": 5}
-
-
-def make_app(tmp_path, *, runner=True, **settings):
-    cfg = Settings.from_env({}, data_dir=str(tmp_path / "data"), workers=1, **settings)
-    return create_app(cfg, start_runner=runner)
-
-
-@pytest.fixture
-def client(tmp_path):
-    with TestClient(make_app(tmp_path)) as c:
-        store = Store(tmp_path / "data" / "haarline.sqlite3")
-        _, key = issue_key(store, "alice")
-        _, other = issue_key(store, "bob")
-        c.headers["Authorization"] = f"Bearer {key}"
-        c.other = {"Authorization": f"Bearer {other}"}
-        yield c
-
-
-@pytest.fixture
-def quiet(tmp_path):
-    """An app whose dispatcher does not run: jobs stay queued."""
-    with TestClient(make_app(tmp_path, runner=False)) as c:
-        store = Store(tmp_path / "data" / "haarline.sqlite3")
-        _, key = issue_key(store, "alice")
-        c.headers["Authorization"] = f"Bearer {key}"
-        yield c
 
 
 def wait(client, url, timeout=60):
@@ -87,9 +60,7 @@ def test_identical_request_is_answered_from_the_store(client):
 
 
 def test_keys_see_only_their_own_jobs(quiet):
-    store = quiet.app.state.store
-    _, other = issue_key(store, "bob")
-    bob = {"Authorization": f"Bearer {other}"}
+    bob = bearer(quiet.app)
     job = quiet.post("/v1/analyses", json={"reference": "rx-product"}).json()
     for method, path in [
         ("get", ""),
@@ -167,12 +138,10 @@ def test_malformed_json_is_422_not_500(quiet):
     assert r.status_code == 422 and r.headers["content-type"] == "application/problem+json"
 
 
-def test_oversize_body_is_413(tmp_path):
-    with TestClient(make_app(tmp_path, runner=False, max_body_bytes=2048)) as c:
-        r = c.post(
-            "/v1/analyses", content=b"x" * 5000, headers={"Content-Type": "application/json"}
-        )
-        assert r.status_code == 413 and "2048" in r.json()["detail"]
+def test_oversize_body_is_413(make_client):
+    c = make_client(runner=False, max_body_bytes=2048)
+    r = c.post("/v1/analyses", content=b"x" * 5000, headers={"Content-Type": "application/json"})
+    assert r.status_code == 413 and "2048" in r.json()["detail"]
 
 
 def test_work_over_the_cost_cap_is_rejected_with_the_estimate(quiet):
@@ -182,7 +151,7 @@ def test_work_over_the_cost_cap_is_rejected_with_the_estimate(quiet):
     r = quiet.post("/v1/analyses", json=body)
     assert r.status_code == 422
     problem = r.json()
-    assert problem["limit"] == quiet.app.state.settings.max_cost
+    assert problem["limit"] == quiet.app.state.settings.max_work
     assert problem["estimate"] > problem["limit"] and "exceeds the limit" in problem["detail"]
     assert "the expressibility metric accounts for 100% of it" in problem["detail"]
     r = quiet.post("/v1/score", json={"reference": "ry-cz-ring", "options": {"pairs": 1_000_000}})
@@ -192,26 +161,20 @@ def test_work_over_the_cost_cap_is_rejected_with_the_estimate(quiet):
     assert r.status_code == 422 and "the lie metric accounts for 100% of it" in r.json()["detail"]
 
 
-def test_queue_per_key_gives_429_with_retry_after(tmp_path):
-    with TestClient(make_app(tmp_path, runner=False, queue_per_key=2)) as c:
-        _, key = issue_key(c.app.state.store, "eve")
-        c.headers["Authorization"] = f"Bearer {key}"
-        for seed in (1, 2):
-            assert (
-                c.post(
-                    "/v1/analyses", json={"reference": "rx-product", "options": {"seed": seed}}
-                ).status_code
-                == 202
-            )
-        r = c.post("/v1/analyses", json={"reference": "rx-product", "options": {"seed": 3}})
-        assert r.status_code == 429 and r.headers["Retry-After"] == "5"
+def test_queue_per_key_gives_429_with_retry_after(make_client):
+    c = make_client(runner=False, queue_per_key=2)
+    for seed in (1, 2):
+        r = c.post("/v1/analyses", json={"reference": "rx-product", "options": {"seed": seed}})
+        assert r.status_code == 202
+    r = c.post("/v1/analyses", json={"reference": "rx-product", "options": {"seed": 3}})
+    assert r.status_code == 429 and r.headers["Retry-After"] == "5"
 
 
 def test_idempotency_key(quiet):
     body = {"reference": "rx-product", "options": {"seed": 9}}
     a = quiet.post("/v1/analyses", json=body, headers={"Idempotency-Key": "pr-17"})
     b = quiet.post("/v1/analyses", json=body, headers={"Idempotency-Key": "pr-17"})
-    assert a.status_code == 202 and b.status_code == 200
+    assert a.status_code == 202 and b.status_code == 202
     assert a.json()["id"] == b.json()["id"] and b.headers["Idempotent-Replayed"] == "true"
     c = quiet.post(
         "/v1/analyses", json={**body, "options": {"seed": 10}}, headers={"Idempotency-Key": "pr-17"}
@@ -369,3 +332,34 @@ def test_an_unknown_field_names_the_allowed_ones(quiet, route, body, path, allow
     r = quiet.post(route, json=body)
     assert r.status_code == 422, r.text
     assert {"path": path, "message": f"unknown field; allowed: {allowed}"} in r.json()["errors"]
+
+
+def test_the_result_cache_is_per_key_by_default(client):
+    body = {"reference": "rx-product", "options": SMALL}
+    first = wait(client, client.post("/v1/analyses", json=body).headers["Location"])
+    # another key's identical request runs on its own: a cached answer would tell bob
+    # that someone else analysed this circuit with these options and seed
+    bob = client.post("/v1/analyses", json=body, headers=bearer(client.app)).json()
+    assert not bob["cached"] and bob["state"] == "queued"
+    again = client.post("/v1/analyses", json=body).json()
+    assert again["cached"] and again["id"] != first["id"]
+
+
+def test_a_shared_result_cache_is_a_setting(make_client):
+    c = make_client(shared_result_cache=True)
+    body = {"reference": "rx-product", "options": SMALL}
+    wait(c, c.post("/v1/analyses", json=body).headers["Location"])
+    bob = c.post("/v1/analyses", json=body, headers=bearer(c.app)).json()
+    assert bob["cached"] and bob["state"] == "succeeded"
+
+
+def test_keys_add_takes_the_data_dir_after_the_action(tmp_path, capsys):
+    from haarline.service.api.keys import verify_key
+    from haarline.service.cli import main as cli
+
+    data = str(tmp_path / "after")
+    assert cli.main(["keys", "add", "bot", "--data-dir", data]) == 0
+    key = capsys.readouterr().out.strip()
+    assert verify_key(Store(tmp_path / "after" / "haarline.sqlite3"), key) is not None
+    assert cli.main(["keys", "list", "--data-dir", data]) == 0
+    assert "bot" in capsys.readouterr().out

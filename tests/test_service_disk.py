@@ -14,11 +14,9 @@ from contextlib import closing, contextmanager
 
 import pytest
 from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
 from haarline.service.api.deps import get_store
 from haarline.service.api.keys import issue_key
 from haarline.service.jobs.store import Store
-from haarline.service.settings import Settings
 
 SMALL = {"reference": "rx-product", "options": {"pairs": 100, "samples": 50}}
 
@@ -38,15 +36,8 @@ class FullDisk(Store):
             yield conn
 
 
-def make_app(tmp_path, *, runner=True, **settings):
-    cfg = Settings.from_env(
-        {}, data_dir=str(tmp_path / "data"), workers=1, queue_per_key=1000, **settings
-    )
-    return create_app(cfg, start_runner=runner)
-
-
-def test_readiness_reports_the_free_space(tmp_path):
-    with TestClient(make_app(tmp_path)) as c:
+def test_readiness_reports_the_free_space(make_app, tmp_path):
+    with TestClient(make_app()) as c:
         r = c.get("/readyz")
         assert r.status_code == 200, r.text
         body = r.json()
@@ -56,10 +47,10 @@ def test_readiness_reports_the_free_space(tmp_path):
         assert body["free_bytes"] == pytest.approx(free, abs=256 * 2**20)  # others write too
 
 
-def test_readiness_fails_below_the_minimum_free_space(tmp_path):
+def test_readiness_fails_below_the_minimum_free_space(make_app, tmp_path):
     free = shutil.disk_usage(tmp_path).free
     least = free + 2**40  # a tebibyte more than there is
-    with TestClient(make_app(tmp_path, min_free_bytes=least, retry_after=9)) as c:
+    with TestClient(make_app(min_free_bytes=least, retry_after=9)) as c:
         r = c.get("/readyz")
         assert r.status_code == 503, r.text
         assert r.headers["content-type"] == "application/problem+json"
@@ -78,8 +69,8 @@ def test_readiness_fails_below_the_minimum_free_space(tmp_path):
         assert c.get("/healthz").status_code == 200  # the process itself is fine
 
 
-def test_a_full_disk_is_a_clear_503_and_the_store_stays_whole(tmp_path):
-    app = make_app(tmp_path, runner=False, retry_after=8)
+def test_a_full_disk_is_a_clear_503_and_the_store_stays_whole(make_app, tmp_path):
+    app = make_app(runner=False, retry_after=8, queue_per_key=1000)
     with TestClient(app) as c:
         store = c.app.state.store
         _, key = issue_key(store, "alice")
@@ -113,8 +104,8 @@ def test_a_full_disk_is_a_clear_503_and_the_store_stays_whole(tmp_path):
 
 
 @pytest.mark.parametrize("number", [errno.ENOSPC, errno.EDQUOT, errno.EFBIG])
-def test_no_space_from_a_file_write_is_a_503(tmp_path, number):
-    app = make_app(tmp_path, runner=False)
+def test_no_space_from_a_file_write_is_a_503(make_app, tmp_path, number):
+    app = make_app(runner=False)
 
     def write() -> None:  # what a write under the data directory raises on a full disk
         raise OSError(number, "No space left on device")
@@ -127,8 +118,8 @@ def test_no_space_from_a_file_write_is_a_503(tmp_path, number):
         assert r.json()["detail"].startswith("the data directory has no space left")
 
 
-def test_other_os_errors_stay_500(tmp_path):
-    app = make_app(tmp_path, runner=False)
+def test_other_os_errors_stay_500(make_app, tmp_path):
+    app = make_app(runner=False)
 
     def read() -> None:
         raise PermissionError(errno.EACCES, "Permission denied")
@@ -139,9 +130,9 @@ def test_other_os_errors_stay_500(tmp_path):
         assert r.status_code == 500 and r.json()["detail"] == "internal error; it has been logged"
 
 
-def test_new_jobs_are_refused_below_the_minimum_free_space(tmp_path):
+def test_new_jobs_are_refused_below_the_minimum_free_space(make_app, tmp_path):
     least = shutil.disk_usage(tmp_path).free + 2**40
-    with TestClient(make_app(tmp_path, runner=False, min_free_bytes=least, retry_after=7)) as c:
+    with TestClient(make_app(runner=False, min_free_bytes=least, retry_after=7)) as c:
         _, key = issue_key(c.app.state.store, "alice")
         c.headers["Authorization"] = f"Bearer {key}"
         for route, body in (

@@ -10,7 +10,6 @@ from contextlib import closing
 
 import pytest
 from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
 from haarline.service.api.deps import get_store
 from haarline.service.api.keys import issue_key
 from haarline.service.jobs.backoff import (
@@ -20,12 +19,6 @@ from haarline.service.jobs.backoff import (
     queue_wait,
 )
 from haarline.service.jobs.store import Store
-from haarline.service.settings import Settings
-
-
-def make_app(tmp_path, **settings):
-    cfg = Settings.from_env({}, data_dir=str(tmp_path / "data"), **settings)
-    return create_app(cfg, start_runner=False)
 
 
 def keyed(client, name="alice"):
@@ -96,8 +89,8 @@ def test_clamp_bounds():
     ]
 
 
-def test_full_queue_estimates_from_the_queue_and_recent_run_times(tmp_path):
-    with TestClient(make_app(tmp_path, workers=2, queue_per_key=2, retry_after=7)) as c:
+def test_full_queue_estimates_from_the_queue_and_recent_run_times(make_app, tmp_path):
+    with TestClient(make_app(runner=False, workers=2, queue_per_key=2, retry_after=7)) as c:
         store = keyed(c).app.state.store
         for seed in (1, 2):
             body = {"reference": "rx-product", "options": {"seed": seed}}
@@ -112,8 +105,8 @@ def test_full_queue_estimates_from_the_queue_and_recent_run_times(tmp_path):
         assert refused(c).headers["Retry-After"] == "60"
 
 
-def test_full_queue_estimate_is_clamped(tmp_path):
-    with TestClient(make_app(tmp_path, workers=1, queue_per_key=1)) as c:
+def test_full_queue_estimate_is_clamped(make_app, tmp_path):
+    with TestClient(make_app(runner=False, workers=1, queue_per_key=1)) as c:
         store = keyed(c).app.state.store
         assert c.post("/v1/analyses", json={"reference": "rx-product"}).status_code == 202
         ran_jobs(store, [4000.0])
@@ -137,8 +130,8 @@ def test_only_recent_jobs_that_ran_count(tmp_path):
     assert store.mean_run_seconds() == (40.0 + 19 * 2.0) / 20
 
 
-def test_store_unavailable_503_uses_the_setting(tmp_path):
-    app = make_app(tmp_path, retry_after=11)
+def test_store_unavailable_503_uses_the_setting(make_app, tmp_path):
+    app = make_app(runner=False, retry_after=11)
     with TestClient(app) as c:
         keyed(c)
         broken = Store(tmp_path)  # a directory: SQLite cannot open it
@@ -154,8 +147,8 @@ def test_store_unavailable_503_uses_the_setting(tmp_path):
             assert r.json()["type"].endswith("/store-unavailable")
 
 
-def test_not_ready_503_uses_the_setting(tmp_path):
-    with TestClient(make_app(tmp_path, retry_after=13)) as c:  # the dispatcher is off
+def test_not_ready_503_uses_the_setting(make_app, tmp_path):
+    with TestClient(make_app(runner=False, retry_after=13)) as c:  # the dispatcher is off
         r = c.get("/readyz")
         assert r.status_code == 503 and r.headers["Retry-After"] == "13"
         assert r.json()["detail"] == "the job dispatcher is not running"

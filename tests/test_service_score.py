@@ -12,9 +12,6 @@ import time
 import haarline
 import psutil
 import pytest
-from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
-from haarline.service.api.keys import issue_key
 from haarline.service.settings import Settings
 
 SMALL = {"reference": "ry-cz-ring", "options": {"pairs": 300, "samples": 100, "seed": 5}}
@@ -28,27 +25,6 @@ SLOW = {
     },
     "options": {"pairs": 2_000_000, "metrics": ["expressibility"], "seed": 1},
 }
-
-
-@pytest.fixture
-def make_client(tmp_path):
-    """A started app (workers=1) with a key; settings as given."""
-    opened = []
-
-    def make(**settings):
-        cfg = Settings.from_env(
-            {}, data_dir=str(tmp_path / f"data{len(opened)}"), workers=1, **settings
-        )
-        client = TestClient(create_app(cfg))
-        client.__enter__()
-        opened.append(client)
-        _, key = issue_key(client.app.state.store, "alice")
-        client.headers["Authorization"] = f"Bearer {key}"
-        return client
-
-    yield make
-    for client in opened:
-        client.__exit__(None, None, None)
 
 
 def poll(condition, timeout=60.0, what="condition"):
@@ -80,7 +56,7 @@ def strip(report):
 
 
 def test_score_runs_beside_a_busy_job_worker_and_equals_the_library(make_client):
-    c = make_client(max_cost=1e12)
+    c = make_client(max_work=1e12)
     scores = c.app.state.runner.scores
     assert scores.pids() == []  # started by the first score, or here
     scores.start()
@@ -98,7 +74,7 @@ def test_score_runs_beside_a_busy_job_worker_and_equals_the_library(make_client)
 
 
 def test_over_the_limit_is_a_504_the_process_is_killed_and_busy_is_a_503(make_client):
-    c = make_client(score_timeout=4, max_score_cost=1e12)
+    c = make_client(score_timeout=4, max_score_work=1e12)
     scores = c.app.state.runner.scores
     scores.start()
     (first,) = poll(scores.pids, what="the score process started")

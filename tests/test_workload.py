@@ -56,7 +56,7 @@ def test_the_slow_pauli_sum_closure_is_recognised(layer, sums):
 def test_lie_work_on_pauli_sums_is_sent_from_score_to_jobs():
     # ref:sim2019-03 (crz ladder) needs 19 s of Lie closure on the reference machine, the
     # string-only ry-cz-ring 1.6 s; the score route's cap sits between the two
-    cap = Settings().max_score_cost
+    cap = Settings().max_score_work
     lie = AnalysisOptions(metrics=["lie"])
     assert estimate(load_reference("sim2019-03"), lie, memory_budget=BUDGET).work > cap
     assert estimate(load_reference("ry-cz-ring"), lie, memory_budget=BUDGET).work < cap

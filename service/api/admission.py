@@ -122,7 +122,7 @@ def admit_analysis(
     options = body.options
     data = _data(body.data, circuit, "the circuit")
     estimate = _estimate(circuit, options, settings)
-    cap = settings.max_score_cost if route == "score" else settings.max_cost
+    cap = settings.max_score_work if route == "score" else settings.max_work
     _check_limits(estimate, settings, cap, route)
     request = {**stored, "options": options.model_dump(mode="json")}
     if data is not None:
@@ -144,7 +144,7 @@ def admit_compare(
         memory = max(memory, est.memory)
         circuits.append(stored)
     estimate = haarline.Estimate(work=total_work, memory=memory)
-    _check_limits(estimate, settings, settings.max_cost, "job")
+    _check_limits(estimate, settings, settings.max_work, "job")
     request = {"circuits": circuits, "options": body.options.model_dump(mode="json")}
     if data is not None:
         request["data"] = data

@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import asyncio
 import json
-from typing import Any
+
+from starlette.requests import ClientDisconnect
+from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 __all__ = ["BodyLimit"]
 
@@ -18,12 +20,12 @@ __all__ = ["BodyLimit"]
 class BodyLimit:
     """Refuse bodies over ``limit`` bytes (413) or slower than ``timeout`` seconds (408)."""
 
-    def __init__(self, app: Any, limit: int, timeout: float = 30.0):
+    def __init__(self, app: ASGIApp, limit: int, timeout: float = 30.0):
         self.app = app
         self.limit = limit
         self.timeout = timeout
 
-    async def __call__(self, scope: dict[str, Any], receive: Any, send: Any) -> None:
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         """Read the body within the limits and pass the request on, or answer 413 or 408."""
         if scope["type"] != "http":
             await self.app(scope, receive, send)
@@ -43,14 +45,14 @@ class BodyLimit:
         except TimeoutError:
             await self._reject(send, 408)
             return
+        except ClientDisconnect:
+            return  # the client went away; nobody to answer
         if body is None:
             await self._reject(send, 413)
             return
-        if body is _GONE:
-            return  # the client went away; nobody to answer
         delivered = False
 
-        async def replay() -> dict[str, Any]:
+        async def replay() -> Message:
             nonlocal delivered
             if not delivered:
                 delivered = True
@@ -59,13 +61,14 @@ class BodyLimit:
 
         await self.app(scope, replay, send)
 
-    async def _read(self, receive: Any) -> Any:
+    async def _read(self, receive: Receive) -> bytes | None:
+        """The whole body, or ``None`` past the limit; a disconnect raises."""
         chunks: list[bytes] = []
         seen = 0
         while True:
             message = await receive()
             if message["type"] == "http.disconnect":
-                return _GONE
+                raise ClientDisconnect
             chunk = message.get("body", b"")
             seen += len(chunk)
             if seen > self.limit:
@@ -74,7 +77,7 @@ class BodyLimit:
             if not message.get("more_body", False):
                 return b"".join(chunks)
 
-    async def _reject(self, send: Any, status: int) -> None:
+    async def _reject(self, send: Send, status: int) -> None:
         if status == 408:
             kind, title = "body-too-slow", "Request timeout"
             detail = f"the request body did not arrive within {self.timeout:g} seconds"
@@ -102,6 +105,3 @@ class BodyLimit:
             }
         )
         await send({"type": "http.response.body", "body": body})
-
-
-_GONE = object()

@@ -41,10 +41,11 @@ from fastapi.responses import JSONResponse
 from haarline.circuit.model import validation_problems
 from haarline.errors import format_path
 from haarline.report.options import option_problems
+from haarline.service.api.document import exact_bounds
+from haarline.service.api.http import allowed_methods
 from haarline.service.api.schemas import ProblemDetail
 from haarline.service.errors import OverLimit, StoreUnavailable, TimedOut, Unavailable
 from starlette.exceptions import HTTPException as StarletteHTTPException
-from starlette.routing import Match
 
 __all__ = [
     "PROBLEM_STATUSES",
@@ -88,6 +89,7 @@ PROBLEM_STATUSES: dict[int, str] = {
     408: "The request body did not arrive within HAARLINE_READ_TIMEOUT seconds.",
     409: "The job has no result (yet), or the Idempotency-Key was used with another body.",
     413: "The request body is larger than HAARLINE_MAX_BODY_BYTES.",
+    415: "The body is not application/json (a form, text/plain, YAML…).",
     422: "Invalid input (errors[].path names each field), or estimated work over a limit "
     "(limit, estimate).",
     429: "The key's queue is full; Retry-After says when to try again.",
@@ -123,13 +125,15 @@ def install_openapi(app: FastAPI) -> None:
     that did not declare 422 cannot return one here, so it is dropped. A declared problem
     response is served as ``application/problem+json`` only, with the problem schema
     (FastAPI files that schema under the route's own media type, JSON or HTML). The
-    options' ``metrics`` field lists what each metric of the registry measures.
+    options' ``metrics`` field lists what each metric of the registry measures, and
+    integer bounds are exact (:mod:`haarline.service.api.document`).
     """
     build = app.openapi
 
     def openapi() -> dict[str, Any]:
         if app.openapi_schema is None:
-            app.openapi_schema = _metrics_described(_declared_problems_only(build()))
+            document = _metrics_described(_declared_problems_only(build()))
+            app.openapi_schema = exact_bounds(document, getattr(app.state, "routes", app.routes))
         return app.openapi_schema
 
     app.openapi = openapi  # type: ignore[method-assign]
@@ -254,12 +258,8 @@ def _request_problems(errors: list[dict[str, Any]], body: Any = None) -> list[di
 
 def _allowed_methods(request: Request) -> str:
     """Every method some route serves at this path (a 405 from one route names only its own)."""
-    methods: set[str] = set()
-    for route in request.app.router.routes:
-        match, _ = route.matches(request.scope)
-        if match != Match.NONE:
-            methods |= set(getattr(route, "methods", None) or ())
-    return ", ".join(sorted(methods))
+    routes = getattr(request.app.state, "routes", request.app.router.routes)
+    return ", ".join(allowed_methods(routes, request.url.path))
 
 
 def _unparsable(cause: BaseException) -> str:

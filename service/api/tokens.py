@@ -3,7 +3,13 @@
 A token is ``<job id>.<expiry, unix seconds>.<signature>`` with the signature an
 HMAC-SHA256 of ``page:<job id>:<expiry>`` under the server secret, base64url without
 padding. It opens that one job's page (whose images are inlined) and nothing else; it
-stops working at its expiry or when the secret changes. Checks are constant-time.
+stops working at its expiry, when the secret changes, when the job is deleted and when
+the key that made it is revoked (the page route checks the last two). Checks are
+constant-time.
+
+Anything that is not a well-formed token, whatever its characters or bytes, raises
+:class:`TokenError` and nothing else: the token is decoded as ASCII and matched against
+its exact shape before any number is read or any signature compared.
 """
 
 from __future__ import annotations
@@ -12,16 +18,21 @@ import base64
 import hashlib
 import hmac
 import os
+import re
 import secrets
 import time
 from pathlib import Path
 
 from haarline.service.errors import TokenError
+from haarline.service.jobs.store import is_job_id
 
-__all__ = ["MAX_TTL", "TokenError", "load_secret", "make_token", "check_token"]
+__all__ = ["MAX_TTL", "TokenError", "check_token", "load_secret", "make_token"]
 
 MAX_TTL = 7 * 24 * 3600
 """Longest lifetime of a link (seconds)."""
+
+_SHAPE = re.compile(r"([0-9a-f]{32})\.([0-9]{1,12})\.([A-Za-z0-9_-]{43})")
+"""A job id, an expiry of at most 12 ASCII digits, a 32-byte signature in base64url."""
 
 
 def load_secret(data_dir: Path, configured: str | None) -> bytes:
@@ -52,16 +63,33 @@ def make_token(
     return f"{job_id}.{expires}.{_sign(secret, job_id, expires)}", expires
 
 
-def check_token(secret: bytes, token: str, job_id: str, *, now: float | None = None) -> None:
-    """Raise :class:`TokenError` unless ``token`` opens ``job_id`` right now."""
-    parts = token.split(".")
-    if len(parts) != 3 or not parts[1].isdigit():
+def check_token(
+    secret: bytes, token: str | bytes, job_id: str, *, now: float | None = None
+) -> None:
+    """Raise :class:`TokenError` unless ``token`` opens ``job_id`` right now.
+
+    Examples
+    --------
+    >>> token, _ = make_token(b"k" * 32, "a" * 32, 60, now=0)
+    >>> check_token(b"k" * 32, token, "a" * 32, now=30)
+    >>> check_token(b"k" * 32, "a.².b", "a" * 32)
+    Traceback (most recent call last):
+    ...
+    haarline.service.errors.TokenError: malformed token
+    """
+    if isinstance(token, bytes):
+        try:
+            token = token.decode("ascii")
+        except UnicodeDecodeError:
+            raise TokenError("malformed token") from None
+    match = _SHAPE.fullmatch(token) if token.isascii() else None
+    if match is None:
         raise TokenError("malformed token")
-    token_job, expires_text, signature = parts
-    expected = _sign(secret, token_job, int(expires_text))
-    if not hmac.compare_digest(expected, signature):
+    token_job, expires_text, signature = match.groups()
+    expires = int(expires_text)
+    if not hmac.compare_digest(_sign(secret, token_job, expires), signature):
         raise TokenError("invalid token")
-    if not hmac.compare_digest(token_job, job_id):
+    if not (is_job_id(job_id) and hmac.compare_digest(token_job, job_id)):
         raise TokenError("the token is for another job")
-    if int(expires_text) < (time.time() if now is None else now):
+    if expires < (time.time() if now is None else now):
         raise TokenError("the token has expired")

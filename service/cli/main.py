@@ -71,10 +71,10 @@ def _data(args: argparse.Namespace) -> haarline.Dataset | None:
     """The data set of ``--data``, read once per command."""
     if not args.data:
         return None
-    cached = getattr(args, "_dataset", None)
+    cached: haarline.Dataset | None = getattr(args, "_dataset", None)
     if cached is None:
         cached = args._dataset = haarline.load_data(args.data)
-    return cached  # type: ignore[no-any-return]
+    return cached
 
 
 _CONTEXT_FLAGS = {"memory_budget": "--memory-budget", "workers": "--workers"}

@@ -126,12 +126,17 @@ def add_commands(sub: Any) -> None:
     )
     p.set_defaults(func=_cmd_serve)
 
+    data_dir = "data directory (default ./data, or HAARLINE_DATA_DIR)"
     p = sub.add_parser("keys", help="manage the service's API keys")
-    p.add_argument("--data-dir", help="data directory (default ./data, or HAARLINE_DATA_DIR)")
+    p.add_argument("--data-dir", help=data_dir)
     actions = p.add_subparsers(dest="action", required=True, metavar="ACTION")
     a = actions.add_parser("add", help="create a key and print it once")
     a.add_argument("name", help="who or what the key is for")
-    actions.add_parser("list", help="list keys (ids, names, state; never the keys)")
+    listing = actions.add_parser("list", help="list keys (ids, names, state; never the keys)")
     r = actions.add_parser("revoke", help="revoke a key by id")
     r.add_argument("key_id")
+    # --data-dir also after the action (`keys add bot --data-dir D`); SUPPRESS keeps an
+    # absent one from overwriting the value given before the action
+    for action in (a, listing, r):
+        action.add_argument("--data-dir", default=argparse.SUPPRESS, help=data_dir)
     p.set_defaults(func=_cmd_keys)

@@ -9,7 +9,8 @@ once, then failed with the reason, and the service keeps serving. A job interrup
 because the store could not be written (locked, full disk) is queued again; an outcome
 the store refuses to record is written on a later round. On start-up, jobs that were
 running when the previous process died, or when the service stopped, are queued again
-(:meth:`Store.requeue_interrupted`).
+(:meth:`Store.requeue_interrupted`). The same thread runs retention
+(:mod:`haarline.service.jobs.retention`) when ``HAARLINE_RETENTION_DAYS`` is set.
 
 The synchronous score route never uses these workers: the runner also owns the score
 route's own small pool (:class:`haarline.service.jobs.scoring.ScorePool`), whose processes
@@ -23,9 +24,11 @@ import threading
 from concurrent.futures import Future
 from typing import Any
 
-from haarline.service.errors import StoreUnavailable
-from haarline.service.jobs.pool import PoolStopped, WorkerLost, WorkerPool
+from haarline.service.errors import PoolStopped, StoreUnavailable, WorkerLost
+from haarline.service.jobs.pool import WorkerPool
+from haarline.service.jobs.retention import Retention
 from haarline.service.jobs.scoring import ScorePool
+from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
 from haarline.service.jobs.worker import execute_job
 from haarline.service.settings import Settings
@@ -48,12 +51,14 @@ class Runner:
         self._wake = threading.Event()
         self._stop = threading.Event()
         self._inflight: dict[str, Future[Any]] = {}
-        self._unrecorded: dict[str, tuple[str, str]] = {}
+        self._unrecorded: dict[str, tuple[JobState, str]] = {}
         self._pool: WorkerPool | None = None
         self._dask: Any = None
         self._thread: threading.Thread | None = None
         self.scores = ScorePool(settings)
         """The score route's own processes (never the job workers)."""
+        self.retention = Retention(store, settings.retention_days)
+        """Deletes old finished jobs, from the dispatcher thread (HAARLINE_RETENTION_DAYS)."""
 
     # --- life cycle -------------------------------------------------------------------------
 
@@ -106,6 +111,7 @@ class Runner:
             self._wake.clear()
             try:
                 self._dispatch()
+                self.retention.maybe_sweep()
             except PoolStopped:  # stop() is under way; a claimed job is requeued next start
                 return
             except StoreUnavailable as exc:
@@ -169,14 +175,16 @@ class Runner:
                 log.error("job %s failed: %s", job_id, reason)
             try:
                 if again:
-                    self.store.mark(job_id, "queued", error=f"{reason}; retrying")
+                    self.store.mark(job_id, JobState.QUEUED, error=f"{reason}; retrying")
                 else:
-                    self.store.mark(job_id, "failed", error=reason)
+                    self.store.mark(job_id, JobState.FAILED, error=reason)
             except StoreUnavailable:
                 log.warning("could not record the outcome of job %s; will retry", job_id)
                 with self._lock:
                     self._unrecorded[job_id] = (
-                        ("queued", f"{reason}; retrying") if again else ("failed", reason)
+                        (JobState.QUEUED, f"{reason}; retrying")
+                        if again
+                        else (JobState.FAILED, reason)
                     )
         self._wake.set()
 
@@ -190,7 +198,7 @@ class Runner:
                 self._unrecorded.pop(job_id, None)
 
 
-class _DaskFuture(Future):  # type: ignore[type-arg]
+class _DaskFuture(Future[Any]):
     """Adapts a ``distributed.Future`` to :class:`concurrent.futures.Future`."""
 
     def __init__(self, inner: Any):
@@ -201,5 +209,5 @@ class _DaskFuture(Future):  # type: ignore[type-arg]
     def _copy(self, inner: Any) -> None:
         try:
             self.set_result(inner.result())
-        except BaseException as exc:  # noqa: BLE001 - handed to the caller
+        except BaseException as exc:  # handed to whoever waits on this future
             self.set_exception(exc)

@@ -31,6 +31,8 @@ import collections
 import logging
 import multiprocessing
 import multiprocessing.connection
+import multiprocessing.context
+import multiprocessing.process
 import os
 import signal
 import threading
@@ -72,9 +74,9 @@ class _Task:
 class _Worker:
     """One worker process and the server's end of its pipe."""
 
-    def __init__(self, context: Any, parent: int, number: int):
+    def __init__(self, context: multiprocessing.context.SpawnContext, parent: int, number: int):
         ours, theirs = context.Pipe(duplex=True)
-        self.process = context.Process(
+        self.process: multiprocessing.process.BaseProcess = context.Process(
             target=_serve, args=(theirs, parent), name=f"haarline-worker-{number}"
         )
         self.process.start()

@@ -5,13 +5,17 @@ event loop's threads and from worker processes alike; SQLite's locking serialise
 writes. A database that is locked for longer than the busy timeout, or a full disk, raises
 :class:`StoreUnavailable`, which the service answers with 503.
 
-Job states: ``queued`` → ``running`` → ``succeeded`` | ``failed`` | ``cancelled``. A job is
-never deleted; every state change is recorded in ``events`` with its time.
+Job states are :class:`~haarline.service.jobs.states.JobState` members, bound as SQL
+parameters. Every state change is recorded in ``events`` with its time. A finished job is
+deleted only on request (``DELETE`` of its URL) or by retention
+(``HAARLINE_RETENTION_DAYS``), with its events, result and PNGs. The tables and their
+migrations are in :mod:`haarline.service.jobs.migrations`.
 """
 
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import sqlite3
 import time
@@ -22,41 +26,28 @@ from pathlib import Path
 from typing import Any
 
 from haarline.service.errors import StoreUnavailable
+from haarline.service.jobs.migrations import migrate
+from haarline.service.jobs.states import ACTIVE, FINAL, JobState
 
-__all__ = ["ACTIVE_STATES", "FINAL_STATES", "Store", "StoreUnavailable"]
+__all__ = ["JOB_ID", "JobState", "Store", "StoreUnavailable", "is_job_id"]
 
-ACTIVE_STATES = ("queued", "running")
-FINAL_STATES = ("succeeded", "failed", "cancelled")
+JOB_ID = re.compile(r"[0-9a-f]{32}")
+"""The one rule for a job id: 32 lowercase hex digits (``uuid4().hex``)."""
 
-_SCHEMA = """
-CREATE TABLE IF NOT EXISTS keys (
-    id TEXT PRIMARY KEY, name TEXT NOT NULL, hash TEXT NOT NULL,
-    created REAL NOT NULL, revoked REAL
-);
-CREATE TABLE IF NOT EXISTS jobs (
-    id TEXT PRIMARY KEY, owner TEXT NOT NULL, kind TEXT NOT NULL,
-    request TEXT NOT NULL, request_hash TEXT NOT NULL,
-    idempotency_key TEXT, state TEXT NOT NULL, fraction REAL NOT NULL DEFAULT 0,
-    stage TEXT NOT NULL DEFAULT '', error TEXT, cancel INTEGER NOT NULL DEFAULT 0,
-    attempts INTEGER NOT NULL DEFAULT 0, cached INTEGER NOT NULL DEFAULT 0,
-    created REAL NOT NULL, updated REAL NOT NULL
-);
-CREATE UNIQUE INDEX IF NOT EXISTS jobs_idempotency
-    ON jobs(owner, idempotency_key) WHERE idempotency_key IS NOT NULL;
-CREATE INDEX IF NOT EXISTS jobs_state ON jobs(state, created);
-CREATE INDEX IF NOT EXISTS jobs_hash ON jobs(request_hash, state);
-CREATE TABLE IF NOT EXISTS events (
-    job_id TEXT NOT NULL, state TEXT NOT NULL, at REAL NOT NULL, detail TEXT
-);
-CREATE INDEX IF NOT EXISTS events_job ON events(job_id);
-CREATE TABLE IF NOT EXISTS results (
-    job_id TEXT PRIMARY KEY, report TEXT NOT NULL, markdown TEXT NOT NULL
-);
-CREATE TABLE IF NOT EXISTS artifacts (
-    job_id TEXT NOT NULL, name TEXT NOT NULL, content BLOB NOT NULL,
-    PRIMARY KEY (job_id, name)
-);
-"""
+
+def is_job_id(text: str) -> bool:
+    """Whether ``text`` can be a job id (anything else is answered 404 without a look-up).
+
+    Examples
+    --------
+    >>> is_job_id("0" * 32), is_job_id("0" * 31 + "G"), is_job_id("٠" * 32)
+    (True, False, False)
+    """
+    return JOB_ID.fullmatch(text) is not None
+
+
+def _marks(states: tuple[JobState, ...]) -> str:
+    return ", ".join("?" * len(states))
 
 
 class Store:
@@ -88,11 +79,20 @@ class Store:
         finally:
             conn.close()
 
-    def initialize(self) -> None:
-        """Create the tables (idempotent) and switch the file to WAL mode."""
+    def initialize(self) -> list[int]:
+        """Switch the file to WAL mode and bring its schema up to date; return the migrations run.
+
+        Raises
+        ------
+        StoreTooNew
+            The file was written by a newer release.
+        StoreUnavailable
+            The file cannot be opened, written or migrated (nothing of a failed migration
+            is kept).
+        """
         with self._connect() as conn:
             conn.execute("PRAGMA journal_mode = WAL")
-            conn.executescript(_SCHEMA)
+            return migrate(conn)
 
     def ping(self) -> None:
         """Raise :class:`StoreUnavailable` unless the database answers a write."""
@@ -119,6 +119,10 @@ class Store:
                 "INSERT INTO keys (id, name, hash, created) VALUES (?, ?, ?, ?)",
                 (key_id, name, digest, time.time()),
             )
+
+    def key_active(self, key_id: str) -> bool:
+        """Whether ``key_id`` names a key that is not revoked."""
+        return self.key_hash(key_id) is not None
 
     def key_hash(self, key_id: str) -> str | None:
         """The stored hash of an active key, or ``None``."""
@@ -174,15 +178,27 @@ class Store:
                     return _job(row), False
             conn.execute(
                 "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
-                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, 'queued', ?, ?)",
-                (job_id, owner, kind, json.dumps(request), request_hash, idempotency_key, now, now),
+                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (
+                    job_id,
+                    owner,
+                    kind,
+                    json.dumps(request),
+                    request_hash,
+                    idempotency_key,
+                    JobState.QUEUED,
+                    now,
+                    now,
+                ),
             )
             conn.execute(
-                "INSERT INTO events (job_id, state, at) VALUES (?, 'queued', ?)", (job_id, now)
+                "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
+                (job_id, JobState.QUEUED, now),
             )
             conn.execute("COMMIT")
         job = self.get_job(job_id)
-        assert job is not None
+        if job is None:  # deleted between the insert and the read: not a job to answer with
+            raise StoreUnavailable(f"job {job_id} vanished while it was being created")
         return job, True
 
     def find_idempotent(self, owner: str, idempotency_key: str) -> dict[str, Any] | None:
@@ -215,24 +231,33 @@ class Store:
                 (job_id, source_id),
             )
             conn.execute(
-                "UPDATE jobs SET state = 'succeeded', fraction = 1, stage = 'done', cached = 1, "
+                "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', cached = 1, "
                 "updated = ? WHERE id = ?",
-                (now, job_id),
+                (JobState.SUCCEEDED, now, job_id),
             )
             conn.execute(
-                "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'succeeded', ?, ?)",
-                (job_id, now, "answered from the stored result of an identical request"),
+                "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
+                (
+                    job_id,
+                    JobState.SUCCEEDED,
+                    now,
+                    "answered from the stored result of an identical request",
+                ),
             )
             conn.execute("COMMIT")
         return True
 
-    def find_finished(self, request_hash: str) -> str | None:
-        """Id of a succeeded job with this request hash, if any."""
+    def find_finished(self, request_hash: str, *, owner: str | None) -> str | None:
+        """Id of a succeeded job with this request hash, if any.
+
+        Only ``owner``'s jobs count, unless ``owner`` is ``None`` (every key's jobs: the
+        shared cache, which tells a key that another key ran the same request).
+        """
         with self._connect() as conn:
             row = conn.execute(
-                "SELECT id FROM jobs WHERE request_hash = ? AND state = 'succeeded' "
-                "ORDER BY created LIMIT 1",
-                (request_hash,),
+                "SELECT id FROM jobs WHERE request_hash = ? AND state = ? "
+                "AND (? IS NULL OR owner = ?) ORDER BY created LIMIT 1",
+                (request_hash, JobState.SUCCEEDED, owner, owner),
             ).fetchone()
         return None if row is None else str(row["id"])
 
@@ -268,15 +293,17 @@ class Store:
         """Queued or running jobs of an owner."""
         with self._connect() as conn:
             row = conn.execute(
-                "SELECT count(*) FROM jobs WHERE owner = ? AND state IN ('queued', 'running')",
-                (owner,),
+                f"SELECT count(*) FROM jobs WHERE owner = ? AND state IN ({_marks(ACTIVE)})",
+                (owner, *ACTIVE),
             ).fetchone()
         return int(row[0])
 
     def queued_count(self) -> int:
         """Queued jobs of every owner."""
         with self._connect() as conn:
-            row = conn.execute("SELECT count(*) FROM jobs WHERE state = 'queued'").fetchone()
+            row = conn.execute(
+                "SELECT count(*) FROM jobs WHERE state = ?", (JobState.QUEUED,)
+            ).fetchone()
         return int(row[0])
 
     def mean_run_seconds(self, recent: int = 20) -> float | None:
@@ -289,14 +316,14 @@ class Store:
         with self._connect() as conn:
             row = conn.execute(
                 "SELECT avg(done - started) FROM ("
-                " SELECT (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'running')"
+                " SELECT (SELECT max(at) FROM events WHERE job_id = j.id AND state = ?)"
                 "   AS started,"
-                " (SELECT max(at) FROM events WHERE job_id = j.id AND state = 'succeeded')"
+                " (SELECT max(at) FROM events WHERE job_id = j.id AND state = ?)"
                 "   AS done"
-                " FROM jobs AS j WHERE j.state = 'succeeded' AND j.cached = 0"
+                " FROM jobs AS j WHERE j.state = ? AND j.cached = 0"
                 " ORDER BY j.created DESC LIMIT ?"
                 ") WHERE started IS NOT NULL AND done IS NOT NULL",
-                (recent,),
+                (JobState.RUNNING, JobState.SUCCEEDED, JobState.SUCCEEDED, recent),
             ).fetchone()
         return None if row[0] is None else float(row[0])
 
@@ -304,7 +331,8 @@ class Store:
         """Ids of queued jobs, oldest first."""
         with self._connect() as conn:
             rows = conn.execute(
-                "SELECT id FROM jobs WHERE state = 'queued' ORDER BY created LIMIT ?", (limit,)
+                "SELECT id FROM jobs WHERE state = ? ORDER BY created LIMIT ?",
+                (JobState.QUEUED, limit),
             ).fetchall()
         return [str(r["id"]) for r in rows]
 
@@ -313,19 +341,20 @@ class Store:
         now = time.time()
         with self._connect() as conn:
             conn.execute("BEGIN IMMEDIATE")
-            rows = conn.execute("SELECT id FROM jobs WHERE state = 'running'").fetchall()
+            rows = conn.execute(
+                "SELECT id FROM jobs WHERE state = ?", (JobState.RUNNING,)
+            ).fetchall()
             for r in rows:
                 conn.execute(
-                    "UPDATE jobs SET state = 'queued', fraction = 0, stage = '', updated = ? "
-                    "WHERE id = ?",
-                    (now, r["id"]),
+                    "UPDATE jobs SET state = ?, fraction = 0, stage = '', updated = ? WHERE id = ?",
+                    (JobState.QUEUED, now, r["id"]),
                 )
                 conn.execute(
-                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'queued', ?, ?)",
-                    (r["id"], now, "requeued after a restart"),
+                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
+                    (r["id"], JobState.QUEUED, now, "requeued after a restart"),
                 )
             active = conn.execute(
-                "SELECT id FROM jobs WHERE state IN ('queued', 'running') ORDER BY created"
+                f"SELECT id FROM jobs WHERE state IN ({_marks(ACTIVE)}) ORDER BY created", ACTIVE
             ).fetchall()
             conn.execute("COMMIT")
         return [str(r["id"]) for r in active]
@@ -336,16 +365,17 @@ class Store:
         with self._connect() as conn:
             conn.execute("BEGIN IMMEDIATE")
             row = conn.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
-            if row is None or row["state"] != "queued" or row["cancel"]:
+            if row is None or row["state"] != JobState.QUEUED or row["cancel"]:
                 conn.execute("ROLLBACK")
                 return None
             conn.execute(
-                "UPDATE jobs SET state = 'running', attempts = attempts + 1, stage = 'starting',"
+                "UPDATE jobs SET state = ?, attempts = attempts + 1, stage = 'starting',"
                 " updated = ? WHERE id = ?",
-                (now, job_id),
+                (JobState.RUNNING, now, job_id),
             )
             conn.execute(
-                "INSERT INTO events (job_id, state, at) VALUES (?, 'running', ?)", (job_id, now)
+                "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
+                (job_id, JobState.RUNNING, now),
             )
             conn.execute("COMMIT")
         return _job(row)
@@ -354,9 +384,8 @@ class Store:
         """Record progress; return whether a cancel was requested."""
         with self._connect() as conn:
             conn.execute(
-                "UPDATE jobs SET fraction = ?, stage = ?, updated = ? WHERE id = ? "
-                "AND state = 'running'",
-                (fraction, stage, time.time(), job_id),
+                "UPDATE jobs SET fraction = ?, stage = ?, updated = ? WHERE id = ? AND state = ?",
+                (fraction, stage, time.time(), job_id, JobState.RUNNING),
             )
             row = conn.execute("SELECT cancel FROM jobs WHERE id = ?", (job_id,)).fetchone()
         return bool(row and row["cancel"])
@@ -383,24 +412,27 @@ class Store:
                     (job_id, name, content),
                 )
             conn.execute(
-                "UPDATE jobs SET state = 'succeeded', fraction = 1, stage = 'done', "
-                "updated = ? WHERE id = ? AND state = 'running'",
-                (now, job_id),
+                "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', "
+                "updated = ? WHERE id = ? AND state = ?",
+                (JobState.SUCCEEDED, now, job_id, JobState.RUNNING),
             )
             conn.execute(
-                "INSERT INTO events (job_id, state, at) VALUES (?, 'succeeded', ?)", (job_id, now)
+                "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
+                (job_id, JobState.SUCCEEDED, now),
             )
             conn.execute("COMMIT")
 
-    def mark(self, job_id: str, state: str, *, error: str | None = None) -> None:
+    def mark(self, job_id: str, state: JobState, *, error: str | None = None) -> None:
         """Move an active job to ``failed``, ``cancelled`` or back to ``queued``."""
+        if state not in (JobState.FAILED, JobState.CANCELLED, JobState.QUEUED):
+            raise ValueError(f"a job is not marked {state}; use claim() or finish()")
         now = time.time()
         with self._connect() as conn:
             conn.execute("BEGIN IMMEDIATE")
             cur = conn.execute(
                 "UPDATE jobs SET state = ?, error = ?, updated = ? WHERE id = ? "
-                "AND state IN ('queued', 'running')",
-                (state, error, now, job_id),
+                f"AND state IN ({_marks(ACTIVE)})",
+                (state, error, now, job_id, *ACTIVE),
             )
             if cur.rowcount:
                 conn.execute(
@@ -409,27 +441,67 @@ class Store:
                 )
             conn.execute("COMMIT")
 
-    def request_cancel(self, job_id: str) -> str:
-        """Ask a job to stop; a queued job is cancelled at once. Return its state after."""
+    def request_cancel(self, job_id: str) -> JobState | None:
+        """Ask a job to stop; a queued job is cancelled at once.
+
+        Returns its state after, or ``None`` when there is no such job.
+        """
         now = time.time()
         with self._connect() as conn:
             conn.execute("BEGIN IMMEDIATE")
             row = conn.execute("SELECT state FROM jobs WHERE id = ?", (job_id,)).fetchone()
-            state = str(row["state"])
-            if state == "queued":
+            if row is None:
+                conn.execute("ROLLBACK")
+                return None
+            state = JobState(row["state"])
+            if state is JobState.QUEUED:
                 conn.execute(
-                    "UPDATE jobs SET state = 'cancelled', cancel = 1, updated = ? WHERE id = ?",
-                    (now, job_id),
+                    "UPDATE jobs SET state = ?, cancel = 1, updated = ? WHERE id = ?",
+                    (JobState.CANCELLED, now, job_id),
                 )
                 conn.execute(
-                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, 'cancelled', ?, ?)",
-                    (job_id, now, "cancelled before it started"),
+                    "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
+                    (job_id, JobState.CANCELLED, now, "cancelled before it started"),
                 )
-                state = "cancelled"
-            elif state == "running":
+                state = JobState.CANCELLED
+            elif state is JobState.RUNNING:
                 conn.execute("UPDATE jobs SET cancel = 1, updated = ? WHERE id = ?", (now, job_id))
             conn.execute("COMMIT")
         return state
+
+    def delete_finished(self, job_id: str) -> bool:
+        """Delete a finished job with its events, result and PNGs; ``False`` if not finished.
+
+        An active job is never deleted (cancel it first); its share links stop working
+        because there is no job left to open.
+        """
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            cur = conn.execute(
+                f"DELETE FROM jobs WHERE id = ? AND state IN ({_marks(FINAL)})", (job_id, *FINAL)
+            )
+            if cur.rowcount:
+                _delete_outputs(conn, [job_id])
+            conn.execute("COMMIT")
+        return cur.rowcount == 1
+
+    def delete_older(self, cutoff: float, *, batch: int = 500) -> int:
+        """Delete up to ``batch`` finished jobs last changed before ``cutoff`` (unix time).
+
+        Returns how many were deleted; retention calls it until it returns less than
+        ``batch``, so no single transaction holds the write lock for long.
+        """
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            rows = conn.execute(
+                f"SELECT id FROM jobs WHERE state IN ({_marks(FINAL)}) AND updated < ? LIMIT ?",
+                (*FINAL, cutoff, batch),
+            ).fetchall()
+            ids = [str(r["id"]) for r in rows]
+            conn.executemany("DELETE FROM jobs WHERE id = ?", [(i,) for i in ids])
+            _delete_outputs(conn, ids)
+            conn.execute("COMMIT")
+        return len(ids)
 
     def result(self, job_id: str) -> tuple[dict[str, Any], str] | None:
         """The stored report and Markdown of a finished job."""
@@ -458,7 +530,14 @@ class Store:
 
 def _job(row: sqlite3.Row) -> dict[str, Any]:
     job = dict(row)
+    job["state"] = JobState(job["state"])
     job["request"] = json.loads(job["request"])
     job["cancel"] = bool(job["cancel"])
     job["cached"] = bool(job["cached"])
     return job
+
+
+def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
+    """Delete what belongs to deleted jobs (inside the caller's transaction)."""
+    for table in ("events", "results", "artifacts"):
+        conn.executemany(f"DELETE FROM {table} WHERE job_id = ?", [(i,) for i in ids])

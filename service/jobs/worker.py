@@ -16,17 +16,20 @@ each worker that exits the process as soon as its parent is gone.
 from __future__ import annotations
 
 import os
+import re
 import threading
 import time
 from typing import Any
 
 import haarline
 from haarline.service.errors import JobCancelled
+from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store
 
 __all__ = [
     "ORPHAN_EXIT",
     "PARENT_POLL",
+    "api_wording",
     "execute_job",
     "follow_parent",
     "run_request",
@@ -61,6 +64,29 @@ def circuit_of(spec: dict[str, Any]) -> haarline.Circuit:
     raise haarline.CircuitError([haarline.Problem("(root)", "no circuit given")])
 
 
+_FLAG = re.compile(r"(?<![\w-])--([a-z][a-z0-9]*(?:-[a-z0-9]+)*)")
+
+
+def api_wording(markdown: str) -> str:
+    """A summary for REST clients: a CLI flag such as ``--pairs`` becomes ``options.pairs``.
+
+    The report's own text names the command line's flags; a client of the service sets the
+    same values as request options. Only flags that are options are rewritten.
+
+    Examples
+    --------
+    >>> api_wording("Raise --pairs or --grad-samples; see --help.")
+    'Raise `options.pairs` or `options.grad_samples`; see --help.'
+    """
+    fields = haarline.AnalysisOptions.model_fields
+
+    def option(match: re.Match[str]) -> str:
+        name = match.group(1).replace("-", "_")
+        return f"`options.{name}`" if name in fields else match.group(0)
+
+    return _FLAG.sub(option, markdown)
+
+
 def run_request(
     kind: str,
     request: dict[str, Any],
@@ -81,13 +107,14 @@ def run_request(
         result = haarline.compare_reports(reports, sources)
         images = haarline.comparison_files(reports)
         links = [f"plots/{name}" for name in sorted(images)]
-        return result, haarline.compare_markdown(result, images=links), images
+        return result, api_wording(haarline.compare_markdown(result, images=links)), images
     circuit = circuit_of(request)
     report = haarline.analyze(circuit, options, data=data, context=context)
     images = haarline.plot_files(report, haarline.expand(circuit))
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]
-    return report, haarline.to_markdown(report, images=links, page="page"), images
+    markdown = haarline.to_markdown(report, images=links, page="page")
+    return report, api_wording(markdown), images
 
 
 def follow_parent(parent: int, interval: float = PARENT_POLL) -> None:
@@ -119,7 +146,7 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
     """Run a claimed job to its end; return its final state."""
     store = Store(database)
     job = store.get_job(job_id)
-    if job is None or job["state"] != "running":
+    if job is None or job["state"] is not JobState.RUNNING:
         return "skipped"
     kind, request = job["kind"], job["request"]
     try:
@@ -143,16 +170,18 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
             kind, request, memory_budget=memory_budget, progress=progress
         )
     except JobCancelled:
-        store.mark(job_id, "cancelled", error="cancelled on request")
+        store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
     except (haarline.InputError, haarline.LimitError) as exc:
-        store.mark(job_id, "failed", error=str(exc))
+        store.mark(job_id, JobState.FAILED, error=str(exc))
         return "failed"
     except MemoryError:
-        store.mark(job_id, "failed", error="out of memory; lower the sample counts or qubits")
+        store.mark(
+            job_id, JobState.FAILED, error="out of memory; lower the sample counts or qubits"
+        )
         return "failed"
     if store.get_job(job_id) and store.set_progress(job_id, 1.0, "storing"):
-        store.mark(job_id, "cancelled", error="cancelled on request")
+        store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
     store.finish(job_id, report=result, markdown=markdown, artifacts=images)
     return "succeeded"

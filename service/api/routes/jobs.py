@@ -1,26 +1,50 @@
-"""Job routes: create, read, list, cancel, and fetch report, summary and plots.
+"""Job routes: create, read, list, cancel or delete, and fetch report, summary and plots.
 
 The same routes serve analyses (``/v1/analyses``) and comparisons (``/v1/comparisons``).
 A key sees only its own jobs: another key's job id answers 404, exactly like an unknown id.
+A finished job's report, summary and plots never change: they carry a strong ``ETag`` and
+``Cache-Control: …, immutable``, and ``If-None-Match`` gives 304
+(:mod:`haarline.service.api.http`). A job's status may change at any time
+(``Cache-Control: no-store``). ``DELETE`` cancels an active job (202) and deletes a
+finished one with its outputs (204).
 """
 
 import re
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Header, HTTPException, Query, Response
+from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, Response
 from fastapi.responses import JSONResponse
 from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
 from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.problems import problem_response, problem_responses
 from haarline.service.api.schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
 from haarline.service.jobs.backoff import full_queue_wait
 from haarline.service.jobs.space import require_free_space
+from haarline.service.jobs.states import JobState
+from haarline.service.jobs.store import Store, is_job_id
 
 __all__ = ["analyses", "comparisons"]
 
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
 MAX_OFFSET = 1_000_000_000
 """Largest listing offset (SQLite integers stop at 2**63 - 1; a 422 rather than a 500)."""
+
+JSON_BODY = Depends(require_json)
+"""A body route's check of the request's media type (415 unless JSON)."""
+
+CREATED = {
+    "description": "The job, queued (or answered from this key's stored result of an "
+    "identical request). A retry with the same Idempotency-Key and body answers the same "
+    "way, with the first job.",
+    "headers": {
+        "Location": {"description": "The job's URL.", "schema": {"type": "string"}},
+        "Idempotent-Replayed": {
+            "description": "`true` when this answers a retry with the same Idempotency-Key.",
+            "schema": {"type": "string", "enum": ["true"]},
+        },
+    },
+}
 
 IdempotencyKey = Annotated[
     str | None,
@@ -32,28 +56,29 @@ IdempotencyKey = Annotated[
 ]
 
 
-def _owned(store: Any, job_id: str, caller: str, kind: str) -> dict[str, Any]:
-    job = store.get_job(job_id, owner=caller) if re.fullmatch(r"[0-9a-f]{32}", job_id) else None
+def _owned(store: Store, job_id: str, caller: str, kind: str) -> dict[str, Any]:
+    job = store.get_job(job_id, owner=caller) if is_job_id(job_id) else None
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
     return job
 
 
-def _get(store: Any, job_id: str) -> dict[str, Any]:
+def _get(store: Store, job_id: str) -> dict[str, Any]:
     job = store.get_job(job_id)
     if job is None:
         raise HTTPException(404, f"no job {job_id!r}")
-    return job  # type: ignore[no-any-return]
+    return job
 
 
-def _finished(store: Any, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
-    if job["state"] != "succeeded":
+def _finished(store: Store, job: dict[str, Any]) -> tuple[dict[str, Any], str]:
+    state: JobState = job["state"]
+    if state is not JobState.SUCCEEDED:
         what = {
-            "queued": "is queued",
-            "running": f"is running ({job['fraction']:.0%}, {job['stage']})",
-            "failed": f"failed: {job['error']}",
-            "cancelled": "was cancelled",
-        }[job["state"]]
+            JobState.QUEUED: "is queued",
+            JobState.RUNNING: f"is running ({job['fraction']:.0%}, {job['stage']})",
+            JobState.FAILED: f"failed: {job['error']}",
+            JobState.CANCELLED: "was cancelled",
+        }[state]
         raise HTTPException(409, f"job {job['id']} {what}; it has no result")
     result = store.result(job["id"])
     if result is None:
@@ -73,10 +98,12 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"create{title}",
         summary=f"Start {'an' if noun[0] in 'aeiou' else 'a'} {noun} job",
-        responses=problem_responses(401, 408, 409, 413, 422, 429, 503),
+        responses={202: CREATED, **problem_responses(401, 408, 409, 413, 415, 422, 429, 503)},
+        dependencies=[JSON_BODY],
     )
     def create(
         body: Body,  # type: ignore[valid-type]
+        request: Request,
         caller: CallerDep,
         settings: SettingsDep,
         store: StoreDep,
@@ -85,10 +112,11 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         idempotency_key: IdempotencyKey = None,
     ) -> Any:
         if kind == "analysis":
-            request, _ = admit_analysis(body, settings)
+            stored, _ = admit_analysis(body, settings)
         else:
-            request, _ = admit_compare(body, settings)
-        digest = request_hash(kind, request)
+            stored, _ = admit_compare(body, settings)
+        digest = request_hash(kind, stored)
+        here = request.url.path
         if idempotency_key is not None:
             previous = store.find_idempotent(caller, idempotency_key)
             if previous is not None:
@@ -97,8 +125,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                         409,
                         "this Idempotency-Key was used with a different request body",
                         kind="idempotency-conflict",
+                        instance=here,
                     )
-                response.status_code = 200
+                # the answer of the first request again (202), marked as a replay
                 response.headers["Location"] = f"{base}/{previous['id']}"
                 response.headers["Idempotent-Replayed"] = "true"
                 return job_public(_get(store, previous["id"]), base)
@@ -110,16 +139,19 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 "limit; retry later",
                 kind="queue-full",
                 headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
+                instance=here,
             )
         job, created = store.create_job(
             owner=caller,
             kind=kind,
-            request=request,
+            request=stored,
             request_hash=digest,
             idempotency_key=idempotency_key,
         )
         if created:
-            source = store.find_finished(digest)
+            # the cache is per key unless HAARLINE_SHARED_RESULT_CACHE shares it
+            shared = settings.shared_result_cache
+            source = store.find_finished(digest, owner=None if shared else caller)
             if source is not None and source != job["id"]:
                 store.copy_result(source, job["id"])
             else:
@@ -150,7 +182,8 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         summary="Status and progress",
         responses=problem_responses(401, 404, 503),
     )
-    def status(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+    def status(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
+        response.headers["Cache-Control"] = NO_STORE
         return job_public(_owned(store, job_id, caller, kind), base)
 
     @router.delete(
@@ -158,11 +191,22 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         status_code=202,
         response_model=JobPublic,
         operation_id=f"cancel{title}",
-        summary="Cancel a queued or running job",
-        responses=problem_responses(401, 404, 503),
+        summary="Cancel a queued or running job; delete a finished one",
+        responses={
+            202: {"description": "The active job, cancelled or asked to stop."},
+            204: {
+                "description": "The finished job was deleted, with its report, summary, plots "
+                "and share links."
+            },
+            **problem_responses(401, 404, 503),
+        },
     )
     def cancel(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
-        _owned(store, job_id, caller, kind)
+        job = _owned(store, job_id, caller, kind)
+        if not job["state"].active:
+            if store.delete_finished(job_id):
+                return Response(status_code=204)
+            raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
         store.request_cancel(job_id)
         return job_public(_get(store, job_id), base)
 
@@ -181,9 +225,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             **problem_responses(401, 404, 409, 503),
         },
     )
-    def report(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
+    def report(job_id: str, request: Request, caller: CallerDep, store: StoreDep) -> Response:
         result, _ = _finished(store, _owned(store, job_id, caller, kind))
-        return JSONResponse(result)
+        return immutable(request, bytes(JSONResponse(result).body), "application/json")
 
     @router.get(
         "/{job_id}/summary",
@@ -198,9 +242,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             **problem_responses(401, 404, 409, 503),
         },
     )
-    def summary(job_id: str, caller: CallerDep, store: StoreDep) -> Response:
+    def summary(job_id: str, request: Request, caller: CallerDep, store: StoreDep) -> Response:
         _, markdown = _finished(store, _owned(store, job_id, caller, kind))
-        return Response(markdown, media_type="text/markdown; charset=utf-8")
+        return immutable(request, markdown.encode(), "text/markdown; charset=utf-8")
 
     @router.get(
         "/{job_id}/plots",
@@ -227,13 +271,15 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             **problem_responses(401, 404, 409, 503),
         },
     )
-    def plot(job_id: str, name: str, caller: CallerDep, store: StoreDep) -> Response:
+    def plot(
+        job_id: str, name: str, request: Request, caller: CallerDep, store: StoreDep
+    ) -> Response:
         job = _owned(store, job_id, caller, kind)
         _finished(store, job)
         content = store.artifact(job_id, name) if PLOT_NAME.fullmatch(name) else None
         if content is None:
             raise HTTPException(404, f"no plot {name!r}; see {base}/{job_id}/plots")
-        return Response(content, media_type="image/png")
+        return immutable(request, content, "image/png")
 
     return router
 

@@ -6,11 +6,12 @@ import base64
 from typing import Any
 
 import haarline
-from fastapi import APIRouter, HTTPException
+from fastapi import APIRouter, Depends, HTTPException
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
 from haarline.service.api.admission import admit_analysis
 from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from haarline.service.api.http import require_json
 from haarline.service.api.problems import problem_responses
 from haarline.service.api.schemas import AnalysisCreate, CheckCreate, ReadyPublic, ReferencePublic
 from haarline.service.errors import Unavailable
@@ -27,8 +28,9 @@ health = APIRouter(tags=["health"])
     "/score",
     operation_id="scoreCircuit",
     tags=["score"],
-    summary="Analyze a small circuit synchronously (under the score cost cap and time limit)",
-    responses=problem_responses(401, 408, 413, 422, 503, 504),
+    summary="Analyze a small circuit synchronously (under the score work cap and time limit)",
+    responses=problem_responses(401, 408, 413, 415, 422, 503, 504),
+    dependencies=[Depends(require_json)],
 )
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
@@ -44,7 +46,8 @@ async def score(
     operation_id="checkCircuit",
     tags=["circuits"],
     summary="Validate a description and return its static facts (and, if asked, its diagram)",
-    responses=problem_responses(401, 408, 413, 422, 503),
+    responses=problem_responses(401, 408, 413, 415, 422, 503),
+    dependencies=[Depends(require_json)],
 )
 def check(body: CheckCreate, caller: CallerDep) -> Any:
     spec = body.model_dump(mode="json", include={"circuit", "qasm", "reference"})

@@ -1,29 +1,38 @@
 """Report pages and the signed links that open them without an API key.
 
 ``GET /v1/analyses/{id}/page`` (and ``/v1/comparisons/{id}/page``) answers the owner's key
-or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is expired,
-tampered with or made for another job: 403. The page is self-contained (PNGs inlined), so
-a token never needs to open anything but the page itself.
+or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is malformed
+(whatever its characters), expired, tampered with, made for another job, or made by a key
+that has since been revoked: 403. A deleted job: 404. The page is self-contained (PNGs
+inlined), so a token never needs to open anything but the page itself. A finished job's
+page never changes: it carries a strong ``ETag`` and answers 304 to ``If-None-Match``;
+the page of a job still queued or running refreshes itself and is ``no-store``.
 """
 
-import os
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from fastapi import APIRouter, Depends, HTTPException, Query, Request, Response
 from fastapi.responses import HTMLResponse
-from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
-from haarline.service.api.deps import DEV_OWNER, CallerDep, SettingsDep, StoreDep
-from haarline.service.api.keys import verify_key
+from haarline.service.api.deps import (
+    DEV_OWNER,
+    CallerDep,
+    KeyOwnerDep,
+    PageSecretDep,
+    SettingsDep,
+    StoreDep,
+)
+from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.page import comparison_page, job_page, report_page
 from haarline.service.api.problems import problem_responses
-from haarline.service.api.tokens import MAX_TTL, check_token, load_secret, make_token
+from haarline.service.api.tokens import MAX_TTL, check_token, make_token
 from haarline.service.errors import TokenError
+from haarline.service.jobs.states import JobState
+from haarline.service.jobs.store import Store, is_job_id
 from pydantic import BaseModel, Field
 
 __all__ = ["router"]
 
 router = APIRouter(tags=["pages"])
-_bearer = HTTPBearer(auto_error=False)
 
 KINDS = {"analyses": "analysis", "comparisons": "compare"}
 
@@ -43,30 +52,25 @@ class SharePublic(BaseModel):
     expires: int = Field(description="Unix time after which the link stops working.")
 
 
-def _secret(request: Request) -> bytes:
-    state = request.app.state
-    if getattr(state, "page_secret", None) is None:
-        state.page_secret = load_secret(
-            state.settings.data_dir, os.environ.get("HAARLINE_PAGE_SECRET")
-        )
-    return state.page_secret  # type: ignore[no-any-return]
-
-
-def _job(store: Any, job_id: str, kind: str) -> dict[str, Any]:
-    job = store.get_job(job_id) if len(job_id) == 32 and job_id.isalnum() else None
+def _job(store: Store, job_id: str, kind: str) -> dict[str, Any]:
+    job = store.get_job(job_id) if is_job_id(job_id) else None
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no such job {job_id!r}")
-    return job  # type: ignore[no-any-return]
+    return job
 
 
-def _render(store: Any, job: dict[str, Any]) -> str:
-    if job["state"] != "succeeded":
+def _render(store: Store, job: dict[str, Any]) -> str:
+    if job["state"] is not JobState.SUCCEEDED:
         return job_page(job)
     result = store.result(job["id"])
     if result is None:
         return job_page({**job, "state": "failed", "error": "the stored result is missing"})
     report, _ = result
-    images = {name: store.artifact(job["id"], name) for name in store.artifact_names(job["id"])}
+    images: dict[str, bytes] = {}
+    for name in store.artifact_names(job["id"]):
+        content = store.artifact(job["id"], name)
+        if content is not None:  # deleted since it was listed
+            images[name] = content
     if job["kind"] == "compare":
         return comparison_page(report, images)
     request = job["request"]
@@ -96,66 +100,63 @@ def _page_route(collection: str) -> None:
         request: Request,
         settings: SettingsDep,
         store: StoreDep,
-        credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(_bearer)],
+        secret: PageSecretDep,
+        owner: KeyOwnerDep,
         token: Annotated[str | None, Query(max_length=300)] = None,
-    ) -> HTMLResponse:
+    ) -> Response:
         if token is not None:
             try:
-                check_token(_secret(request), token, job_id)
+                check_token(secret, token, job_id)
             except TokenError as exc:
                 raise HTTPException(403, f"this link does not open the page: {exc}") from None
             job = _job(store, job_id, kind)
-        else:
-            if settings.dev_mode:
-                owner = DEV_OWNER
-            elif credentials is None:
+            shared_in_dev = settings.dev_mode and job["owner"] == DEV_OWNER
+            if not (shared_in_dev or store.key_active(job["owner"])):
                 raise HTTPException(
-                    401,
-                    "an API key or a share token is required",
-                    headers={"WWW-Authenticate": "Bearer"},
+                    403, "this link does not open the page: the key that shared it was revoked"
                 )
-            else:
-                owner = verify_key(store, credentials.credentials) or ""
-                if not owner:
-                    raise HTTPException(
-                        401,
-                        "the API key is not valid or was revoked",
-                        headers={"WWW-Authenticate": "Bearer"},
-                    )
+        elif owner is None:
+            raise HTTPException(
+                401,
+                "an API key or a share token is required",
+                headers={"WWW-Authenticate": "Bearer"},
+            )
+        else:
             job = _job(store, job_id, kind)
             if job["owner"] != owner:
                 raise HTTPException(404, f"no such job {job_id!r}")
-        return HTMLResponse(
-            _render(store, job),
-            headers={
-                "Cache-Control": "no-store",
-                "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
-                "'unsafe-inline'; base-uri 'none'; form-action 'none'",
-                "X-Content-Type-Options": "nosniff",
-                "Referrer-Policy": "no-referrer",
-            },
-        )
+        headers = {
+            "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
+            "'unsafe-inline'; base-uri 'none'; form-action 'none'",
+            "X-Content-Type-Options": "nosniff",
+            "Referrer-Policy": "no-referrer",
+        }
+        text = _render(store, job)
+        if job["state"] is JobState.SUCCEEDED:
+            return immutable(request, text.encode(), "text/html; charset=utf-8", headers=headers)
+        return HTMLResponse(text, headers={**headers, "Cache-Control": NO_STORE})
 
     @router.post(
         f"/v1/{collection}/{{job_id}}/share",
         response_model=SharePublic,
         operation_id=f"share{noun}Page",
         summary="A short-lived signed link to this job's page, for reviewers without a key",
-        responses=problem_responses(401, 404, 408, 413, 422, 503),
+        responses=problem_responses(401, 404, 408, 413, 415, 422, 503),
+        dependencies=[Depends(require_json)],
     )
     def share(
         job_id: str,
-        request: Request,
         caller: CallerDep,
         settings: SettingsDep,
         store: StoreDep,
+        secret: PageSecretDep,
         body: ShareCreate | None = None,
     ) -> SharePublic:
         job = _job(store, job_id, kind)
         if job["owner"] != caller:
             raise HTTPException(404, f"no such job {job_id!r}")
         ttl = (body or ShareCreate()).ttl_seconds
-        token, expires = make_token(_secret(request), job_id, ttl)
+        token, expires = make_token(secret, job_id, ttl)
         url = f"{settings.base_url}/v1/{collection}/{job_id}/page?token={token}"
         return SharePublic(url=url, expires=expires)
 
