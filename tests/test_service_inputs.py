@@ -1,15 +1,13 @@
-"""Circuits with inputs through the service: inline data, kernel and spectrum jobs, errors."""
+"""Circuits with inputs through the service: inline data, kernel and spectrum jobs, errors.
+
+The ``client`` fixture (tests/conftest.py) is a started app whose jobs run, with a key.
+"""
 
 import time
 
 import haarline
 import numpy as np
 import pytest
-from fastapi.testclient import TestClient
-from haarline.service.api.app import create_app
-from haarline.service.api.keys import issue_key
-from haarline.service.jobs.store import Store
-from haarline.service.settings import Settings
 
 MODEL = {
     "name": "service-model",
@@ -28,15 +26,6 @@ OPTIONS = {
 RNG = np.random.default_rng(11)
 X = RNG.uniform(0, np.pi, size=(24, 3)).round(6)
 DATA = {"x": X.tolist(), "labels": [int(v) for v in (X[:, 0] > 1.5)]}
-
-
-@pytest.fixture
-def client(tmp_path):
-    settings = Settings.from_env({}, data_dir=str(tmp_path / "data"), workers=1)
-    with TestClient(create_app(settings)) as c:
-        _, key = issue_key(Store(tmp_path / "data" / "haarline.sqlite3"), "lab")
-        c.headers["Authorization"] = f"Bearer {key}"
-        yield c
 
 
 def wait(client, url, timeout=60):
