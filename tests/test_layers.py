@@ -10,8 +10,8 @@ Reads every module of the package with :mod:`ast` (imports inside functions and 
 - the layers of the service, lowest first: ``errors`` and ``settings`` → ``jobs`` → ``api``
   → ``cli``;
 - no import cycles between modules;
-- the packages the tests use as independent references (qiskit, QuTiP, scikit-learn) are
-  never imported by the package.
+- the packages the tests use as independent references (the OpenQASM reference SDK of
+  ``tests/reference_sdk.py``, QuTiP, scikit-learn) are never imported by the package.
 
 The same rule as import-linter's layers contract, in an AST walk of our own.
 """
@@ -22,6 +22,7 @@ import ast
 from pathlib import Path
 
 import pytest
+from reference_sdk import PACKAGES
 
 ROOT = Path(__file__).parents[1]
 FOLDERS = {"haarline": ROOT / "analysis", "haarline.service": ROOT / "service"}
@@ -206,7 +207,7 @@ def test_the_source_folder_names_are_never_imported(folder: str):
 
 
 # packages of the `test` extra that serve only as independent references in tests
-TEST_ONLY = {"qiskit", "qiskit_qasm3_import", "qutip", "sklearn"}
+TEST_ONLY = {*PACKAGES, "qutip", "sklearn"}
 
 
 def test_reference_packages_of_the_tests_are_never_imported_by_the_package():

@@ -1,22 +1,25 @@
 """OpenQASM 3 both ways with an independent exporter, importer and simulator.
 
-qiskit (a general-purpose SDK on PyPI, a test-only dependency of the ``test`` extra) serves
-only as a black-box reference here: ``qiskit.qasm3.dumps`` writes the programs haarline
-reads, ``qiskit.qasm3.loads`` (its ``qiskit-qasm3-import`` package) reads the programs
-haarline writes, and ``qiskit.quantum_info.Statevector`` gives the states to compare with.
+A general-purpose SDK from PyPI (a test-only dependency, behind ``tests/reference_sdk.py``)
+serves only as a black-box reference here: its exporter writes the programs haarline
+reads, its importer reads the programs haarline writes, and its statevector gives the
+states to compare with.
 
 Qubit order: its qubit k is the program's ``q[k]``, which is haarline's qubit k, but its
 amplitude index is Σ b_k 2^k (qubit 0 the least significant bit) where haarline's is
-Σ b_k 2^(n-1-k), so :func:`ours` reverses the bit order of its states. States are compared
-up to a global phase: haarline reads ``P(λ)`` as ``rz(λ)`` and drops global phases (see
+Σ b_k 2^(n-1-k), so ``reference_sdk.state`` reverses the bit order of its states. States
+are compared up to a global phase: haarline reads ``P(λ)`` as ``rz(λ)`` and drops global phases (see
 ``analysis/circuit/qasm/_standard.py`` for the source of each gate's reading), and the
 exporter leaves global phases out of the definitions it writes.
 """
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pytest
+import reference_sdk as sdk
 from haarline import (
     GATES,
     CircuitError,
@@ -28,13 +31,9 @@ from haarline import (
 )
 from haarline.circuit.qasm.export import to_qasm
 from haarline.circuit.qasm.parse import parse_qasm
-from qiskit import QuantumCircuit, qasm3
-from qiskit.circuit import Parameter
-from qiskit.circuit.library import get_standard_gate_name_mapping
-from qiskit.quantum_info import Operator, Statevector
 from test_engine import random_description
 
-LIBRARY = get_standard_gate_name_mapping()
+LIBRARY = sdk.gate_table()
 
 # what haarline reads of the library's gates as the exporter writes them (each gate alone,
 # tests below): with every angle an input, the angles reach haarline's gates unscaled
@@ -55,19 +54,13 @@ REFUSED = {"ccx", "ccz", "cswap", "global_phase"}
 NOT_GATES = {"measure", "reset", "delay", "barrier"}
 
 
-def ours(state: np.ndarray, n: int) -> np.ndarray:
-    """A state in the library's order (qubit 0 least significant) in haarline's order."""
-    return np.asarray(state).reshape([2] * n).transpose(range(n - 1, -1, -1)).ravel()
-
-
 def assert_same_state(have: np.ndarray, want: np.ndarray) -> None:
     overlap = abs(np.vdot(want, have))
     assert abs(overlap - 1) < 1e-10, overlap
 
 
-def library_state(circuit: QuantumCircuit, values: dict[str, float]) -> np.ndarray:
-    bound = circuit.assign_parameters({p: values[p.name] for p in circuit.parameters})
-    return ours(Statevector(bound).data, circuit.num_qubits)
+def library_state(circuit: Any, values: dict[str, float]) -> np.ndarray:
+    return sdk.state(circuit, values)
 
 
 def haarline_state(text: str, values: dict[str, float]) -> np.ndarray:
@@ -76,11 +69,14 @@ def haarline_state(text: str, values: dict[str, float]) -> np.ndarray:
     return run(program, thetas)[0]
 
 
-def one_gate(name: str, inputs: bool) -> QuantumCircuit:
+def one_gate(name: str, inputs: bool) -> Any:
     gate = LIBRARY[name]
     k = len(gate.params)
-    angles = [Parameter(f"w{i}") for i in range(k)] if inputs else [0.3 + 0.4 * i for i in range(k)]
-    circuit = QuantumCircuit(max(gate.num_qubits, 1))
+    if inputs:
+        angles = [sdk.symbol(f"w{i}") for i in range(k)]
+    else:
+        angles = [0.3 + 0.4 * i for i in range(k)]
+    circuit = sdk.new_circuit(max(gate.num_qubits, 1))
     circuit.append(type(gate)(*angles) if k else gate, range(gate.num_qubits))
     return circuit
 
@@ -90,7 +86,7 @@ def test_every_library_gate_is_read_or_refused_with_line_and_column():
     assert known <= set(LIBRARY)
     for name in sorted(set(LIBRARY) - NOT_GATES):
         for inputs in (True, False):
-            text = qasm3.dumps(one_gate(name, inputs))
+            text = sdk.write_qasm(one_gate(name, inputs))
             should_read = name in READ or (name in CONSTANT_ONLY and not inputs)
             if name not in known:  # a gate of a newer version: read, or refused cleanly
                 try:
@@ -112,7 +108,7 @@ def test_each_gate_alone_gives_the_same_state(name):
         gate = one_gate(name, inputs)
         n = gate.num_qubits
         # a non-trivial start, so that relative phases show
-        circuit = QuantumCircuit(n)
+        circuit = sdk.new_circuit(n)
         for q in range(n):
             circuit.ry(float(rng.uniform(0.3, 2.8)), q)
             circuit.rz(float(rng.uniform(0.3, 2.8)), q)
@@ -120,14 +116,14 @@ def test_each_gate_alone_gives_the_same_state(name):
             circuit.cx(q, q + 1)
         circuit.compose(gate, inplace=True)
         values = {p.name: float(rng.uniform(-np.pi, np.pi)) for p in circuit.parameters}
-        text = qasm3.dumps(circuit)
+        text = sdk.write_qasm(circuit)
         assert_same_state(haarline_state(text, values), library_state(circuit, values))
         if inputs:  # every angle an input of its own: one parameter each, as declared
             program = expand(parse_qasm(text))
             assert program.parameters == len(gate.parameters)
 
 
-def random_library_circuit(rng: np.random.Generator, n: int) -> QuantumCircuit:
+def random_library_circuit(rng: np.random.Generator, n: int) -> Any:
     """Every readable gate that fits on n qubits (in a random order), then random extras.
 
     An angle of a gate read with inputs is a new input, sometimes an input used before
@@ -135,15 +131,15 @@ def random_library_circuit(rng: np.random.Generator, n: int) -> QuantumCircuit:
     """
     pool = [name for name in sorted(READ | CONSTANT_ONLY) if LIBRARY[name].num_qubits <= n]
     names = list(rng.permutation(pool)) + list(rng.choice(pool, size=10))
-    circuit = QuantumCircuit(n)
-    made: list[Parameter] = []
+    circuit = sdk.new_circuit(n)
+    made: list[Any] = []
 
-    def angle(name: str) -> Parameter | float:
+    def angle(name: str) -> Any:
         r = rng.random()
         if name in CONSTANT_ONLY or r >= 0.85:
             return float(rng.uniform(-np.pi, np.pi))
         if r < 0.65 or not made:
-            made.append(Parameter(f"w{len(made)}"))
+            made.append(sdk.symbol(f"w{len(made)}"))
             return made[-1]
         return made[int(rng.integers(len(made)))]
 
@@ -160,11 +156,11 @@ def random_library_circuit(rng: np.random.Generator, n: int) -> QuantumCircuit:
 def test_random_circuits_written_by_the_library_read_with_equal_states(n, case):
     rng = np.random.default_rng(100 * n + case)
     circuit = random_library_circuit(rng, n)
-    text = qasm3.dumps(circuit)
+    text = sdk.write_qasm(circuit)
     program = expand(parse_qasm(text))
     assert program.qubits == n
     assert set(program.parameter_names) <= {p.name for p in circuit.parameters}
-    again = qasm3.loads(to_qasm(program))  # and back: haarline's export of what it read
+    again = sdk.read_qasm(to_qasm(program))  # and back: haarline's export of what it read
     for _ in range(3):
         values = {p.name: float(rng.uniform(0, 2 * np.pi)) for p in circuit.parameters}
         want = library_state(circuit, values)
@@ -188,7 +184,7 @@ def exported_names(text: str) -> tuple[str, ...]:
 
 def check_export(program, seed: int) -> None:
     text = to_qasm(program)
-    loaded = qasm3.loads(text)
+    loaded = sdk.read_qasm(text)
     assert loaded.num_qubits == program.qubits
     names = exported_names(text)
     assert {p.name for p in loaded.parameters} == set(names)
@@ -227,6 +223,6 @@ def test_cphase_is_written_as_the_standard_cp_exactly():
     program = expand(parse_circuit({"qubits": 2, "layer": [{"gate": "cphase", "on": [[1, 0]]}]}))
     text = to_qasm(program)
     assert "cp(theta_0) q[1], q[0];" in text and "gate cp" not in text
-    loaded = qasm3.loads(text).assign_parameters([0.9])
-    matrix = Operator(loaded).data  # little-endian: q[1] is the high bit, so this is cp(1 -> 0)
+    loaded = sdk.bind(sdk.read_qasm(text), [0.9])
+    matrix = sdk.matrix(loaded)  # little-endian: q[1] is the high bit, so this is cp(1 -> 0)
     np.testing.assert_allclose(np.diag(matrix), [1, 1, 1, np.exp(0.9j)], atol=1e-12)
