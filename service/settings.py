@@ -31,6 +31,7 @@ variable                           meaning (default)
 ``HAARLINE_PAGE_SECRET``           the key that signs share links (default: 32 random bytes
                                    created once in ``DATA_DIR/page-secret``); changing it
                                    ends every link given out
+``HAARLINE_SHARE_MAX_DAYS``        longest lifetime of a share link, in days (``90``)
 ``HAARLINE_RETENTION_DAYS``        delete finished jobs, with their results and plots, this
                                    many days after they finished (unset: keep them)
 ``HAARLINE_SHARED_RESULT_CACHE``   ``1``: a request identical to one *any* key has run is
@@ -110,6 +111,7 @@ class Settings(BaseModel):
     retry_after: int = Field(default=5, ge=1)
     public_url: str | None = None
     page_secret: SecretStr | None = Field(default=None, min_length=16)
+    share_max_days: float = Field(default=90.0, gt=0, le=3650)
     retention_days: float | None = Field(default=None, gt=0, le=36_500)
     shared_result_cache: bool = False
     cors_origins: tuple[str, ...] = ()

@@ -8,6 +8,7 @@ from haarline import AnalysisOptions, Circuit
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, StrictStr, model_validator
 
 __all__ = [
+    "LABEL_KEY",
     "AnalysisCreate",
     "CheckCreate",
     "CircuitSource",
@@ -15,6 +16,8 @@ __all__ = [
     "DataInline",
     "EventPublic",
     "JobLinks",
+    "JobOptions",
+    "JobPage",
     "JobPublic",
     "ProblemDetail",
     "ProblemEntry",
@@ -110,15 +113,44 @@ class DataInline(BaseModel):
     )
 
 
+class JobOptions(AnalysisOptions):
+    """The analysis options, and a policy to judge the report by."""
+
+    policy: dict[str, Any] | None = Field(
+        default=None,
+        description="A policy, exactly as a `--policy` file holds it: "
+        '`{"name": ..., "rules": [{"metric": "expressibility.kl_corrected", '
+        '"fail_above": 0.05}, ...]}`. The report carries the rule results under `policy`, '
+        "the job status `policy: passed | warned | failed`.",
+    )
+
+
+MAX_LABELS = 20
+LABEL_KEY = r"^[a-z0-9][a-z0-9_.-]{0,62}$"
+"""A label key: lower-case letters, digits, ``_ . -``, at most 63 characters."""
+
+LabelValue = Annotated[str, Field(min_length=1, max_length=200, pattern=r"^[^\x00-\x1f\x7f]+$")]
+Labels = Annotated[
+    dict[Annotated[str, Field(pattern=LABEL_KEY)], LabelValue],
+    Field(
+        max_length=MAX_LABELS,
+        description='Up to 20 labels such as `{"pr": "17", "commit": "ab12cd"}` to find '
+        "the job by (`GET …?label=pr:17`). Keys: lower-case letters, digits, `_ . -`; values: "
+        "1 to 200 printable characters.",
+    ),
+]
+
+
 class AnalysisCreate(CircuitSource):
     """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
 
-    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    options: JobOptions = Field(default_factory=JobOptions)
     data: DataInline | None = Field(
         default=None,
         description="For a circuit with inputs: rows to draw the inputs from instead of the "
         "options' input law.",
     )
+    labels: Labels = Field(default_factory=dict)
 
 
 class CompareCreate(_Body):
@@ -127,7 +159,8 @@ class CompareCreate(_Body):
     model_config = ConfigDict(extra="forbid")
 
     circuits: list[CircuitSource] = Field(min_length=2, max_length=20)
-    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    options: JobOptions = Field(default_factory=JobOptions)
+    labels: Labels = Field(default_factory=dict)
     data: DataInline | None = Field(
         default=None,
         description="For circuits with inputs: rows to draw the inputs from (every circuit "
@@ -184,7 +217,22 @@ class JobPublic(BaseModel):
     created: float
     updated: float
     events: list[EventPublic] = Field(default_factory=list)
+    labels: dict[str, str] = Field(default_factory=dict)
+    policy: Literal["passed", "warned", "failed"] | None = Field(
+        default=None,
+        description="The verdict of `options.policy` on the finished report (null without one).",
+    )
     links: JobLinks
+
+
+class JobPage(BaseModel):
+    """One page of a job listing, newest first."""
+
+    jobs: list[JobPublic]
+    total: int = Field(description="Jobs matching the filters, on every page together.")
+    next: str | None = Field(
+        description="The next page's URL (also in the `Link` header), null on the last page."
+    )
 
 
 class ReferencePublic(BaseModel):
@@ -234,6 +282,13 @@ class ReadyPublic(BaseModel):
     min_free_bytes: int = Field(description="Below this, readiness fails (503).")
 
 
+_VERDICT: dict[str, Literal["passed", "warned", "failed"]] = {
+    "pass": "passed",
+    "warn": "warned",
+    "fail": "failed",
+}
+
+
 def job_public(job: dict[str, Any], base: str) -> JobPublic:
     """Render a stored job for its owner, with links under ``base``."""
     root = f"{base}/{job['id']}"
@@ -248,6 +303,8 @@ def job_public(job: dict[str, Any], base: str) -> JobPublic:
         created=job["created"],
         updated=job["updated"],
         events=[EventPublic(**e) for e in job.get("events", [])],
+        labels=job.get("labels", {}),
+        policy=_VERDICT.get(job.get("policy") or ""),
         links=JobLinks(
             self=root, report=f"{root}/report", summary=f"{root}/summary", plots=f"{root}/plots"
         ),

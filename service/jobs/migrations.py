@@ -71,6 +71,24 @@ MIGRATIONS: tuple[Migration, ...] = (
             "CREATE INDEX jobs_updated ON jobs(state, updated)",
         ),
     ),
+    Migration(
+        3,
+        "labels of a job (a column to show them, a table to find jobs by them), the policy "
+        "status of a finished job, and share links that can be listed and revoked",
+        (
+            "ALTER TABLE jobs ADD COLUMN labels TEXT NOT NULL DEFAULT '{}'",
+            "ALTER TABLE jobs ADD COLUMN policy TEXT",
+            "CREATE TABLE job_labels ("
+            " job_id TEXT NOT NULL, key TEXT NOT NULL, value TEXT NOT NULL,"
+            " PRIMARY KEY (job_id, key))",
+            "CREATE INDEX job_labels_pair ON job_labels(key, value, job_id)",
+            "CREATE INDEX jobs_listing ON jobs(owner, kind, created, id)",
+            "CREATE TABLE links ("
+            " id TEXT PRIMARY KEY, job_id TEXT NOT NULL, owner TEXT NOT NULL,"
+            " created REAL NOT NULL, expires INTEGER NOT NULL, revoked REAL)",
+            "CREATE INDEX links_job ON links(job_id)",
+        ),
+    ),
 )
 """Every migration, in the order they run; ``MIGRATIONS[i].version == i + 1``."""
 

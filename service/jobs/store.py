@@ -16,11 +16,12 @@ from __future__ import annotations
 
 import json
 import re
+import secrets
 import shutil
 import sqlite3
 import time
 import uuid
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
@@ -157,6 +158,7 @@ class Store:
         request: dict[str, Any],
         request_hash: str,
         idempotency_key: str | None = None,
+        labels: dict[str, str] | None = None,
     ) -> tuple[dict[str, Any], bool]:
         """Insert a queued job; with an idempotency key already used, return the old one.
 
@@ -176,9 +178,10 @@ class Store:
                 if row is not None:
                     conn.execute("COMMIT")
                     return _job(row), False
+            labels = dict(sorted((labels or {}).items()))
             conn.execute(
                 "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
-                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                "state, created, updated, labels) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (
                     job_id,
                     owner,
@@ -189,7 +192,12 @@ class Store:
                     JobState.QUEUED,
                     now,
                     now,
+                    json.dumps(labels),
                 ),
+            )
+            conn.executemany(
+                "INSERT INTO job_labels (job_id, key, value) VALUES (?, ?, ?)",
+                [(job_id, k, v) for k, v in labels.items()],
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
@@ -232,8 +240,8 @@ class Store:
             )
             conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', cached = 1, "
-                "updated = ? WHERE id = ?",
-                (JobState.SUCCEEDED, now, job_id),
+                "updated = ?, policy = (SELECT policy FROM jobs WHERE id = ?) WHERE id = ?",
+                (JobState.SUCCEEDED, now, source_id, job_id),
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
@@ -278,16 +286,45 @@ class Store:
         return job
 
     def list_jobs(
-        self, owner: str, *, kind: str | None = None, limit: int = 50, offset: int = 0
-    ) -> list[dict[str, Any]]:
-        """An owner's jobs (of one kind, when given), newest first."""
+        self,
+        owner: str,
+        *,
+        kind: str | None = None,
+        limit: int = 50,
+        labels: Sequence[tuple[str, str | None]] = (),
+        states: Sequence[JobState] = (),
+        before: tuple[float, str] | None = None,
+    ) -> tuple[list[dict[str, Any]], int]:
+        """An owner's jobs newest first, and how many match in all.
+
+        ``labels`` are ``(key, value)`` pairs every job must carry (``value`` ``None``: any
+        value); ``states`` the states allowed (empty: all); ``before`` a cursor
+        ``(created, id)``: only jobs strictly after it in the order (newest first, ties by
+        id), so pages never repeat or skip a job while new ones arrive.
+        """
+        where = ["owner = ?", "(? IS NULL OR kind = ?)"]
+        args: list[Any] = [owner, kind, kind]
+        for key, value in labels:
+            where.append(
+                "EXISTS (SELECT 1 FROM job_labels l WHERE l.job_id = jobs.id AND l.key = ?"
+                + (" AND l.value = ?)" if value is not None else ")")
+            )
+            args += [key] if value is None else [key, value]
+        if states:
+            where.append(f"state IN ({_marks(tuple(states))})")
+            args += list(states)
+        condition = " AND ".join(where)
+        page_condition, page_args = condition, list(args)
+        if before is not None:
+            page_condition += " AND (created < ? OR (created = ? AND id < ?))"
+            page_args += [before[0], before[0], before[1]]
         with self._connect() as conn:
             rows = conn.execute(
-                "SELECT * FROM jobs WHERE owner = ? AND (? IS NULL OR kind = ?) "
-                "ORDER BY created DESC LIMIT ? OFFSET ?",
-                (owner, kind, kind, limit, offset),
+                f"SELECT * FROM jobs WHERE {page_condition} ORDER BY created DESC, id DESC LIMIT ?",
+                (*page_args, limit),
             ).fetchall()
-        return [_job(r) for r in rows]
+            total = conn.execute(f"SELECT count(*) FROM jobs WHERE {condition}", args).fetchone()
+        return [_job(r) for r in rows], int(total[0])
 
     def active_count(self, owner: str) -> int:
         """Queued or running jobs of an owner."""
@@ -411,10 +448,12 @@ class Store:
                     "INSERT OR REPLACE INTO artifacts (job_id, name, content) VALUES (?, ?, ?)",
                     (job_id, name, content),
                 )
+            policy = report.get("policy")
+            status = policy.get("status") if isinstance(policy, dict) else None
             conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', "
-                "updated = ? WHERE id = ? AND state = ?",
-                (JobState.SUCCEEDED, now, job_id, JobState.RUNNING),
+                "updated = ?, policy = ? WHERE id = ? AND state = ?",
+                (JobState.SUCCEEDED, now, status, job_id, JobState.RUNNING),
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
@@ -503,6 +542,46 @@ class Store:
             conn.execute("COMMIT")
         return len(ids)
 
+    # --- share links ------------------------------------------------------------------------
+
+    def add_link(self, job_id: str, owner: str, expires: int) -> str:
+        """Record a new share link of a job; return its id."""
+        link_id = secrets.token_hex(8)
+        with self._connect() as conn:
+            conn.execute(
+                "INSERT INTO links (id, job_id, owner, created, expires) VALUES (?, ?, ?, ?, ?)",
+                (link_id, job_id, owner, time.time(), expires),
+            )
+        return link_id
+
+    def links(self, job_id: str) -> list[dict[str, Any]]:
+        """A job's share links, oldest first (revoked and expired ones too)."""
+        with self._connect() as conn:
+            rows = conn.execute(
+                "SELECT id, created, expires, revoked FROM links WHERE job_id = ? "
+                "ORDER BY created, id",
+                (job_id,),
+            ).fetchall()
+        return [dict(r) for r in rows]
+
+    def link_open(self, link_id: str, job_id: str) -> bool:
+        """Whether a link of this job exists and has not been revoked (expiry is signed)."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT 1 FROM links WHERE id = ? AND job_id = ? AND revoked IS NULL",
+                (link_id, job_id),
+            ).fetchone()
+        return row is not None
+
+    def revoke_link(self, link_id: str, job_id: str) -> bool:
+        """Revoke a link; ``False`` if the job has no such link not yet revoked."""
+        with self._connect() as conn:
+            cur = conn.execute(
+                "UPDATE links SET revoked = ? WHERE id = ? AND job_id = ? AND revoked IS NULL",
+                (time.time(), link_id, job_id),
+            )
+        return cur.rowcount == 1
+
     def result(self, job_id: str) -> tuple[dict[str, Any], str] | None:
         """The stored report and Markdown of a finished job."""
         with self._connect() as conn:
@@ -534,10 +613,11 @@ def _job(row: sqlite3.Row) -> dict[str, Any]:
     job["request"] = json.loads(job["request"])
     job["cancel"] = bool(job["cancel"])
     job["cached"] = bool(job["cached"])
+    job["labels"] = json.loads(job.get("labels") or "{}")
     return job
 
 
 def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
     """Delete what belongs to deleted jobs (inside the caller's transaction)."""
-    for table in ("events", "results", "artifacts"):
+    for table in ("events", "results", "artifacts", "job_labels", "links"):
         conn.executemany(f"DELETE FROM {table} WHERE job_id = ?", [(i,) for i in ids])
