@@ -35,6 +35,7 @@ CORE_LAYERS = [
     ["haarline.lie"],
     ["haarline.report"],
     ["haarline.plots"],
+    ["haarline.client"],  # the REST client: standard library only, beside the core
 ]
 SERVICE_LAYERS = [
     ["haarline.service.errors", "haarline.service.settings"],
