@@ -37,7 +37,7 @@ CORE_LAYERS = [
     ["haarline.plots"],
 ]
 SERVICE_LAYERS = [
-    ["haarline.service.errors", "haarline.service.settings"],
+    ["haarline.service.errors", "haarline.service.settings", "haarline.service.webhooks"],
     ["haarline.service.jobs"],
     ["haarline.service.api"],
     ["haarline.service.cli"],

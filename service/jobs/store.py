@@ -6,7 +6,9 @@ writes. A database that is locked for longer than the busy timeout, or a full di
 :class:`StoreUnavailable`, which the service answers with 503.
 
 Job states are :class:`~haarline.service.jobs.states.JobState` members, bound as SQL
-parameters. Every state change is recorded in ``events`` with its time. A finished job is
+parameters. Every state change is recorded in ``events`` with its time; a job that ends
+with a ``callback_url`` queues its notification in the same transaction
+(:func:`haarline.service.jobs.outbox.enqueue_end`). A finished job is
 deleted only on request (``DELETE`` of its URL) or by retention
 (``HAARLINE_RETENTION_DAYS``), with its events, result and PNGs. The tables and their
 migrations are in :mod:`haarline.service.jobs.migrations`.
@@ -21,12 +23,13 @@ import sqlite3
 import time
 import uuid
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
 from typing import Any
 
 from haarline.service.errors import StoreUnavailable
 from haarline.service.jobs.migrations import migrate
+from haarline.service.jobs.outbox import enqueue_end
 from haarline.service.jobs.states import ACTIVE, FINAL, JobState
 
 __all__ = ["JOB_ID", "JobState", "Store", "StoreUnavailable", "is_job_id"]
@@ -78,6 +81,13 @@ class Store:
             raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
         finally:
             conn.close()
+
+    def connect(self) -> AbstractContextManager[sqlite3.Connection]:
+        """A connection (autocommit, rows by name) for modules with tables of their own.
+
+        Errors are translated as in every store call (:class:`StoreUnavailable`).
+        """
+        return self._connect()
 
     def initialize(self) -> list[int]:
         """Switch the file to WAL mode and bring its schema up to date; return the migrations run.
@@ -157,8 +167,13 @@ class Store:
         request: dict[str, Any],
         request_hash: str,
         idempotency_key: str | None = None,
+        callback_url: str | None = None,
+        work: float | None = None,
     ) -> tuple[dict[str, Any], bool]:
         """Insert a queued job; with an idempotency key already used, return the old one.
+
+        ``callback_url`` is notified when the job ends; ``work`` is its estimated work
+        (admission's), which the ``Retry-After`` of a full queue reads.
 
         Returns
         -------
@@ -178,7 +193,8 @@ class Store:
                     return _job(row), False
             conn.execute(
                 "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
-                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                "state, created, updated, callback_url, work) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (
                     job_id,
                     owner,
@@ -189,6 +205,8 @@ class Store:
                     JobState.QUEUED,
                     now,
                     now,
+                    callback_url,
+                    work,
                 ),
             )
             conn.execute(
@@ -244,6 +262,7 @@ class Store:
                     "answered from the stored result of an identical request",
                 ),
             )
+            enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
         return True
 
@@ -411,7 +430,7 @@ class Store:
                     "INSERT OR REPLACE INTO artifacts (job_id, name, content) VALUES (?, ?, ?)",
                     (job_id, name, content),
                 )
-            conn.execute(
+            cur = conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', "
                 "updated = ? WHERE id = ? AND state = ?",
                 (JobState.SUCCEEDED, now, job_id, JobState.RUNNING),
@@ -420,6 +439,8 @@ class Store:
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
                 (job_id, JobState.SUCCEEDED, now),
             )
+            if cur.rowcount:
+                enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
 
     def mark(self, job_id: str, state: JobState, *, error: str | None = None) -> None:
@@ -439,6 +460,8 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, state, now, error),
                 )
+                if state in FINAL:
+                    enqueue_end(conn, job_id, state, now)
             conn.execute("COMMIT")
 
     def request_cancel(self, job_id: str) -> JobState | None:
@@ -463,6 +486,7 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, JobState.CANCELLED, now, "cancelled before it started"),
                 )
+                enqueue_end(conn, job_id, JobState.CANCELLED, now)
                 state = JobState.CANCELLED
             elif state is JobState.RUNNING:
                 conn.execute("UPDATE jobs SET cancel = 1, updated = ? WHERE id = ?", (now, job_id))
@@ -538,6 +562,14 @@ def _job(row: sqlite3.Row) -> dict[str, Any]:
 
 
 def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
-    """Delete what belongs to deleted jobs (inside the caller's transaction)."""
-    for table in ("events", "results", "artifacts"):
+    """Delete what belongs to deleted jobs (inside the caller's transaction).
+
+    A job's notifications go with it, a pending one too (its attempts are not made).
+    """
+    conn.executemany(
+        "DELETE FROM delivery_attempts WHERE delivery_id IN "
+        "(SELECT id FROM deliveries WHERE job_id = ?)",
+        [(i,) for i in ids],
+    )
+    for table in ("events", "results", "artifacts", "deliveries"):
         conn.executemany(f"DELETE FROM {table} WHERE job_id = ?", [(i,) for i in ids])
