@@ -311,7 +311,7 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "/v1/analyses",
             {"reference": "rx-product", "bogus": 1},
             "bogus",
-            SOURCE + ", options, data",
+            SOURCE + ", options, data, callback_url",
         ),
         (
             "/v1/comparisons",
@@ -325,7 +325,12 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "depth",
             SOURCE + ", qubits, layers, diagram",
         ),
-        ("/v1/score", {"reference": "rx-product", "seed": 3}, "seed", SOURCE + ", options, data"),
+        (
+            "/v1/score",
+            {"reference": "rx-product", "seed": 3},
+            "seed",
+            SOURCE + ", options, data, callback_url",
+        ),
     ],
 )
 def test_an_unknown_field_names_the_allowed_ones(quiet, route, body, path, allowed):
