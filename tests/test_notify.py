@@ -377,3 +377,76 @@ def test_events_of_an_ended_job_send_end_and_close(quiet):
     (end,) = messages[1:]
     assert end["event"] == "end" and json.loads(end["data"])["state"] == "cancelled"
     assert quiet.get(f"/v1/analyses/{'0' * 32}/events").status_code == 404
+
+
+# --- one attempt's connection ------------------------------------------------------------------
+
+
+def test_the_connection_goes_to_the_checked_address_with_the_urls_host():
+    from haarline.service.jobs.destinations import Destination
+    from haarline.service.jobs.notify import post
+
+    with Receiver([202]) as receiver:
+        port = receiver.server.server_port
+        # a name that resolves nowhere: only the checked address is ever connected to
+        to = Destination("http", "hooks.example.invalid", port, "/hook?a=1", ("127.0.0.1",))
+        assert post(to, b"{}", {"Content-Type": "application/json"}, timeout=5) == 202
+        (q,) = receiver.requests
+        assert q["headers"]["Host"] == f"hooks.example.invalid:{port}"
+        assert q["path"] == "/hook?a=1" and q["body"] == b"{}"
+
+
+def test_an_unreachable_address_is_an_oserror():
+    from haarline.service.jobs.destinations import Destination
+    from haarline.service.jobs.notify import post
+    from live_server import free_port
+
+    to = Destination("http", "127.0.0.1", free_port(), "/", ("127.0.0.1",))
+    with pytest.raises(OSError):
+        post(to, b"{}", {}, timeout=2)
+
+
+@pytest.fixture
+def certificate(tmp_path):
+    """A self-signed certificate for localhost and 127.0.0.1, made with the openssl tool."""
+    import shutil
+    import subprocess
+
+    if shutil.which("openssl") is None:
+        pytest.skip("the openssl command is not installed")
+    cert, key = tmp_path / "cert.pem", tmp_path / "key.pem"
+    done = subprocess.run(
+        ["openssl", "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-days", "1"]
+        + ["-keyout", str(key), "-out", str(cert), "-subj", "/CN=localhost"]
+        + ["-addext", "subjectAltName=DNS:localhost,IP:127.0.0.1"],
+        capture_output=True,
+        text=True,
+    )
+    if done.returncode != 0:
+        pytest.skip(f"openssl could not make a certificate: {done.stderr[-300:]}")
+    return cert, key
+
+
+def test_https_is_verified_against_the_urls_host_not_the_address(certificate):
+    import ssl
+
+    from haarline.service.jobs.destinations import Destination
+    from haarline.service.jobs.notify import post
+
+    cert, key = certificate
+    server_side = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+    server_side.load_cert_chain(cert, key)
+    trusting = ssl.create_default_context(cafile=str(cert))
+    with Receiver() as receiver:
+        receiver.server.socket = server_side.wrap_socket(receiver.server.socket, server_side=True)
+        port = receiver.server.server_port
+        good = Destination("https", "localhost", port, "/hook", ("127.0.0.1",))
+        assert post(good, b"{}", {}, timeout=5, context=trusting) == 200
+        # the same address under another name: the certificate does not name it
+        other = Destination("https", "hooks.example.org", port, "/hook", ("127.0.0.1",))
+        with pytest.raises(ssl.SSLCertVerificationError, match="hooks.example.org"):
+            post(other, b"{}", {}, timeout=5, context=trusting)
+        # and the system's trust store does not know a self-signed certificate
+        with pytest.raises(ssl.SSLCertVerificationError):
+            post(good, b"{}", {}, timeout=5)
+    assert len(receiver.requests) == 1
