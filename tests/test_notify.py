@@ -8,7 +8,7 @@ import json
 import time
 
 import pytest
-from haarline.service.errors import CallbackRefused
+from haarline.service.errors import CallbackRefused, StoreUnavailable
 from haarline.service.jobs import outbox
 from haarline.service.jobs.destinations import check_destination
 from haarline.service.jobs.states import JobState
@@ -450,3 +450,42 @@ def test_https_is_verified_against_the_urls_host_not_the_address(certificate):
         with pytest.raises(ssl.SSLCertVerificationError):
             post(good, b"{}", {}, timeout=5)
     assert len(receiver.requests) == 1
+
+
+def test_records_the_store_refuses_are_written_on_a_later_round(make_settings, tmp_path):
+    from haarline.service.jobs.notify import Notifier
+
+    settings = make_settings(webhook_loopback=True)
+    store = Store(settings.database)
+    store.initialize()
+    broken = Store(tmp_path)  # a directory: SQLite cannot open it (StoreUnavailable)
+    notifier = Notifier(settings, store)  # not started: rounds are run by hand here
+
+    def claim():
+        with store.connect() as conn:
+            (d,) = outbox.claim_due(conn, time.time() + 1, 1)
+        return d
+
+    with Receiver(on_request=lambda: setattr(notifier, "store", broken)) as receiver:
+        with store.connect() as conn:
+            outbox.set_secret(conn, "alice", "whsec_" + "QUFBQUFBQUFBQUFBQUFBQUFBQUFBQUFB")
+        j = _job(store, callback=receiver.url)
+        store.request_cancel(j)
+        # the store fails before anything is sent: the delivery goes back to pending
+        notifier.store = broken
+        notifier._send(claim())
+        assert receiver.requests == [] and len(notifier._unwritten) == 1
+        notifier.store = store
+        notifier._flush()
+        assert _deliveries(store, j)[0]["status"] == "pending"
+        # the store fails while the receiver answers: the attempt's record waits
+        notifier._send(claim())
+        assert len(receiver.requests) == 1 and len(notifier._unwritten) == 1
+        assert _deliveries(store, j)[0]["status"] == "sending"  # not sent twice meanwhile
+        with pytest.raises(StoreUnavailable):
+            notifier._flush()  # still broken: kept for the next round
+        assert len(notifier._unwritten) == 1
+        notifier.store = store
+        notifier._flush()
+        (d,) = _deliveries(store, j)
+        assert d["status"] == "delivered" and [a["status_code"] for a in d["attempts"]] == [200]

@@ -45,11 +45,13 @@ def standard_webhooks_verify(
 class Receiver:
     """An HTTP server that records every POST and answers with the next planned status.
 
-    ``answers`` are used in order, one per request; when they run out, 200.
+    ``answers`` are used in order, one per request; when they run out, 200. ``on_request``
+    runs before each answer.
     """
 
-    def __init__(self, answers: list[int] | None = None):
+    def __init__(self, answers: list[int] | None = None, on_request: Any = None):
         self.answers = list(answers or [])
+        self.on_request = on_request  # called (no arguments) before each answer
         self.requests: list[dict[str, Any]] = []
         self._lock = threading.Lock()
         receiver = self
@@ -69,6 +71,8 @@ class Receiver:
                             "status": status,
                         }
                     )
+                if receiver.on_request is not None:
+                    receiver.on_request()
                 self.send_response(status)
                 self.send_header("Content-Length", "2")
                 self.end_headers()

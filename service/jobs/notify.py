@@ -18,6 +18,11 @@ One attempt:
 Redirects are not followed (a 3xx is a failed attempt). Each attempt may take
 ``HAARLINE_WEBHOOK_TIMEOUT`` seconds to connect and again for each read of the answer, of
 which at most :data:`ANSWER_BYTES` are read.
+
+When the store cannot be written (locked for longer than its busy timeout, a full disk),
+an attempt's record waits in memory and is written on a later round; a delivery whose
+attempt could not even start goes back to ``pending``. A server that stops meanwhile
+leaves it ``sending``, which the next start resumes.
 """
 
 from __future__ import annotations
@@ -25,9 +30,11 @@ from __future__ import annotations
 import http.client
 import logging
 import socket
+import sqlite3
 import ssl
 import threading
 import time
+from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from typing import Any
 
@@ -132,6 +139,7 @@ class Notifier:
         self._wake = threading.Event()
         self._lock = threading.Lock()
         self._sending: set[str] = set()
+        self._unwritten: list[Callable[[sqlite3.Connection], Any]] = []
         self._thread: threading.Thread | None = None
         self._senders: ThreadPoolExecutor | None = None
         self._agent = f"haarline/{haarline.__version__} (notifications)"
@@ -177,7 +185,31 @@ class Notifier:
             except Exception:  # keep sending whatever happens to one round
                 log.exception("notifier error")
 
+    def _write(self, change: Callable[[sqlite3.Connection], Any]) -> None:
+        """Apply ``change`` to the store now, or on a later round if it is unavailable."""
+        try:
+            with self.store.connect() as conn:
+                change(conn)
+        except StoreUnavailable as exc:
+            log.warning("job store unavailable, a notification record waits: %s", exc)
+            with self._lock:
+                self._unwritten.append(change)
+
+    def _flush(self) -> None:
+        """Write the records the store refused earlier, oldest first."""
+        with self._lock:
+            waiting, self._unwritten = self._unwritten, []
+        for i, change in enumerate(waiting):
+            try:
+                with self.store.connect() as conn:
+                    change(conn)
+            except StoreUnavailable:
+                with self._lock:
+                    self._unwritten[:0] = waiting[i:]
+                raise
+
     def _round(self) -> None:
+        self._flush()
         senders = self._senders
         with self._lock:
             free = SENDERS - len(self._sending)
@@ -196,8 +228,6 @@ class Notifier:
     def _attempt(self, delivery: dict[str, Any]) -> None:
         try:
             self._send(delivery)
-        except StoreUnavailable as exc:  # left "sending": resumed at the next start
-            log.warning("could not record notification %s: %s", delivery["id"], exc)
         except Exception:
             log.exception("notification %s", delivery["id"])
         finally:
@@ -214,6 +244,11 @@ class Notifier:
         try:
             with self.store.connect() as conn:
                 secret = outbox.secret_of(conn, delivery["owner"])
+        except StoreUnavailable as exc:  # nothing was sent: due again on a later round
+            log.warning("job store unavailable, notification %s waits: %s", delivery["id"], exc)
+            self._write(lambda conn: outbox.release(conn, delivery["id"]))
+            return
+        try:
             if secret is None:
                 raise WebhookError("the key has no signing secret (POST /v1/webhook-secret)")
             destination = check_destination(delivery["url"], self.settings)
@@ -233,22 +268,23 @@ class Notifier:
             error = f"{type(exc).__name__}: {exc}" if str(exc) else type(exc).__name__
         delays = self.settings.webhook_retry_delays
         next_at = time.time() + delays[number - 1] if number <= len(delays) else None
-        with self.store.connect() as conn:
-            outcome = outbox.record_attempt(
+        seconds = time.time() - started
+        self._write(
+            lambda conn: outbox.record_attempt(
                 conn,
                 delivery["id"],
                 at=started,
-                seconds=time.time() - started,
+                seconds=seconds,
                 status_code=status,
                 error=error,
                 next_at=next_at,
             )
+        )
         if error is not None:
             log.info(
-                "notification %s attempt %d to %s: %s (%s)",
+                "notification %s attempt %d to %s: %s",
                 delivery["id"],
                 number,
                 delivery["url"],
                 error,
-                outcome,
             )

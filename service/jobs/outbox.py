@@ -44,6 +44,7 @@ __all__ = [
     "end_event",
     "enqueue_end",
     "record_attempt",
+    "release",
     "resume",
     "secret_created",
     "secret_of",
@@ -169,6 +170,14 @@ def record_attempt(
     )
     conn.execute("COMMIT")
     return status
+
+
+def release(conn: sqlite3.Connection, delivery_id: str) -> None:
+    """A delivery whose attempt never started is ``pending`` again, due as it was."""
+    conn.execute(
+        "UPDATE deliveries SET status = ? WHERE id = ? AND status = ?",
+        (PENDING, delivery_id, SENDING),
+    )
 
 
 def resume(conn: sqlite3.Connection, now: float) -> int:
