@@ -2,8 +2,8 @@
 
 The rule of record is in ``service/jobs/backoff.py``: a 429 for a full per-key queue
 suggests the time until the soonest of that key's jobs ends (running jobs' time left from
-their progress or their estimated work at the pace of recent jobs; queued ones played
-forward on the workers), rounded up and clamped to 1..300 s, and the configured
+their estimated work at the pace of recent jobs, past it from their progress; queued ones
+played forward on the workers), rounded up and clamped to 1..300 s, and the configured
 ``HAARLINE_RETRY_AFTER`` while nothing can be estimated; every 503 suggests the setting.
 """
 
@@ -73,11 +73,11 @@ PACE = Pace(work_per_second=100.0, mean_run=None)  # a job of work 1000 runs 10 
     [
         # the key's running job: 10 s of work, 6 s done
         ([RunningJob("me", 1000.0, 0.0, 6.0)], [("me", 1000.0)], 1, 4.0),
-        # its own pace wins once it shows: 50 % after 8 s leaves 8 s (the estimate says 2)
-        ([RunningJob("me", 1000.0, 0.5, 8.0)], [], 1, 8.0),
-        # below TRUSTED_PROGRESS the estimate is used
-        ([RunningJob("me", 1000.0, 0.05, 8.0)], [], 1, 2.0),
-        # an overrun job is about to end, not negative
+        # the estimate comes first: progress counts stages, not work
+        ([RunningJob("me", 1000.0, 0.5, 8.0)], [], 1, 2.0),
+        # a job past its estimate is judged by its own pace: 80 % after 12 s leaves 3 s
+        ([RunningJob("me", 1000.0, 0.8, 12.0)], [], 1, 3.0),
+        # past its estimate with no progress: about to end, not negative
         ([RunningJob("me", 1000.0, 0.0, 30.0)], [], 1, 0.0),
         # nothing of the key runs: its first queued job starts when a worker frees (3 s)
         # and runs its 10 s; the queue of others behind it does not matter

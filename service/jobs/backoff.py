@@ -13,15 +13,14 @@ is not ready (503)
 ==========================================  ================================================
 
 **The soonest free place.** A place in a key's queue frees when one of its jobs ends, not
-when the whole queue has drained. Each running job's time left is
-
-- from its own pace once it has shown some: ``elapsed × (1 − fraction) / fraction`` when
-  its progress ``fraction`` is at least :data:`TRUSTED_PROGRESS`;
-- else from admission's estimate of its work (the ``work`` stored with the job) at the
-  speed recent jobs ran (their estimated work per second of run time, over the
-  :data:`RECENT_JOBS` newest that ran), less the time it has already run;
-- else, with no such speed yet (no job with an estimate has run), the mean run time of
-  recent jobs less the time it has run, or its pace at whatever progress it has.
+when the whole queue has drained. Each running job's time left is its expected run time
+less the time it has run. The expected run time is admission's estimate of its work (the
+``work`` stored with the job) at the speed recent jobs ran: their estimated work per
+second of run time, over the :data:`RECENT_JOBS` newest that ran; without such a speed
+(no job with an estimate has run yet), the mean run time of those jobs. A job that has
+already run longer than expected, or one with nothing to go by, is judged by its own pace:
+``elapsed × (1 − fraction) / fraction`` of its progress ``fraction``. Progress comes
+second because it counts stages, not work, and a job's stages are not equally long.
 
 Queued jobs take the workers in order of arrival (every key's), each lasting its work at
 that speed (or the mean run time). :func:`soonest_end` plays the queue forward until the
@@ -45,7 +44,6 @@ __all__ = [
     "RECENT_JOBS",
     "RETRY_AFTER_MAX",
     "RETRY_AFTER_MIN",
-    "TRUSTED_PROGRESS",
     "Pace",
     "RunningJob",
     "clamp_seconds",
@@ -61,9 +59,6 @@ RETRY_AFTER_MAX = 300
 
 RECENT_JOBS = 20
 """How many of the newest jobs that ran the speed and the mean run time are taken over."""
-
-TRUSTED_PROGRESS = 0.1
-"""Progress fraction from which a running job's own pace predicts its end."""
 
 QUEUE_LOOKAHEAD = 1000
 """Most queued jobs read to play the queue forward."""
@@ -99,15 +94,12 @@ class RunningJob:
 
     def remaining(self, pace: Pace) -> float | None:
         """Seconds until it ends (see the module docstring), ``None`` if unknown."""
-        by_progress = (
-            self.elapsed * (1 - self.fraction) / self.fraction if self.fraction > 0 else None
-        )
-        if by_progress is not None and self.fraction >= TRUSTED_PROGRESS:
-            return by_progress
         total = pace.duration(self.work)
-        if total is not None:
-            return max(0.0, total - self.elapsed)
-        return by_progress
+        if total is not None and total > self.elapsed:
+            return total - self.elapsed
+        if self.fraction > 0:  # overran its estimate, or nothing else to go by
+            return self.elapsed * (1 - self.fraction) / self.fraction
+        return None if total is None else 0.0
 
 
 def soonest_end(
