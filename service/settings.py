@@ -62,7 +62,8 @@ is submitted and again before each attempt.
 
 An unsafe configuration refuses to start: development mode on anything but a loopback
 address, a non-positive limit, a data directory that cannot be created, an origin that is
-not ``scheme://host[:port]``, or a variable of an older release that was renamed
+not ``scheme://host[:port]``, a webhook network that is not ``address/prefix``, a retry
+delay that is not above 0 and at most a day, or a variable of an older release that was renamed
 (``HAARLINE_MAX_COST``: the error names its new name; it is never read silently).
 
 This is a plain pydantic model read by :meth:`Settings.from_env` rather than

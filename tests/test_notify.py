@@ -489,3 +489,36 @@ def test_records_the_store_refuses_are_written_on_a_later_round(make_settings, t
         notifier._flush()
         (d,) = _deliveries(store, j)
         assert d["status"] == "delivered" and [a["status_code"] for a in d["attempts"]] == [200]
+
+
+# --- settings -----------------------------------------------------------------------------------
+
+
+def test_webhook_settings_from_the_environment(tmp_path):
+    from haarline.service.settings import Settings, SettingsError
+
+    env = {
+        "HAARLINE_DATA_DIR": str(tmp_path / "d"),
+        "HAARLINE_WEBHOOK_LOOPBACK": "1",
+        "HAARLINE_WEBHOOK_NETWORKS": "10.20.0.0/16, fd00::/8",
+        "HAARLINE_WEBHOOK_HTTP": "yes",
+        "HAARLINE_WEBHOOK_RETRY_DELAYS": "0.5, 2,30",
+        "HAARLINE_WEBHOOK_TIMEOUT": "3",
+    }
+    s = Settings.from_env(env)
+    assert (s.webhook_loopback, s.webhook_http, s.webhook_timeout) == (True, True, 3.0)
+    assert s.webhook_networks == ("10.20.0.0/16", "fd00::/8")
+    assert s.webhook_retry_delays == (0.5, 2.0, 30.0)
+    defaults = Settings.from_env({"HAARLINE_DATA_DIR": str(tmp_path / "d")})
+    assert defaults.webhook_retry_delays == (5, 300, 1800, 7200, 18000, 36000, 36000)
+    assert not defaults.callback_loopback and defaults.webhook_networks == ()
+    for name, value, message in [
+        ("HAARLINE_WEBHOOK_NETWORKS", "10.20.0.1/16", "HAARLINE_WEBHOOK_NETWORKS: '10.20.0.1/16'"),
+        ("HAARLINE_WEBHOOK_NETWORKS", "intranet", "is not a network"),
+        ("HAARLINE_WEBHOOK_RETRY_DELAYS", "5,0", "HAARLINE_WEBHOOK_RETRY_DELAYS: 0 s is out"),
+        ("HAARLINE_WEBHOOK_RETRY_DELAYS", "90000", "at most 86400"),
+        ("HAARLINE_WEBHOOK_TIMEOUT", "0", "HAARLINE_WEBHOOK_TIMEOUT"),
+        ("HAARLINE_WEBHOOK_LOOPBACK", "sometimes", "expected 0 or 1"),
+    ]:
+        with pytest.raises(SettingsError, match=message):
+            Settings.from_env({"HAARLINE_DATA_DIR": str(tmp_path / "d"), name: value})
