@@ -35,10 +35,14 @@ from pathlib import Path
 from typing import Any
 
 __all__ = [
+    "SECRET_PREFIX",
+    "TOLERANCE",
     "Client",
     "Job",
     "ServiceError",
     "WebhookError",
+    "secret_key",
+    "sign",
     "verify_webhook",
 ]
 
@@ -56,7 +60,10 @@ class ServiceError(Exception):
 
 
 class WebhookError(Exception):
-    """A notification whose signature or timestamp does not check out."""
+    """A notification failed verification: bad signature, missing header, stale timestamp.
+
+    The message says which check failed; it never contains the secret.
+    """
 
 
 @dataclass(frozen=True)
@@ -414,6 +421,51 @@ def _service_error(status: int, body: bytes) -> ServiceError:
 
 
 # --- webhooks -------------------------------------------------------------------------------
+# The Standard Webhooks specification (standardwebhooks.com): the secret is written
+# ``whsec_<base64 key bytes>``; each attempt carries ``webhook-id``, ``webhook-timestamp``
+# and ``webhook-signature`` (space-separated ``v1,<base64 HMAC-SHA256 of id.timestamp.body>``).
+# The service signs with :func:`sign` (haarline.service.webhooks); receivers verify here.
+
+SECRET_PREFIX = "whsec_"
+"""How the specification writes a secret: this prefix, then the key bytes in base64."""
+
+TOLERANCE = 300
+"""Seconds a timestamp may differ from the receiver's clock (the specification's 5 minutes)."""
+
+
+def secret_key(secret: str) -> bytes:
+    """The HMAC key of a ``whsec_…`` secret (the prefix may be left out).
+
+    Raises
+    ------
+    WebhookError
+        The secret is not base64 (after its prefix) or is empty.
+    """
+    text = secret.removeprefix(SECRET_PREFIX)
+    try:
+        key = base64.b64decode(text, validate=True)
+    except (binascii.Error, ValueError):
+        raise WebhookError(
+            "the signing secret is not 'whsec_' followed by base64 text; copy it exactly as "
+            "it was shown"
+        ) from None
+    if not key:
+        raise WebhookError("the signing secret is empty")
+    return key
+
+
+def sign(secret: str, message_id: str, timestamp: int, body: bytes) -> str:
+    """The ``v1,<base64>`` signature of one attempt (HMAC-SHA256 of ``id.timestamp.body``)."""
+    signed = f"{message_id}.{timestamp}.".encode() + body
+    digest = hmac.new(secret_key(secret), signed, hashlib.sha256).digest()
+    return "v1," + base64.b64encode(digest).decode("ascii")
+
+
+def _header(headers: Mapping[str, str], name: str) -> str:
+    for key, value in headers.items():
+        if key.lower() == name:
+            return value
+    raise WebhookError(f"the {name} header is missing")
 
 
 def verify_webhook(
@@ -421,62 +473,64 @@ def verify_webhook(
     headers: Mapping[str, str],
     body: bytes | str,
     *,
-    tolerance: float = 300.0,
+    tolerance: int = TOLERANCE,
     now: float | None = None,
-) -> dict[str, Any]:
-    """Check a job-end notification and return its JSON payload.
+) -> Any:
+    """Check a notification's signature and age; return its event (the decoded JSON body).
 
-    As the Standard Webhooks specification (standardwebhooks.com) defines it: the signed
-    content is ``{webhook-id}.{webhook-timestamp}.{body}``, signed with HMAC-SHA256 under
-    the base64 key after the ``whsec_`` prefix of ``secret``; ``webhook-signature`` holds
-    space-separated ``v1,<base64>`` signatures, any of which may match; the timestamp must
-    be within ``tolerance`` seconds of now (against replays).
+    Parameters
+    ----------
+    secret : str
+        The ``whsec_…`` secret shown when it was created.
+    headers : mapping
+        The request's headers (names in any case).
+    body : bytes or str
+        The request body exactly as received (before any JSON parsing).
+    tolerance : int
+        Seconds the ``webhook-timestamp`` may be from ``now``, either way.
+    now : float, optional
+        The receiver's clock (Unix seconds); by default :func:`time.time`.
 
     Raises
     ------
     WebhookError
-        A missing header, a bad secret, no matching signature, or a stale timestamp.
+        A header is missing, the timestamp is not an integer or is too old or too far in
+        the future, no ``v1`` signature matches, or the body is not JSON.
 
     Examples
     --------
-    >>> key = base64.b64encode(b"0123456789abcdef0123456789abcdef").decode()
-    >>> body = b'{"type": "job.succeeded"}'
-    >>> mac = hmac.new(base64.b64decode(key), b"msg_1.1000." + body, hashlib.sha256)
+    >>> secret = "whsec_" + base64.b64encode(b"0123456789abcdef0123456789abcdef").decode()
+    >>> body = b'{"type": "analysis.succeeded"}'
     >>> headers = {"webhook-id": "msg_1", "webhook-timestamp": "1000",
-    ...            "webhook-signature": "v1," + base64.b64encode(mac.digest()).decode()}
-    >>> verify_webhook("whsec_" + key, headers, body, now=1010)
-    {'type': 'job.succeeded'}
-    >>> verify_webhook("whsec_" + key, headers, body + b" ", now=1010)
-    Traceback (most recent call last):
-    ...
-    haarline.client.WebhookError: no signature matches: the body or the secret differs
+    ...            "webhook-signature": sign(secret, "msg_1", 1000, body)}
+    >>> verify_webhook(secret, headers, body, now=1010)
+    {'type': 'analysis.succeeded'}
     """
-    lowered = {k.lower(): v for k, v in headers.items()}
-    try:
-        msg_id = lowered["webhook-id"]
-        stamp = lowered["webhook-timestamp"]
-        signatures = lowered["webhook-signature"]
-    except KeyError as exc:
-        raise WebhookError(f"the {exc.args[0]} header is missing") from None
-    try:
-        key = base64.b64decode(secret.removeprefix("whsec_"), validate=True)
-    except (binascii.Error, ValueError):
-        raise WebhookError("the secret is not 'whsec_' followed by base64") from None
-    try:
-        sent = int(stamp)
-    except ValueError:
-        raise WebhookError(f"webhook-timestamp {stamp[:30]!r} is not a number") from None
-    current = time.time() if now is None else now
-    if abs(current - sent) > tolerance:
+    raw = body.encode() if isinstance(body, str) else bytes(body)
+    message_id = _header(headers, "webhook-id")
+    stamp = _header(headers, "webhook-timestamp").strip()
+    if not (stamp.isascii() and stamp.isdigit()):
+        raise WebhookError(f"webhook-timestamp {stamp[:30]!r} is not integer Unix seconds")
+    clock = time.time() if now is None else now
+    age = clock - int(stamp)
+    if age > tolerance:
         raise WebhookError(
-            f"webhook-timestamp is {current - sent:.0f} s away from now (at most {tolerance:g})"
+            f"webhook-timestamp is {age:.0f} s old, more than the {tolerance} s allowed "
+            "(a replay, or a clock far off)"
         )
-    raw = body.encode("utf-8") if isinstance(body, str) else bytes(body)
-    content = msg_id.encode("utf-8") + b"." + stamp.encode("ascii") + b"." + raw
-    expected = base64.b64encode(hmac.new(key, content, hashlib.sha256).digest()).decode()
-    for entry in signatures.split():
-        version, _, value = entry.partition(",")
-        if version == "v1" and hmac.compare_digest(value, expected):
-            payload: dict[str, Any] = json.loads(raw)
-            return payload
-    raise WebhookError("no signature matches: the body or the secret differs")
+    if -age > tolerance:
+        raise WebhookError(
+            f"webhook-timestamp is {-age:.0f} s in the future, more than the {tolerance} s "
+            "allowed (check the clocks)"
+        )
+    expected = sign(secret, message_id, int(stamp), raw).encode()
+    offered = _header(headers, "webhook-signature").split()
+    if not any(hmac.compare_digest(expected, s.encode()) for s in offered):
+        raise WebhookError(
+            "no webhook-signature matches the body: it was changed on the way, or it was "
+            "signed with another secret"
+        )
+    try:
+        return json.loads(raw)
+    except ValueError:
+        raise WebhookError("the signed body is not JSON") from None

@@ -155,12 +155,12 @@ def test_a_signed_notification_verifies_and_returns_its_payload():
 @pytest.mark.parametrize(
     ("change", "message"),
     [
-        (lambda h, b: (h, b + b" "), "no signature matches"),
-        (lambda h, b: ({**h, "webhook-id": "msg_2"}, b), "no signature matches"),
-        (lambda h, b: ({**h, "webhook-timestamp": "999000"}, b), "away from now"),
+        (lambda h, b: (h, b + b" "), "no webhook-signature matches"),
+        (lambda h, b: ({**h, "webhook-id": "msg_2"}, b), "no webhook-signature matches"),
+        (lambda h, b: ({**h, "webhook-timestamp": "999000"}, b), "s old, more than"),
         (lambda h, b: ({k: v for k, v in h.items() if k != "webhook-id"}, b), "webhook-id"),
-        (lambda h, b: ({**h, "webhook-signature": "v2,xyz"}, b), "no signature matches"),
-        (lambda h, b: ({**h, "webhook-timestamp": "soon"}, b), "is not a number"),
+        (lambda h, b: ({**h, "webhook-signature": "v2,xyz"}, b), "no webhook-signature matches"),
+        (lambda h, b: ({**h, "webhook-timestamp": "soon"}, b), "is not integer Unix seconds"),
     ],
 )
 def test_a_tampered_or_stale_notification_is_refused(change, message):
@@ -175,5 +175,22 @@ def test_a_wrong_secret_is_refused():
     other = "whsec_" + base64.b64encode(b"another key entirely, 32 bytes!").decode()
     with pytest.raises(WebhookError):
         verify_webhook(other, signed(body), body, now=1_000_000)
-    with pytest.raises(WebhookError, match="not 'whsec_' followed by base64"):
+    with pytest.raises(WebhookError, match="not .whsec_. followed by base64 text"):
         verify_webhook("whsec_***", signed(body), body, now=1_000_000)
+
+
+def test_events_stream_the_progress_and_end_with_the_final_job(service):
+    job = service.analyze("ref:ry-cz-ring", wait=False, **{**SMALL, "seed": 8})
+    events = list(service.events(job, timeout=120))
+    assert events[-1]["event"] == "end" and events[-1]["data"]["state"] == "succeeded"
+    assert all(e["event"] in ("progress", "end") for e in events)
+    assert all(e["data"]["id"] == job.id for e in events)
+
+
+def test_a_comparison_with_a_failing_policy_fails_as_a_whole(service):
+    gate = {"rules": [{"metric": "entanglement.meyer_wallach", "fail_below": 0.01}]}
+    job = service.compare(["ref:rx-product", "ref:ry-cz-ring"], policy=gate, **SMALL)
+    # rx-product entangles nothing (Meyer-Wallach 0): it fails, so the comparison does
+    assert job.state == "succeeded" and job.policy == "failed"
+    ranking = service.report(job)["ranking"]
+    assert sorted(r["policy"] for r in ranking) == ["fail", "pass"]

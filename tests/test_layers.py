@@ -38,7 +38,7 @@ CORE_LAYERS = [
     ["haarline.client"],  # the REST client: standard library only, beside the core
 ]
 SERVICE_LAYERS = [
-    ["haarline.service.errors", "haarline.service.settings"],
+    ["haarline.service.errors", "haarline.service.settings", "haarline.service.webhooks"],
     ["haarline.service.jobs"],
     ["haarline.service.api"],
     ["haarline.service.cli"],
