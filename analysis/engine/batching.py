@@ -1,17 +1,21 @@
-"""Shared loops: simulate parameter vectors chunk by chunk, optionally in worker processes.
+"""Shared loops: simulate parameter vectors chunk by chunk, in worker processes or on Dask.
 
 Sample ``k`` of a stream always gets row ``k`` of the stream's random parameters
 (:mod:`haarline.engine.sampling`) and the engine applies the same operations to it whatever the
 chunk, so a per-sample result is a pure function of ``(program, seed, stream, k)``.
-:func:`sample_map` and :func:`block_map` use that: with ``workers > 1`` they cut the
-samples into blocks of whole :data:`~haarline.engine.sampling.BLOCK_SIZE` rows, compute the
-blocks in a pool of worker processes and put the results back in sample order, so the
-numbers are bit-identical to a single worker's.
+:func:`sample_map` and :func:`block_map` use that: with ``workers > 1`` (or a Dask
+scheduler in the context) they cut the samples into blocks of whole
+:data:`~haarline.engine.sampling.BLOCK_SIZE` rows, compute the blocks in a pool of worker
+processes (or as Dask tasks, :mod:`haarline.engine.cluster`) and put the results back in
+sample order, so the numbers are bit-identical to a single worker's. Progress is reported
+as blocks finish, in whatever order; when the progress callback raises (a cancelled job)
+or the caller is interrupted, the blocks not yet finished are cancelled.
 """
 
 from __future__ import annotations
 
 import multiprocessing
+import queue
 import threading
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
@@ -20,6 +24,7 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
+from haarline.engine import cluster
 from haarline.engine.context import Context, Progress
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import BLOCK_SIZE
@@ -39,15 +44,25 @@ BLOCKS_PER_WORKER = 2
 """Blocks handed to each worker (two, so that a slow block does not idle the others for
 long; every block costs a round trip to a worker)."""
 
+HEARTBEAT_SECONDS = 1.0
+"""While blocks run, the progress callback is called at least this often (with unchanged
+numbers if no block finished), so that a cancel request is seen within about a second."""
+
 
 def worker_count(context: Context, program: Program, samples: int, per_sample: int = 1) -> int:
-    """The worker processes a call actually uses: the context's, or 1 for small work.
+    """The workers a call actually uses: the context's, the cluster's, or 1 for small work.
 
     The work of a sample is estimated as ``per_sample`` circuit runs of ``G`` gates on
-    ``2**n`` amplitudes; below ``context.parallel_from`` the call runs in-process.
+    ``2**n`` amplitudes; below ``context.parallel_from`` the call runs in-process. With a
+    Dask scheduler it is the cluster's worker threads, at least 2 (so that even a one-thread
+    cluster gets the blocks and this process only gathers).
     """
     work = samples * per_sample * max(1, len(program.operations)) << program.qubits
-    return 1 if work < context.parallel_from else context.workers
+    if work < context.parallel_from:
+        return 1
+    if context.scheduler is not None:
+        return max(2, cluster.threads(context.scheduler))
+    return context.workers
 
 
 def chunked_states(
@@ -197,6 +212,52 @@ def _pool(workers: int) -> ProcessPoolExecutor:
         return pool
 
 
+def _cancel(futures: Sequence[Future[Any]]) -> None:
+    """Cancel the pool's blocks that have not started (running ones cannot be stopped)."""
+    for future in futures:
+        future.cancel()
+
+
+def _gather(
+    futures: Sequence[Any],
+    result: Callable[[int], Any],
+    cancel: Callable[[], None],
+    *,
+    sizes: Sequence[int],
+    progress: Progress | None,
+    stage: str,
+) -> list[Any]:
+    """Results of ``futures`` in task order; progress as they finish; cancel on any error.
+
+    ``futures`` are ``concurrent.futures`` or ``distributed`` futures (both call
+    ``add_done_callback`` callbacks, from another thread); ``result(i)`` fetches the value
+    of finished future ``i``.
+    """
+    finished: queue.SimpleQueue[int] = queue.SimpleQueue()
+    total = sum(sizes)
+    out: list[Any] = [None] * len(futures)
+    try:
+        for i, future in enumerate(futures):
+            future.add_done_callback(lambda _, i=i: finished.put(i))
+        done = 0
+        for _ in futures:
+            while True:
+                try:
+                    i = finished.get(timeout=HEARTBEAT_SECONDS)
+                    break
+                except queue.Empty:
+                    if progress is not None:  # may raise: a cancelled job
+                        progress(stage, done, total)
+            out[i] = result(i)
+            done += sizes[i]
+            if progress is not None:
+                progress(stage, done, total)
+    except BaseException:
+        cancel()
+        raise
+    return out
+
+
 def block_map(
     func: Callable[..., Any],
     tasks: Sequence[tuple[Any, ...]],
@@ -205,16 +266,26 @@ def block_map(
     stage: str = "",
     sizes: Sequence[int] | None = None,
 ) -> list[Any]:
-    """``[func(*task) for task in tasks]``, computed by the context's worker processes.
+    """``[func(*task) for task in tasks]``, computed by the context's workers.
 
     ``func`` and the task arguments must be picklable (module-level functions, plain
-    data). ``sizes`` (samples per task) drives the progress callback.
+    data). ``sizes`` (samples per task) drives the progress callback. With a Dask
+    scheduler in the context the tasks run on its cluster; an argument that every task
+    shares (the same object) travels once per worker.
     """
     workers, progress = context.workers, context.progress
     sizes = list(sizes) if sizes is not None else [1] * len(tasks)
     total = sum(sizes)
     if progress is not None:
         progress(stage, 0, total)
+    if context.scheduler is not None and len(tasks) > 1:
+        sent = cluster.submit(context.scheduler, func, tasks, stage)
+        try:
+            return _gather(
+                sent.futures, sent.result, sent.cancel, sizes=sizes, progress=progress, stage=stage
+            )
+        finally:
+            sent.close()
     if workers == 1 or len(tasks) <= 1:
         out, done = [], 0
         for task, size in zip(tasks, sizes, strict=True):
@@ -224,17 +295,19 @@ def block_map(
                 progress(stage, done, total)
         return out
     pool = _pool(workers)
+    futures: list[Future[Any]] = []
     try:
-        futures: list[Future[Any]] = [pool.submit(func, *task) for task in tasks]
-        done = 0
-        for future, size in zip(futures, sizes, strict=True):
-            future.result()
-            done += size
-            if progress is not None:
-                progress(stage, done, total)
+        futures = [pool.submit(func, *task) for task in tasks]
+        return _gather(
+            futures,
+            lambda i: futures[i].result(),
+            lambda: _cancel(futures),
+            sizes=sizes,
+            progress=progress,
+            stage=stage,
+        )
     except BrokenProcessPool:
         with _pools_lock:  # a dead pool is not kept for the next call
             if _pools.get(workers) is pool:
                 del _pools[workers]
         raise
-    return [f.result() for f in futures]

@@ -1,0 +1,205 @@
+"""One analysis across a real Dask cluster: its blocks as tasks, the same report (issue 19).
+
+A ``dask scheduler`` and two single-thread ``dask worker`` processes run on 127.0.0.1
+(``tests/dask_cluster.py``). Results are a pure function of circuit, options, seed and
+version (DESIGN section 2: sample ``k`` always gets row ``k`` of its stream), so the report
+with ``--dask`` must equal the local one bit for bit, whichever worker ran a block, also
+when a worker is killed in the middle and Dask runs its blocks again on the other.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import time
+
+import pytest
+
+distributed = pytest.importorskip("distributed", reason="the 'dask' extra is not installed")
+
+import haarline  # noqa: E402
+from conftest import bearer  # noqa: E402
+from dask_cluster import LocalDask  # noqa: E402
+from fastapi.testclient import TestClient  # noqa: E402
+from haarline.engine import cluster  # noqa: E402
+from haarline.service.cli.main import main  # noqa: E402
+
+# 8 qubits: every sampled call is above the in-process threshold and goes to the cluster
+WIDE = {
+    "name": "wide-ring",
+    "qubits": 8,
+    "layers": 2,
+    "layer": [{"gate": "ry", "on": "all"}, {"gate": "cz", "on": "ring"}],
+}
+FLAGS = [
+    "--metrics",
+    "expressibility,entanglement,trainability",
+    "--pairs",
+    "600",
+    "--samples",
+    "300",
+    "--scan",
+    "4,8",
+    "--grad-samples",
+    "200",
+    "--seed",
+    "5",
+    "--format",
+    "json",
+]
+
+
+def strip(report: dict) -> dict:
+    return {k: v for k, v in report.items() if k != "timings"}
+
+
+def our_tasks(records: list[dict]) -> list[dict]:
+    return [r for r in records if str(r["key"]).startswith("haarline-")]
+
+
+@pytest.fixture
+def dask_cluster(tmp_path):
+    with LocalDask(tmp_path / "dask", workers=2) as local:
+        yield local
+
+
+@pytest.fixture
+def wide(tmp_path):
+    path = tmp_path / "wide.json"
+    path.write_text(json.dumps(WIDE))
+    return str(path)
+
+
+def run_cli(capsys, *argv: str) -> dict:
+    assert main(list(argv)) == 0, capsys.readouterr().err
+    return json.loads(capsys.readouterr().out)
+
+
+def test_analysis_with_dask_equals_the_local_run(dask_cluster, wide, capsys):
+    with dask_cluster.client() as watcher:
+        watcher.get_task_stream()  # starts the scheduler's record of finished tasks
+        remote = run_cli(capsys, "analyze", wide, *FLAGS, "--dask", dask_cluster.address)
+        records = our_tasks(watcher.get_task_stream())
+    local = run_cli(capsys, "analyze", wide, *FLAGS)
+    assert strip(remote) == strip(local)
+    # the blocks ran as tasks of their own, on both workers
+    assert len(records) > 1
+    assert len({r["worker"] for r in records}) == 2
+    stages = {str(r["key"]).rsplit("-", 2)[0] for r in records}
+    assert {"haarline-expressibility", "haarline-entanglement"} <= stages
+    assert any(s.startswith("haarline-gradients") for s in stages), stages
+    assert "distributed" in sys.modules and not cluster._clients  # the CLI closed its client
+
+
+def test_blocks_move_only_small_values(dask_cluster):
+    program = haarline.expand(haarline.parse_circuit(WIDE))
+    context = haarline.Context(scheduler=dask_cluster.address)
+    try:
+        with cluster.recording() as sent:
+            fids = haarline.fidelities(program, pairs=600, seed=2, context=context)
+    finally:
+        cluster.disconnect()
+    assert (fids == haarline.fidelities(program, pairs=600, seed=2)).all()
+    (call,) = sent
+    state_bytes = 16 << program.qubits
+    # each block sends its first sample and count (not the program: that went once per
+    # worker) and gets back one float per pair, never a state
+    blocks = len(call.sent_bytes)
+    assert blocks == len(call.returned_bytes) > 1
+    assert max(call.sent_bytes) < 400 < call.shared_bytes
+    assert sum(call.returned_bytes) < 600 * 8 + 200 * blocks
+    assert max(call.returned_bytes) < state_bytes
+    assert call.workers == 2 and all(s > 0 for s in call.compute_seconds)
+
+
+KILL_FLAGS = [
+    "--metrics",
+    "expressibility",
+    "--pairs",
+    "256",
+    "--seed",
+    "9",
+    "--memory-budget",
+    "64MiB",
+    "--format",
+    "json",
+]
+
+
+def test_a_worker_killed_mid_run_costs_only_its_blocks(dask_cluster, tmp_path, capsys):
+    # 16 qubits: four blocks of 64 pairs, each a second or more on one core
+    path = tmp_path / "large.json"
+    path.write_text(json.dumps({**WIDE, "qubits": 16, "layers": 3}))
+    with dask_cluster.client() as watcher:
+        watcher.get_task_stream()
+        run = subprocess.Popen(
+            [sys.executable, "-m", "haarline.service.cli.main", "analyze", str(path)]
+            + KILL_FLAGS
+            + ["--dask", dask_cluster.address],
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+        )
+        try:
+            names = {info["name"]: a for a, info in watcher.scheduler_info()["workers"].items()}
+            victim, survivor = names["w1"], names["w0"]
+            held: list[str] = []
+            deadline = time.monotonic() + 120
+            while not held and time.monotonic() < deadline and run.poll() is None:
+                held = [k for k in watcher.processing([victim])[victim] if "haarline-" in k]
+                time.sleep(0.02)
+            assert held, "the victim never got a block"
+            dask_cluster.kill("w1")
+            out, err = run.communicate(timeout=300)
+        finally:
+            if run.poll() is None:
+                run.kill()
+                run.communicate()
+        assert run.returncode == 0, err.decode()
+        records = our_tasks(watcher.get_task_stream())
+    # the blocks the victim held were computed again, by the survivor
+    finished = {r["key"]: r["worker"] for r in records}
+    assert all(finished[k] == survivor for k in held), (held, finished)
+    local = run_cli(capsys, "analyze", str(path), *KILL_FLAGS)
+    assert strip(json.loads(out)) == strip(local)
+
+
+def run_job(client: TestClient) -> dict:
+    request = {"circuit": WIDE, "options": {"pairs": 600, "samples": 300, "seed": 21}}
+    url = client.post("/v1/analyses", json=request).headers["Location"]
+    deadline = time.time() + 120
+    while time.time() < deadline:
+        job = client.get(url).json()
+        if job["state"] in ("succeeded", "failed"):
+            break
+        time.sleep(0.1)
+    assert job["state"] == "succeeded", job
+    return client.get(f"{url}/report").json()
+
+
+def test_service_in_block_mode_gives_the_process_pool_report(
+    dask_cluster, make_app, make_client
+):
+    with dask_cluster.client() as watcher:
+        watcher.get_task_stream()
+        app = make_app(dask_scheduler=dask_cluster.address, dask_unit="block")
+        with TestClient(app) as c:
+            c.headers.update(bearer(c.app, "blocks"))
+            in_blocks = run_job(c)
+        records = our_tasks(watcher.get_task_stream())
+    in_pool = run_job(make_client())
+    assert strip(in_blocks) == strip(in_pool)
+    assert len(records) > 1
+
+
+def test_an_unreachable_scheduler_is_named_with_exit_code_2(wide, capsys):
+    import socket
+
+    with socket.socket() as s:  # a port that nothing listens on
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    address = f"tcp://127.0.0.1:{port}"
+    assert main(["analyze", wide, "--dask", address]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"haarline: error: --dask: no Dask scheduler at {address} ("), err
+    assert "Traceback" not in err
