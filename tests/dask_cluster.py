@@ -60,8 +60,8 @@ class LocalDask:
             raise
 
     def _start(self, name: str, args: list[str]) -> None:
-        log = open(self.folder / f"{name}.log", "wb")  # noqa: SIM115 (the child keeps it)
-        try:
+        log = open(self.folder / f"{name}.log", "wb")
+        try:  # the child writes to its own copy of the descriptor
             self.procs[name] = subprocess.Popen(
                 [sys.executable, "-m", "dask", *args, "--no-dashboard"],
                 stdout=log,

@@ -14,6 +14,7 @@ or the caller is interrupted, the blocks not yet finished are cancelled.
 
 from __future__ import annotations
 
+import functools
 import multiprocessing
 import queue
 import threading
@@ -212,48 +213,63 @@ def _pool(workers: int) -> ProcessPoolExecutor:
         return pool
 
 
-def _cancel(futures: Sequence[Future[Any]]) -> None:
-    """Cancel the pool's blocks that have not started (running ones cannot be stopped)."""
-    for future in futures:
-        future.cancel()
+class _PoolBlocks:
+    """The futures of one call's blocks in the local process pool (as :class:`Blocks`)."""
+
+    def __init__(self, futures: list[Future[Any]]):
+        self.futures = futures
+        self.finished: queue.SimpleQueue[int] = queue.SimpleQueue()
+        for i, future in enumerate(futures):
+            future.add_done_callback(functools.partial(self._done, i))
+
+    def _done(self, i: int, _: Future[Any]) -> None:
+        self.finished.put(i)
+
+    def next_done(self, timeout: float) -> int:
+        return self.finished.get(timeout=timeout)
+
+    def result(self, i: int) -> Any:
+        return self.futures[i].result()
+
+    def cancel(self) -> None:
+        """Cancel the blocks that have not started (running ones cannot be stopped)."""
+        for future in self.futures:
+            future.cancel()
 
 
 def _gather(
-    futures: Sequence[Any],
-    result: Callable[[int], Any],
-    cancel: Callable[[], None],
+    blocks: _PoolBlocks | cluster.Blocks,
     *,
     sizes: Sequence[int],
     progress: Progress | None,
     stage: str,
 ) -> list[Any]:
-    """Results of ``futures`` in task order; progress as they finish; cancel on any error.
+    """Results of the blocks in task order; progress as they finish; cancel on any error.
 
-    ``futures`` are ``concurrent.futures`` or ``distributed`` futures (both call
-    ``add_done_callback`` callbacks, from another thread); ``result(i)`` fetches the value
-    of finished future ``i``.
+    A block sent again (its shared arguments were lost with a Dask worker) is waited for
+    again. While nothing finishes, progress is repeated every :data:`HEARTBEAT_SECONDS`.
     """
-    finished: queue.SimpleQueue[int] = queue.SimpleQueue()
     total = sum(sizes)
-    out: list[Any] = [None] * len(futures)
+    out: list[Any] = [None] * len(sizes)
+    left, done = len(sizes), 0
     try:
-        for i, future in enumerate(futures):
-            future.add_done_callback(lambda _, i=i: finished.put(i))
-        done = 0
-        for _ in futures:
-            while True:
-                try:
-                    i = finished.get(timeout=HEARTBEAT_SECONDS)
-                    break
-                except queue.Empty:
-                    if progress is not None:  # may raise: a cancelled job
-                        progress(stage, done, total)
-            out[i] = result(i)
+        while left:
+            try:
+                i = blocks.next_done(HEARTBEAT_SECONDS)
+            except queue.Empty:
+                if progress is not None:  # may raise: a cancelled job
+                    progress(stage, done, total)
+                continue
+            value = blocks.result(i)
+            if value is cluster.AGAIN:
+                continue
+            out[i] = value
+            left -= 1
             done += sizes[i]
             if progress is not None:
                 progress(stage, done, total)
     except BaseException:
-        cancel()
+        blocks.cancel()
         raise
     return out
 
@@ -279,11 +295,9 @@ def block_map(
     if progress is not None:
         progress(stage, 0, total)
     if context.scheduler is not None and len(tasks) > 1:
-        sent = cluster.submit(context.scheduler, func, tasks, stage)
+        sent = cluster.Blocks(context.scheduler, func, tasks, stage)
         try:
-            return _gather(
-                sent.futures, sent.result, sent.cancel, sizes=sizes, progress=progress, stage=stage
-            )
+            return _gather(sent, sizes=sizes, progress=progress, stage=stage)
         finally:
             sent.close()
     if workers == 1 or len(tasks) <= 1:
@@ -298,14 +312,7 @@ def block_map(
     futures: list[Future[Any]] = []
     try:
         futures = [pool.submit(func, *task) for task in tasks]
-        return _gather(
-            futures,
-            lambda i: futures[i].result(),
-            lambda: _cancel(futures),
-            sizes=sizes,
-            progress=progress,
-            stage=stage,
-        )
+        return _gather(_PoolBlocks(futures), sizes=sizes, progress=progress, stage=stage)
     except BrokenProcessPool:
         with _pools_lock:  # a dead pool is not kept for the next call
             if _pools.get(workers) is pool:

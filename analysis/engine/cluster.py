@@ -1,7 +1,7 @@
 """Sampled blocks as Dask tasks: the connection, the shared arguments and the block futures.
 
 With a scheduler address in the context (``Context(scheduler="tcp://HOST:PORT")``),
-:func:`haarline.engine.batching.block_map` hands its blocks to :func:`submit` instead of a
+:func:`haarline.engine.batching.block_map` hands its blocks to :class:`Blocks` instead of a
 local process pool:
 
 - :func:`connect` opens one ``distributed.Client`` per address and process, importing
@@ -10,13 +10,13 @@ local process pool:
   it has a worker within :data:`WORKER_WAIT_SECONDS`, and every worker runs the same
   haarline and numpy as this process (the reports are identical only then).
 - The arguments that every block shares (the program, the options, the cost: the same
-  object in every task) are scattered once with ``broadcast=True``, so they travel to each
-  worker once; a block's task carries only its own small arguments (its first sample and
-  its count), and only its per-sample values come back (fidelities, purities, costs and
-  gradients, never states).
+  object in every task) are scattered to every worker once; a block's task carries only
+  its own small arguments (its first sample and its count), and only its per-sample
+  values come back (fidelities, purities, costs and gradients, never states).
 - A worker that dies mid-run costs only the blocks it held: the scheduler runs them again
-  on the others (Dask's own recovery), and since a block's numbers depend only on the
-  program, the seed, the stream and the block's samples, the report does not change.
+  on the others (Dask's own recovery; a block whose shared arguments were lost with the
+  worker is sent again with a fresh copy), and since a block's numbers depend only on
+  the program, the seed, the stream and the block's samples, the report does not change.
 
 :func:`recording` collects what each call sent and received (the benchmark's bytes and
 seconds per block).
@@ -42,7 +42,7 @@ import time
 import uuid
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 from haarline.errors import ClusterError, OptionError, Problem
@@ -50,13 +50,14 @@ from haarline.errors import ClusterError, OptionError, Problem
 __all__ = [
     "CONNECT_SECONDS",
     "WORKER_WAIT_SECONDS",
+    "AGAIN",
+    "RESENDS",
+    "Blocks",
     "Dispatch",
-    "Submitted",
     "check_address",
     "connect",
     "disconnect",
     "recording",
-    "submit",
     "threads",
 ]
 
@@ -242,10 +243,24 @@ def recording() -> Iterator[list[Dispatch]]:
             _recorders.remove(sent)
 
 
-def _timed(func: Callable[..., Any], *args: Any) -> tuple[float, Any]:
-    """Run one block on a worker; its compute time travels back with its values."""
+RESENDS = 3
+"""Times one block is sent again after the copies of its shared arguments were lost."""
+
+AGAIN = object()
+"""What :meth:`Blocks.result` returns for a block it had to send again."""
+
+
+def _timed(func: Callable[..., Any], positions: tuple[int, ...], *args: Any) -> tuple[float, Any]:
+    """Run one block on a worker; its compute time travels back with its values.
+
+    ``args`` are the shared arguments (one per position) and then the block's own;
+    ``func`` gets them in their original order.
+    """
+    shared, own = args[: len(positions)], list(args[len(positions) :])
+    for i, arg in zip(positions, shared, strict=True):
+        own.insert(i, arg)
     t = time.perf_counter()
-    value = func(*args)
+    value = func(*own)
     return time.perf_counter() - t, value
 
 
@@ -265,43 +280,106 @@ def _shared(tasks: Sequence[tuple[Any, ...]]) -> list[int]:
     ]
 
 
-@dataclass(kw_only=True)
-class Submitted:
-    """The futures of one call's blocks on the cluster."""
+class Blocks:
+    """One call's blocks on the cluster: ``func(*task)`` as one Dask task per task.
 
-    address: str
-    stage: str
-    client: Any
-    futures: list[Any]
-    shared: list[Any]
-    workers: int
-    started: float
-    shared_bytes: int = 0
-    sent_bytes: tuple[int, ...] = ()
-    seconds: dict[int, float] = field(default_factory=dict)
-    returned: dict[int, int] = field(default_factory=dict)
+    ``func`` must be a module-level function of haarline (the workers import it by
+    name). The arguments shared by every task are scattered to every worker once
+    (``broadcast=True``, so that any worker can take any block); each task carries only
+    its own arguments. Dask's memory manager may later drop extra copies of the shared
+    arguments, so when a worker dies with their last copy the blocks that needed them are
+    cancelled by the scheduler: they are sent again with a fresh copy (at most
+    :data:`RESENDS` times each). Task keys start with ``haarline-`` and the stage, so the
+    scheduler's dashboard names them.
+    """
 
-    def result(self, i: int) -> Any:
-        """The values of block ``i`` (finished); cluster failures become ClusterError."""
+    def __init__(
+        self, address: str, func: Callable[..., Any], tasks: Sequence[tuple[Any, ...]], stage: str
+    ):
+        import queue
+
+        self.address, self.func, self.stage = address, func, stage
+        self.client = connect(address)
+        self.started = time.perf_counter()
+        self.positions = tuple(_shared(tasks)) if len(tasks) > 1 else ()
+        self.payload = [tasks[0][i] for i in self.positions]
+        self.own = [[a for i, a in enumerate(t) if i not in self.positions] for t in tasks]
+        label = re.sub(r"[^a-z0-9]+", "_", stage.lower()).strip("_") or func.__name__.strip("_")
+        self.prefix = f"haarline-{label}-{uuid.uuid4().hex}"
+        self.finished: queue.SimpleQueue[int] = queue.SimpleQueue()
+        self.generation = 0
+        self.sent_in = [0] * len(tasks)
+        self.resent = [0] * len(tasks)
+        self.seconds: dict[int, float] = {}
+        self.returned: dict[int, int] = {}
+        self.record = bool(_recorders)
+        self.workers = len(self.client.nthreads())
+        self.shared = self._scatter()
+        self.futures = [self._send(k) for k in range(len(tasks))]
+
+    def _scatter(self) -> list[Any]:
+        if not self.payload:
+            return []
+        return list(self.client.scatter(self.payload, broadcast=True, hash=False))
+
+    def _send(self, k: int) -> Any:
+        again = f"-again{self.resent[k]}" if self.resent[k] else ""
+        future = self.client.submit(
+            _timed,
+            self.func,
+            self.positions,
+            *self.shared,
+            *self.own[k],
+            key=f"{self.prefix}-{k}{again}",
+            pure=False,
+        )
+        self.sent_in[k] = self.generation
+        future.add_done_callback(lambda _, k=k: self.finished.put(k))
+        return future
+
+    def next_done(self, timeout: float) -> int:
+        """The next block whose future finished; ``queue.Empty`` after ``timeout`` s."""
+        return self.finished.get(timeout=timeout)
+
+    def result(self, k: int) -> Any:
+        """The values of finished block ``k``, or :data:`AGAIN` if it had to be resent.
+
+        Raises
+        ------
+        ClusterError
+            A block kept killing its workers, or the scheduler is gone.
+        """
         from concurrent.futures import CancelledError
 
         from distributed import KilledWorker
 
+        what = self.stage or "the work"
         try:
-            seconds, value = self.futures[i].result()
+            seconds, value = self.futures[k].result()
         except KilledWorker as exc:
             raise _fail(
-                f"a block of {self.stage or 'the work'} was running on Dask workers that died "
-                f"each time ({exc}); give the workers more memory or lower the memory budget"
+                f"a block of {what} was running on Dask workers that died each time ({exc}); "
+                "give the workers more memory or lower the memory budget"
             ) from None
         except CancelledError:
-            raise _fail(
-                f"lost the Dask scheduler at {self.address} while {self.stage or 'the work'} "
-                "was running"
-            ) from None
-        self.seconds[i] = seconds
-        if self.sent_bytes:
-            self.returned[i] = _size(value)
+            if self.resent[k] >= RESENDS or self.client.status != "running":
+                raise _fail(
+                    f"lost the Dask scheduler at {self.address} while {what} was running"
+                ) from None
+            try:
+                if self.sent_in[k] == self.generation:  # one fresh copy for all lost blocks
+                    self.generation += 1
+                    self.shared = self._scatter()
+            except (OSError, TimeoutError, CancelledError):
+                raise _fail(
+                    f"lost the Dask scheduler at {self.address} while {what} was running"
+                ) from None
+            self.resent[k] += 1
+            self.futures[k] = self._send(k)
+            return AGAIN
+        self.seconds[k] = seconds
+        if self.record:
+            self.returned[k] = _size(value)
         return value
 
     def cancel(self) -> None:
@@ -312,58 +390,20 @@ class Submitted:
 
     def close(self) -> None:
         """Release the shared arguments on the workers; record the call if asked."""
-        self.shared.clear()
+        self.shared = []
         with _recorders_lock:
             recorders = list(_recorders)
-        if not recorders or len(self.seconds) < len(self.futures):
+        n = len(self.futures)
+        if not recorders or len(self.seconds) < n:
             return
         record = Dispatch(
             stage=self.stage,
             workers=self.workers,
-            shared_bytes=self.shared_bytes,
-            sent_bytes=self.sent_bytes,
-            returned_bytes=tuple(self.returned[i] for i in range(len(self.futures))),
-            compute_seconds=tuple(self.seconds[i] for i in range(len(self.futures))),
+            shared_bytes=_size(self.payload),
+            sent_bytes=tuple(_size([self.func, self.positions, *own]) for own in self.own),
+            returned_bytes=tuple(self.returned[i] for i in range(n)),
+            compute_seconds=tuple(self.seconds[i] for i in range(n)),
             wall_seconds=time.perf_counter() - self.started,
         )
         for sent in recorders:
             sent.append(record)
-
-
-def submit(
-    address: str, func: Callable[..., Any], tasks: Sequence[tuple[Any, ...]], stage: str = ""
-) -> Submitted:
-    """Send ``func(*task)`` for every task as one Dask task each.
-
-    ``func`` must be a module-level function of haarline (the workers import it by name);
-    arguments shared by every task are scattered to every worker once. The task keys start
-    with ``haarline-`` and the stage, so the scheduler's dashboard names them.
-    """
-    client = connect(address)
-    started = time.perf_counter()
-    positions = _shared(tasks) if len(tasks) > 1 else []
-    payload = [tasks[0][i] for i in positions]
-    shared = client.scatter(payload, broadcast=True, hash=False) if payload else []
-    record = bool(_recorders)
-    label = re.sub(r"[^a-z0-9]+", "_", stage.lower()).strip("_") or func.__name__.strip("_")
-    prefix = f"haarline-{label}-{uuid.uuid4().hex}"
-    futures = []
-    sent = []
-    for k, task in enumerate(tasks):
-        args = list(task)
-        for i, future in zip(positions, shared, strict=True):
-            args[i] = future
-        if record:
-            sent.append(_size([func, *(a for i, a in enumerate(task) if i not in positions)]))
-        futures.append(client.submit(_timed, func, *args, key=f"{prefix}-{k}", pure=False))
-    return Submitted(
-        address=address,
-        stage=stage,
-        client=client,
-        futures=futures,
-        shared=shared,
-        workers=len(client.nthreads()),
-        started=started,
-        shared_bytes=_size(payload) if record else 0,
-        sent_bytes=tuple(sent),
-    )
