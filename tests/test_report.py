@@ -201,7 +201,11 @@ def test_public_api_is_complete():
 
 
 # shared between the core's subpackages, not part of the library's surface
-_INTERNAL_MODULES = {"haarline.engine.batching", "haarline.metrics.intervals"}
+_INTERNAL_MODULES = {
+    "haarline.engine.batching",
+    "haarline.engine.cluster",
+    "haarline.metrics.intervals",
+}
 
 _MODULE_ONLY = {
     "read_file",
