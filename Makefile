@@ -122,5 +122,5 @@ bench: $(VENV)/.dask
 
 .PHONY: bench-smoke
 ## bench-smoke: the same script at tiny sizes (seconds; the test suite runs it too)
-bench-smoke: $(VENV)/.core
+bench-smoke: $(VENV)/.dask
 	$(BIN)/python bench/run.py --smoke --out bench/smoke.json

@@ -90,7 +90,7 @@ FULL = {
     "cluster_layers": 1,
     "cluster_pairs": 128,  # two blocks of 64 pairs
     "cluster_budget": 256 << 20,  # per task
-    "cluster_model_pairs": 5000,  # the default pair count, for the 10- and 100-worker model
+    "cluster_model_pairs": [5000, 20000],  # the default pair count and a large run
     "cluster_model_workers": [10, 100],
     "cluster_bandwidth": 125e6,  # bytes/s of a 1 Gbit/s network, for the model
 }
@@ -452,37 +452,45 @@ def cluster_model(
 ) -> dict[str, Any]:
     """Expected run time and efficiency of ``pairs`` pairs on ``workers`` Dask workers.
 
-    From the one-worker run: ``t`` the median compute time of a block of ``b`` pairs,
-    ``o`` the cluster's overhead per block (the gather's wall time beyond the blocks'
-    compute, per block: scheduling, loopback transfer), ``s`` the serial part (the
-    call's wall time beyond the gather: the histogram, the bootstrap, the KL). A run of
-    ``B = ceil(pairs / b)`` blocks on ``w`` workers then takes
+    From the one-worker run: ``t`` the compute time per pair (a block's median compute
+    time over its pairs), ``o`` the cluster's overhead per block (the gather's wall time
+    beyond the blocks' compute, per block: scheduling, loopback transfer), ``s`` the
+    serial part (the call's wall time beyond the gather: the histogram, the bootstrap,
+    the KL), and the bytes a block sends and returns. The run is cut as haarline cuts it
+    (``blocks_for(pairs, max(2, workers))``: two blocks per worker, whole blocks of 64), a
+    block of ``c`` pairs costs ``c t + o + bytes / bandwidth``, and each worker takes the
+    next block as soon as it is free (as Dask's scheduler does), so
 
-        T(w) = s + ceil(B / w) (t + o + (sent + returned) / bandwidth) + w shared / bandwidth
+        T(w) = s + (the last worker's finishing time) + w shared / bandwidth
 
     (Amdahl's law with whole blocks as the unit of work, plus the shared arguments sent
-    to every worker), and the efficiency is ``T(1) / (w T(w))``.
+    to every worker); the efficiency is ``T(1) / (w T(w))``.
     """
-    blocks = -(-pairs // one["block_pairs"])
-    per_block = (
-        one["block_seconds"]
-        + one["overhead_seconds_per_block"]
-        + (one["sent_bytes_per_block"] + one["returned_bytes_per_block"]) / bandwidth
-    )
+    import heapq
 
-    def wall(w: int) -> float:
-        return (
-            one["serial_seconds"]
-            + -(-blocks // w) * per_block
-            + w * one["shared_bytes"] / bandwidth
-        )
+    from haarline.engine.batching import blocks_for
 
+    per_pair = one["block_seconds"] / one["block_pairs"]
+    back_per_pair = one["returned_bytes_per_block"] / one["block_pairs"]
+
+    def wall(w: int) -> tuple[float, int]:
+        blocks = blocks_for(pairs, max(2, w))
+        free = [0.0] * w
+        for _, count in blocks:
+            start = heapq.heappop(free)
+            message = one["sent_bytes_per_block"] + back_per_pair * count
+            cost = count * per_pair + one["overhead_seconds_per_block"] + message / bandwidth
+            heapq.heappush(free, start + cost)
+        seconds = one["serial_seconds"] + max(free) + w * one["shared_bytes"] / bandwidth
+        return seconds, len(blocks)
+
+    seconds, blocks = wall(workers)
     return {
         "workers": workers,
         "pairs": pairs,
         "blocks": blocks,
-        "seconds": wall(workers),
-        "efficiency": wall(1) / (workers * wall(workers)),
+        "seconds": seconds,
+        "efficiency": wall(1)[0] / (workers * seconds),
         "busy_workers": min(workers, blocks),
     }
 
@@ -551,9 +559,8 @@ def bench_cluster(cfg: dict[str, Any]) -> dict[str, Any]:
             cluster.disconnect()
     one, two = runs
     model = [
-        cluster_model(
-            one, pairs=cfg["cluster_model_pairs"], workers=w, bandwidth=cfg["cluster_bandwidth"]
-        )
+        cluster_model(one, pairs=m, workers=w, bandwidth=cfg["cluster_bandwidth"])
+        for m in cfg["cluster_model_pairs"]
         for w in cfg["cluster_model_workers"]
     ]
     return {

@@ -44,7 +44,7 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
         assert r["blocks"] == 2 and r["block_seconds"] > 0
         assert 0 < r["sent_bytes_per_block"] < min(1000, r["shared_bytes"])
         assert r["returned_bytes_per_block"] < 8 * r["block_pairs"] + 200
-    assert [m["workers"] for m in cl["model"]["points"]] == [10, 100]
+    assert [m["workers"] for m in cl["model"]["points"]] == [10, 100, 10, 100]
     assert all(0 < m["efficiency"] <= 1 for m in cl["model"]["points"])
     assert {t["figure"] for t in results["targets"]} == set(figures)
     printed = capsys.readouterr().out
