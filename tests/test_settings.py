@@ -66,7 +66,7 @@ def test_the_dask_settings_are_checked_at_start_up(tmp_path):
     assert Settings.from_env(env(tmp_path, DASK_SCHEDULER=address)).dask_unit == "job"
     with pytest.raises(SettingsError, match="HAARLINE_DASK_SCHEDULER: expected a Dask sched"):
         Settings.from_env(env(tmp_path, DASK_SCHEDULER="10.0.0.5:8786"))
-    with pytest.raises(SettingsError, match="HAARLINE_DASK_UNIT: 'block' .* set HAARLINE_DASK_SCHEDULER"):
+    with pytest.raises(SettingsError, match="DASK_UNIT: 'block' .* set HAARLINE_DASK_SCHED"):
         Settings.from_env(env(tmp_path, DASK_UNIT="block"))
     with pytest.raises(SettingsError, match="HAARLINE_DASK_UNIT: .*'job' or 'block'"):
         Settings.from_env(env(tmp_path, DASK_SCHEDULER=address, DASK_UNIT="task"))
