@@ -213,3 +213,40 @@ def test_an_unreachable_scheduler_is_named_with_exit_code_2(wide, capsys):
     err = capsys.readouterr().err
     assert err.startswith(f"haarline: error: --dask: no Dask scheduler at {address} ("), err
     assert "Traceback" not in err
+
+
+def test_cancelling_a_block_mode_job_cancels_its_outstanding_blocks(dask_cluster, make_app):
+    # 16 qubits, 512 pairs: four blocks of 128 pairs, two running and two waiting
+    request = {
+        "circuit": {**WIDE, "qubits": 16, "layers": 3},
+        "options": {"metrics": ["expressibility"], "pairs": 512, "seed": 3},
+    }
+    app = make_app(dask_scheduler=dask_cluster.address, dask_unit="block", memory_budget=64 << 20)
+    with dask_cluster.client() as watcher, TestClient(app) as c:
+        watcher.get_task_stream()
+        c.headers.update(bearer(c.app, "blocks"))
+        url = c.post("/v1/analyses", json=request).headers["Location"]
+        running: list[str] = []
+        deadline = time.monotonic() + 120
+        while not running and time.monotonic() < deadline:
+            running = [k for keys in watcher.processing().values() for k in keys]
+            running = [k for k in running if k.startswith("haarline-expressibility")]
+            time.sleep(0.05)
+        assert running, c.get(url).json()
+        asked = time.monotonic()
+        c.delete(url)
+        while c.get(url).json()["state"] != "cancelled" and time.monotonic() < deadline:
+            time.sleep(0.05)
+        assert c.get(url).json()["state"] == "cancelled"
+        assert time.monotonic() - asked < 5.0
+
+        def ours(dask_scheduler):  # run in the scheduler: the keys it still tracks
+            return [str(k) for k in dask_scheduler.tasks if str(k).startswith("haarline-")]
+
+        left = watcher.run_on_scheduler(ours)
+        while left and time.monotonic() < deadline:
+            time.sleep(0.1)
+            left = watcher.run_on_scheduler(ours)
+        # nothing of the job is left on the cluster, and not every block was computed
+        assert left == []
+        assert len(our_tasks(watcher.get_task_stream())) < 4
