@@ -250,3 +250,20 @@ def test_cancelling_a_block_mode_job_cancels_its_outstanding_blocks(dask_cluster
         # nothing of the job is left on the cluster, and not every block was computed
         assert left == []
         assert len(our_tasks(watcher.get_task_stream())) < 4
+
+
+def test_a_block_mode_job_names_the_unreachable_scheduler(make_client):
+    import socket
+
+    with socket.socket() as s:  # a port that nothing listens on
+        s.bind(("127.0.0.1", 0))
+        address = f"tcp://127.0.0.1:{s.getsockname()[1]}"
+    c = make_client(dask_scheduler=address, dask_unit="block")
+    request = {"circuit": WIDE, "options": {"pairs": 600, "metrics": ["expressibility"]}}
+    url = c.post("/v1/analyses", json=request).headers["Location"]
+    deadline = time.time() + 60
+    while (job := c.get(url).json())["state"] not in ("succeeded", "failed"):
+        assert time.time() < deadline, job
+        time.sleep(0.1)
+    assert job["state"] == "failed"
+    assert job["error"].startswith(f"HAARLINE_DASK_SCHEDULER: no Dask scheduler at {address}")

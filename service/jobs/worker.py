@@ -182,6 +182,10 @@ def execute_job(
     except JobCancelled:
         store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
+    except haarline.ClusterError as exc:  # block-level mode: the cluster, not the request
+        reason = "; ".join(f"HAARLINE_DASK_SCHEDULER: {p.message}" for p in exc.problems)
+        store.mark(job_id, JobState.FAILED, error=reason)
+        return "failed"
     except (haarline.InputError, haarline.LimitError) as exc:
         store.mark(job_id, JobState.FAILED, error=str(exc))
         return "failed"
