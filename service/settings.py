@@ -37,6 +37,7 @@ variable                           meaning (default)
 ``HAARLINE_PAGE_SECRET``           the key that signs share links (default: 32 random bytes
                                    created once in ``DATA_DIR/page-secret``); changing it
                                    ends every link given out
+``HAARLINE_SHARE_MAX_DAYS``        longest lifetime of a share link, in days (``90``)
 ``HAARLINE_RETENTION_DAYS``        delete finished jobs, with their results and plots, this
                                    many days after they finished (unset: keep them)
 ``HAARLINE_SHARED_RESULT_CACHE``   ``1``: a request identical to one *any* key has run is
@@ -47,11 +48,29 @@ variable                           meaning (default)
                                    belongs to one team
 ``HAARLINE_CORS_ORIGINS``          comma-separated origins (``https://wiki.example.org``)
                                    whose pages may call the API from a browser (unset: none)
+``HAARLINE_WEBHOOK_LOOPBACK``      ``1``: a ``callback_url`` may name a loopback address
+                                   (``127.0.0.0/8``, ``::1``), over http too (``0``;
+                                   development mode allows loopback anyway)
+``HAARLINE_WEBHOOK_NETWORKS``      comma-separated networks (``10.20.0.0/16``) that
+                                   callbacks may reach although they are not public
+                                   (unset: only public addresses)
+``HAARLINE_WEBHOOK_HTTP``          ``1``: plain ``http://`` callbacks to any allowed
+                                   address (``0``: https only, except to loopback)
+``HAARLINE_WEBHOOK_RETRY_DELAYS``  comma-separated seconds between a notification's
+                                   attempts (``5,300,1800,7200,18000,36000,36000``: eight
+                                   attempts over about 28 hours)
+``HAARLINE_WEBHOOK_TIMEOUT``       seconds one attempt may take to connect, and again to
+                                   get the answer (``10``)
 =================================  ==========================================================
+
+Callbacks go to ``https`` URLs whose host resolves only to public addresses: every address
+the host resolves to is checked (:mod:`haarline.service.jobs.destinations`), when the job
+is submitted and again before each attempt.
 
 An unsafe configuration refuses to start: development mode on anything but a loopback
 address, a non-positive limit, a data directory that cannot be created, an origin that is
-not ``scheme://host[:port]``, or a variable of an older release that was renamed
+not ``scheme://host[:port]``, a webhook network that is not ``address/prefix``, a retry
+delay that is not above 0 and at most a day, or a variable of an older release that was renamed
 (``HAARLINE_MAX_COST``: the error names its new name; it is never read silently).
 
 This is a plain pydantic model read by :meth:`Settings.from_env` rather than
@@ -89,7 +108,8 @@ ENV_PREFIX = "HAARLINE_"
 RENAMED = {"MAX_COST": "MAX_WORK", "MAX_SCORE_COST": "MAX_SCORE_WORK"}
 """Variables of earlier releases and their new names (the estimate is called "work")."""
 
-_FLAGS = ("dev_mode", "shared_result_cache")
+_FLAGS = ("dev_mode", "shared_result_cache", "webhook_loopback", "webhook_http")
+_LISTS = ("cors_origins", "webhook_networks", "webhook_retry_delays")
 _ORIGIN = re.compile(r"https?://[A-Za-z0-9.\-\[\]:]+")
 
 
@@ -127,9 +147,17 @@ class Settings(BaseModel):
     retry_after: int = Field(default=5, ge=1)
     public_url: str | None = None
     page_secret: SecretStr | None = Field(default=None, min_length=16)
+    share_max_days: float = Field(default=90.0, gt=0, le=3650)
     retention_days: float | None = Field(default=None, gt=0, le=36_500)
     shared_result_cache: bool = False
     cors_origins: tuple[str, ...] = ()
+    webhook_loopback: bool = False
+    webhook_networks: tuple[str, ...] = ()
+    webhook_http: bool = False
+    webhook_retry_delays: tuple[float, ...] = Field(
+        default=(5, 300, 1800, 7200, 18000, 36000, 36000), min_length=1, max_length=20
+    )
+    webhook_timeout: float = Field(default=10.0, gt=0, le=120)
 
     @field_validator("dask_scheduler")
     @classmethod
@@ -159,7 +187,31 @@ class Settings(BaseModel):
                     f"cors_origins: {origin!r} is not an origin; expected scheme://host[:port] "
                     "such as https://wiki.example.org (no path, no wildcard)"
                 )
+        for network in self.webhook_networks:
+            try:
+                ipaddress.ip_network(network)
+            except ValueError as exc:
+                raise ValueError(
+                    f"webhook_networks: {network!r} is not a network ({exc}); expected "
+                    "an address with a prefix length such as 10.20.0.0/16 or fd00::/8"
+                ) from None
+        for delay in self.webhook_retry_delays:
+            if not 0 < delay <= 86_400:
+                raise ValueError(
+                    f"webhook_retry_delays: {delay:g} s is out of range; each delay must be "
+                    "above 0 and at most 86400 (a day)"
+                )
         return self
+
+    @property
+    def callback_networks(self) -> tuple[ipaddress.IPv4Network | ipaddress.IPv6Network, ...]:
+        """``HAARLINE_WEBHOOK_NETWORKS`` as network objects."""
+        return tuple(ipaddress.ip_network(n) for n in self.webhook_networks)
+
+    @property
+    def callback_loopback(self) -> bool:
+        """Whether callbacks may go to loopback (development mode, or the setting)."""
+        return self.dev_mode or self.webhook_loopback
 
     @property
     def base_url(self) -> str:
@@ -192,9 +244,10 @@ class Settings(BaseModel):
             key = ENV_PREFIX + name.upper()
             if key in env and env[key] != "":
                 raw[name] = env[key]
-        if isinstance(raw.get("cors_origins"), str):
-            raw["cors_origins"] = tuple(o.strip() for o in raw["cors_origins"].split(",") if o)
         raw.update({k: v for k, v in overrides.items() if v is not None})
+        for name in _LISTS:
+            if isinstance(raw.get(name), str):
+                raw[name] = tuple(o.strip() for o in raw[name].split(",") if o.strip())
         for name in _FLAGS:
             if isinstance(raw.get(name), str):
                 flag = raw[name].strip().lower()
@@ -211,7 +264,7 @@ class Settings(BaseModel):
                 field = str(err["loc"][0]) if err["loc"] else ""
                 where = ENV_PREFIX + field.upper() if field else "settings"
                 message = err["msg"].removeprefix("Value error, ")
-                for name in ("cors_origins", "dask_unit"):
+                for name in (*_LISTS, "dask_unit"):
                     if message.startswith(f"{name}: "):
                         where, message = ENV_PREFIX + name.upper(), message[len(name) + 2 :]
                 lines.append(f"{where}: {message}")

@@ -143,7 +143,10 @@ def test_a_locked_database_is_a_503_and_nothing_is_corrupted(make_app, tmp_path)
         after = c.post("/v1/analyses", json=body)
         assert after.status_code == 202
         assert c.get(f"/v1/analyses/{before['id']}").json() == before  # untouched
-        assert [j["id"] for j in c.get("/v1/analyses").json()] == [after.json()["id"], before["id"]]
+        assert [j["id"] for j in c.get("/v1/analyses").json()["jobs"]] == [
+            after.json()["id"],
+            before["id"],
+        ]
         assert c.get("/readyz").status_code == 503  # the dispatcher is off in this app
     assert integrity(store.path) == "ok"
 
@@ -175,7 +178,7 @@ def test_a_full_disk_is_a_503_and_nothing_is_corrupted(tmp_path):
     with server, server.client(key) as c:
         for url in accepted:
             assert wait_for(c, url, ("succeeded", "failed"))["state"] == "succeeded"
-        assert len(c.get("/v1/analyses").json()) == len(accepted)
+        assert len(c.get("/v1/analyses").json()["jobs"]) == len(accepted)
     assert integrity(server.store.path) == "ok"
 
 

@@ -262,7 +262,7 @@ def integer_bounds(node, where=""):
 
 def test_integer_bounds_in_the_document_are_exact_integers(quiet):
     doc = quiet.get("/openapi.json").json()
-    seed = doc["components"]["schemas"]["AnalysisOptions"]["properties"]["seed"]
+    seed = doc["components"]["schemas"]["JobOptions"]["properties"]["seed"]
     assert seed["maximum"] == 2**63 - 1 and type(seed["maximum"]) is int
     floats = [w for w, v in integer_bounds(doc) if not isinstance(v, int)]
     assert floats == []

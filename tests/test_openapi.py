@@ -31,6 +31,7 @@ RESULT = JOB | {409}
 CREATE = KEYED | BODY | {409, 415, 422, 429}
 PAGE = KEYED | {403, 404, 422}
 SHARE = KEYED | BODY | {404, 415, 422}
+SHARED = RESULT | {403, 422}  # a key or a share token (403), whose length is bounded (422)
 CAN_RETURN = {
     "health": set(),  # no key, no store: 200 or nothing
     "ready": {503},  # no key: store, dispatcher or disk
@@ -38,22 +39,34 @@ CAN_RETURN = {
     "listComparisons": KEYED | {422},
     "createAnalysis": CREATE,
     "createComparison": CREATE,
-    "getAnalysis": JOB,
-    "getComparison": JOB,
+    "getAnalysis": JOB | {422},  # ?wait out of range
+    "getComparison": JOB | {422},
+    "streamAnalysisEvents": JOB,
+    "streamComparisonEvents": JOB,
+    "listAnalysisDeliveries": JOB,
+    "listComparisonDeliveries": JOB,
+    "createWebhookSecret": KEYED,
+    "getWebhookSecret": KEYED | {404},  # none created yet
     "cancelAnalysis": JOB,
     "cancelComparison": JOB,
-    "getAnalysisReport": RESULT,
-    "getComparisonReport": RESULT,
-    "getAnalysisSummary": RESULT,
-    "getComparisonSummary": RESULT,
-    "listAnalysisPlots": RESULT,
-    "listComparisonPlots": RESULT,
-    "getAnalysisPlot": RESULT,
-    "getComparisonPlot": RESULT,
+    "getAnalysisReport": SHARED,
+    "getComparisonReport": SHARED,
+    "getAnalysisSummary": SHARED,
+    "getComparisonSummary": SHARED,
+    "listAnalysisPlots": SHARED,
+    "listComparisonPlots": SHARED,
+    "getAnalysisPlot": SHARED,
+    "getComparisonPlot": SHARED,
     "getAnalysisPage": PAGE,
     "getComparisonPage": PAGE,
-    "shareAnalysisPage": SHARE,
-    "shareComparisonPage": SHARE,
+    "shareAnalysis": SHARE,
+    "shareComparison": SHARE,
+    "listAnalysisShares": JOB,
+    "listComparisonShares": JOB,
+    "revokeAnalysisShare": JOB,
+    "revokeComparisonShare": JOB,
+    "latestAnalysis": KEYED | {404, 422},
+    "latestComparison": KEYED | {404, 422},
     "scoreCircuit": KEYED | BODY | {415, 422, 504},
     "checkCircuit": KEYED | BODY | {415, 422},
     "getCircuitSchema": KEYED,
@@ -120,6 +133,7 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
         def probe(operation_id, *, job="0" * 32, name="nope.png", keyed=True, **kw):
             method, path, errors = ops[operation_id]
             url = path.replace("{job_id}", job).replace("{name}", name)
+            url = url.replace("{link_id}", "0" * 16)
             headers = {**(auth if keyed else {}), **kw.pop("headers", {})}
             r = c.request(method, url, headers=headers, **kw)
             if r.status_code >= 400:
@@ -134,6 +148,7 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
         # no key: 401 wherever a key is needed, and never on the health routes
         for i in ops:
             probe(i, keyed=False, json=bodies.get(i))
+        probe("getWebhookSecret")  # 404 before this key created one
         # unknown ids and names: 404
         for i in ops:
             probe(i, name="nope" if i == "getReference" else "nope.png")
@@ -151,9 +166,16 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
             probe(f"get{noun}Page", job=job)
             probe(f"get{noun}Page", job=job, keyed=False, params={"token": "a.1.b"})  # 403
             probe(f"get{noun}Page", job=job, params={"token": "x" * 301})  # 422
-            probe(f"share{noun}Page", job=job, json={"ttl_seconds": 1})  # 422
-            probe(f"share{noun}Page", job=job, content=b"x" * 4096)  # 413
+            probe(f"share{noun}", job=job, json={"ttl_seconds": 1})  # 422
+            probe(f"share{noun}", job=job, content=b"x" * 4096)  # 413
+            for i in (f"get{noun}Report", f"get{noun}Summary", f"list{noun}Plots"):
+                probe(i, job=job, keyed=False, params={"token": "a.1.b"})  # 403
+                probe(i, job=job, params={"token": "x" * 301})  # 422
+            probe(f"get{noun}Plot", job=job, keyed=False, params={"token": "a.1.b"})  # 403
+            probe(f"get{noun}Plot", job=job, params={"token": "x" * 301})  # 422
+            probe(f"latest{noun}", params={"label": "PR:1"})  # 422
             probe(f"get{noun}", job=job)
+            probe(f"get{noun}", job=job, params={"wait": 61})  # 422
         # the Idempotency-Key again with another body: 409; the queue holds 2 per key: 429
         for i, body in bodies.items():
             probe(i, json={**body, "options": {"seed": 2}}, headers=once[i])
@@ -167,8 +189,8 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
             *bodies,
             "scoreCircuit",
             "checkCircuit",
-            "shareAnalysisPage",
-            "shareComparisonPage",
+            "shareAnalysis",
+            "shareComparison",
         ):
             probe(i, content=b"ttl_seconds=60", headers={"Content-Type": "text/plain"})
         for i in ("listAnalyses", "listComparisons"):

@@ -68,7 +68,7 @@ def test_page_shows_the_report_numbers_and_inlines_the_plots(client):
     assert "Content-Security-Policy" in r.headers
 
 
-def test_share_link_opens_only_that_page(client):
+def test_share_link_opens_only_that_job(client):
     url = finished(client, {"reference": "rx-product", "options": SMALL})
     other_url = finished(client, {"reference": "ry-cz-ring", "options": SMALL})
     share = client.post(f"{url}/share", headers=client.key, json={"ttl_seconds": 600}).json()
@@ -80,16 +80,22 @@ def test_share_link_opens_only_that_page(client):
     assert client.get(f"{other_url}/page", params={"token": token}).status_code == 403
     bad = token[:-2] + ("AA" if not token.endswith("AA") else "BB")
     assert client.get(f"{path}/page", params={"token": bad}).status_code == 403
-    assert client.get(f"{path}/report", params={"token": token}).status_code == 401
-    assert client.get(f"{path}/plots", params={"token": token}).status_code == 401
+    # the token opens the job's other outputs too, and nothing of the other job
+    assert client.get(f"{path}/report", params={"token": token}).status_code == 200
+    assert client.get(f"{path}/plots", params={"token": token}).status_code == 200
+    assert client.get(f"{other_url}/report", params={"token": token}).status_code == 403
+    assert client.get(f"{path}", params={"token": token}).status_code == 401  # not the status
 
 
 def test_expired_token_is_403(client):
     url = finished(client, {"reference": "rx-product", "options": SMALL})
     job_id = url.rsplit("/", 1)[1]
-    token, _ = make_token(SECRET.encode(), job_id, 60, now=time.time() - 3600)
-    r = client.get(f"{url}/page", params={"token": token})
-    assert r.status_code == 403 and "expired" in r.json()["detail"]
+    # a link recorded in the store, signed with an expiry an hour ago
+    link_id = client.app.state.store.add_link(job_id, "alice", int(time.time()) - 3600)
+    token = make_token(SECRET.encode(), job_id, link_id, int(time.time()) - 3600)
+    for route in ("page", "report", "summary", "plots/circuit.png"):
+        r = client.get(f"{url}/{route}", params={"token": token})
+        assert r.status_code == 403 and "expired" in r.json()["detail"], route
 
 
 def test_page_without_key_or_token_is_401_and_other_keys_get_404(client):
@@ -119,8 +125,8 @@ def test_status_aware_pages():
 
 
 def test_token_checks():
-    token, _ = make_token(b"k", "a" * 32, 100, now=1000)
-    check_token(b"k", token, "a" * 32, now=1050)
+    token = make_token(b"k", "a" * 32, "0123456789abcdef", 1100)
+    assert check_token(b"k", token, "a" * 32, now=1050) == "0123456789abcdef"
     for args in [
         (b"k", token, "b" * 32, 1050),
         (b"other", token, "a" * 32, 1050),

@@ -487,7 +487,7 @@ REJECTED = [
     (Q2 + "rx((-8) ** 0.5) q[0];\n", "line 4, column 4: -8.0 ** 0.5 is not a finite real"),
     (Q2 + "rx(theta) q[0];\n", "line 4, column 4: unknown name 'theta'"),
     (Q2 + "let a = q;\n", "line 4, column 1: aliases ('let')"),
-    (Q2 + "pragma anything\n", "line 4, column 1: pragmas are not supported"),
+    (Q2 + "pragma anything\n", "line 4, column 1: the pragma 'anything' is not supported"),
     (Q2 + "@mark\nx q[0];\n", "line 4, column 1: annotations ('@keyword')"),
     (Q2 + "extern f(int) -> int;\n", "line 4, column 1: 'extern' declarations"),
     (Q2 + "end;\n", "line 4, column 1: 'end' is not supported"),
@@ -514,14 +514,19 @@ REJECTED = [
         "line 6, column 1: the angle theta + 1.5707963267948966 cannot be represented",
     ),
     (Q2T + "rx(theta + phi) q[0];\n", "line 6, column 1: the angle phi + theta cannot be"),
-    (Q2T + "rx(theta * phi) q[0];\n", "line 6, column 4: the product (theta) * (phi)"),
+    (
+        Q2T + "rx(theta * phi) q[0];\n",
+        "line 6, column 1: the angle phi*theta cannot be represented: a product of inputs is "
+        "read only for data inputs",
+    ),
+    (Q2T + "rx(theta * phi * theta) q[0];\n", "line 6, column 4: the product (phi*theta) *"),
     (Q2T + "rx(1 / theta) q[0];\n", "line 6, column 4: dividing by or raising to an input"),
     (Q2T + "x q[theta];\n", "line 6, column 5: 'theta' is not an integer"),
     (Q2T + "pow(theta) @ x q[0];\n", "line 6, column 1: the exponent of 'pow(theta) @' must be"),
     (
         Q2T + "inv @ rx(theta) q[0];\n",
-        "line 6, column 1: the angle -theta cannot be represented (after 'inv @'): a haarline "
-        "step takes a number or one input exactly as declared, not a scaled or shifted input",
+        "line 6, column 1: the angle -theta cannot be represented (after 'inv @'): a trainable "
+        "angle is a number or one input exactly as declared, not a scaled or shifted input",
     ),
     (Q2T + "pow(-1) @ rz(theta) q[0];\n", "-theta cannot be represented (after 'pow(-1) @')"),
     (Q2T + "U(2*theta, 0, 0) q[0];\n", "line 6, column 1: the angle 2*theta cannot be"),

@@ -226,3 +226,25 @@ def test_cphase_is_written_as_the_standard_cp_exactly():
     loaded = sdk.bind(sdk.read_qasm(text), [0.9])
     matrix = sdk.matrix(loaded)  # little-endian: q[1] is the high bit, so this is cp(1 -> 0)
     np.testing.assert_allclose(np.diag(matrix), [1, 1, 1, np.exp(0.9j)], atol=1e-12)
+
+
+@pytest.mark.parametrize("name", ["re-uploaded by qubit", "scaled feature and product map"])
+def test_exports_with_data_inputs_read_by_the_library_give_equal_states(name):
+    # the importer knows nothing of the data comment: the features arrive as ordinary
+    # symbols, and binding them to x gives haarline's state at (θ, x)
+    from test_qasm_inputs import WITH_INPUTS
+
+    program = expand(parse_circuit(WITH_INPUTS[name]))
+    text = to_qasm(program)
+    loaded = sdk.read_qasm(text)
+    again = expand(parse_qasm(text))
+    features = [f"x_{k}" for k in range(program.inputs)]
+    assert {p.name for p in loaded.parameters} == set(again.parameter_names) | set(features)
+    rng = np.random.default_rng(11)
+    thetas = rng.uniform(0, 2 * np.pi, (2, program.parameters))
+    x = rng.uniform(0, 2 * np.pi, (2, program.inputs))
+    states = run(program, program.angles(thetas, x))
+    for b in range(2):
+        values = dict(zip(again.parameter_names, thetas[b].tolist(), strict=True))
+        values |= dict(zip(features, x[b].tolist(), strict=True))
+        assert_same_state(library_state(loaded, values), states[b])

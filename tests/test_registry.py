@@ -141,7 +141,7 @@ def test_the_cli_accepts_every_row_and_says_what_each_measures(capsys, tmp_path)
 def test_the_service_accepts_every_row_and_its_schema_lists_them(make_app):
     with TestClient(make_app(runner=False, dev_mode=True)) as client:
         schema = client.get("/openapi.json").json()
-        metrics = schema["components"]["schemas"]["AnalysisOptions"]["properties"]["metrics"]
+        metrics = schema["components"]["schemas"]["JobOptions"]["properties"]["metrics"]
         assert metrics["items"]["enum"] == list(REGISTRY)
         for row in REGISTRY.values():
             assert row.about in metrics["description"]

@@ -95,7 +95,7 @@ def test_a_full_disk_is_a_clear_503_and_the_store_stays_whole(make_app, tmp_path
         assert "the disk of the data directory is full" in problem["detail"]
         assert "database or disk is full" in problem["detail"]
         # reading still works, and every accepted job is there
-        listed = {j["id"] for j in c.get("/v1/analyses", params={"limit": 200}).json()}
+        listed = {j["id"] for j in c.get("/v1/analyses", params={"limit": 200}).json()["jobs"]}
         assert listed == set(accepted)
         del app.dependency_overrides[get_store]  # space is back
         assert c.post("/v1/analyses", json=SMALL).status_code == 202
@@ -149,4 +149,4 @@ def test_new_jobs_are_refused_below_the_minimum_free_space(make_app, tmp_path):
             assert r.status_code == 503, r.text
             assert r.headers["Retry-After"] == "7"
             assert r.json()["type"].endswith("/low-disk-space")
-        assert c.get("/v1/analyses").json() == []  # nothing was written
+        assert c.get("/v1/analyses").json()["jobs"] == []  # nothing was written

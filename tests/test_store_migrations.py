@@ -89,7 +89,7 @@ def test_the_release_file_upgrades_and_keeps_every_job_result_and_plot(release_c
     assert cached["cached"] and store.result(cached["id"])[0] == report
     assert store.find_idempotent(ALICE, "pr-7")["id"] == "5c24c05404854a399ca062922a7ca6d8"
     assert store.key_active(ALICE) and not store.key_active(BOB)
-    assert [j["id"] for j in store.list_jobs(ALICE, kind="compare")] == [
+    assert [j["id"] for j in store.list_jobs(ALICE, kind="compare")[0]] == [
         "d920121d9692463f81369b7af44dde34"
     ]
 

@@ -12,7 +12,14 @@ import json
 from typing import Any
 
 import haarline
-from haarline.service.api.schemas import AnalysisCreate, CircuitSource, CompareCreate, DataInline
+from haarline.report.policy import check_metrics
+from haarline.service.api.schemas import (
+    AnalysisCreate,
+    CircuitSource,
+    CompareCreate,
+    DataInline,
+    JobOptions,
+)
 from haarline.service.errors import OverLimit
 from haarline.service.jobs.worker import circuit_of
 from haarline.service.settings import Settings
@@ -107,6 +114,28 @@ def _check_limits(estimate: haarline.Estimate, settings: Settings, cap: float, r
         )
 
 
+def _policy(options: JobOptions) -> dict[str, Any] | None:
+    """The stored form of ``options.policy``, checked against the metrics asked for."""
+    if options.policy is None:
+        return None
+    try:
+        policy = haarline.parse_policy(options.policy)
+        check_metrics(policy, list(options.metrics))
+    except haarline.PolicyError as exc:
+        exc.problems = [  # the CLI's flag is the request's field here
+            haarline.Problem(p.path, p.message.replace("--metrics", "options.metrics"))
+            for p in exc.problems
+        ]
+        exc.body_path = "options.policy"  # type: ignore[attr-defined]
+        exc.source = None
+        raise
+    return policy.model_dump(mode="json", exclude_none=True)
+
+
+def _stored_options(options: JobOptions) -> dict[str, Any]:
+    return options.model_dump(mode="json", exclude={"policy"})
+
+
 def request_hash(kind: str, request: dict[str, Any]) -> str:
     """Canonical hash of (kind, circuit(s), options, seed, version)."""
     body = {"kind": kind, "version": haarline.__version__, **request}
@@ -124,9 +153,12 @@ def admit_analysis(
     estimate = _estimate(circuit, options, settings)
     cap = settings.max_score_work if route == "score" else settings.max_work
     _check_limits(estimate, settings, cap, route)
-    request = {**stored, "options": options.model_dump(mode="json")}
+    policy = _policy(options)
+    request = {**stored, "options": _stored_options(options)}
     if data is not None:
         request["data"] = data
+    if policy is not None:
+        request["policy"] = policy
     return request, estimate
 
 
@@ -145,7 +177,10 @@ def admit_compare(
         circuits.append(stored)
     estimate = haarline.Estimate(work=total_work, memory=memory)
     _check_limits(estimate, settings, settings.max_work, "job")
-    request = {"circuits": circuits, "options": body.options.model_dump(mode="json")}
+    policy = _policy(body.options)
+    request = {"circuits": circuits, "options": _stored_options(body.options)}
     if data is not None:
         request["data"] = data
+    if policy is not None:
+        request["policy"] = policy
     return request, estimate

@@ -161,7 +161,7 @@ def _declared_problems_only(document: dict[str, Any]) -> dict[str, Any]:
 
 
 def _metrics_described(document: dict[str, Any]) -> dict[str, Any]:
-    options = document.get("components", {}).get("schemas", {}).get("AnalysisOptions")
+    options = document.get("components", {}).get("schemas", {}).get("JobOptions")
     if options is not None:
         options["properties"]["metrics"]["description"] = "Metrics to compute, in any order: " + (
             "; ".join(f"{name}: {row.about}" for name, row in haarline.REGISTRY.items())

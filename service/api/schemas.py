@@ -8,19 +8,26 @@ from haarline import AnalysisOptions, Circuit
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, StrictStr, model_validator
 
 __all__ = [
+    "LABEL_KEY",
     "AnalysisCreate",
     "CheckCreate",
     "CircuitSource",
     "CompareCreate",
     "DataInline",
+    "DeliveryAttemptPublic",
+    "DeliveryPublic",
     "EventPublic",
     "JobLinks",
+    "JobOptions",
+    "JobPage",
     "JobPublic",
     "ProblemDetail",
     "ProblemEntry",
     "ProgressPublic",
     "ReadyPublic",
     "ReferencePublic",
+    "WebhookSecretCreated",
+    "WebhookSecretPublic",
     "job_public",
 ]
 
@@ -28,6 +35,8 @@ MAX_QASM_CHARS = 1_000_000
 MAX_INLINE_ROWS = 10_000
 """Most rows of an inline data set (the body size limit applies too)."""
 MAX_INLINE_FEATURES = 1_000
+MAX_CALLBACK_CHARS = 2000
+"""Longest ``callback_url``."""
 MAX_NESTING = 32
 """Deepest nesting of arrays and objects a request body may have (a description needs ~8)."""
 
@@ -110,14 +119,56 @@ class DataInline(BaseModel):
     )
 
 
+class JobOptions(AnalysisOptions):
+    """The analysis options, and a policy to judge the report by."""
+
+    policy: dict[str, Any] | None = Field(
+        default=None,
+        description="A policy, exactly as a `--policy` file holds it: "
+        '`{"name": ..., "rules": [{"metric": "expressibility.kl_corrected", '
+        '"fail_above": 0.05}, ...]}`. The report carries the rule results under `policy`, '
+        "the job status `policy: passed | warned | failed`.",
+    )
+
+
+MAX_LABELS = 20
+LABEL_KEY = r"^[a-z0-9][a-z0-9_.-]{0,62}$"
+"""A label key: lower-case letters, digits, ``_ . -``, at most 63 characters."""
+
+LabelValue = Annotated[str, Field(min_length=1, max_length=200, pattern=r"^[^\x00-\x1f\x7f]+$")]
+Labels = Annotated[
+    dict[Annotated[str, Field(pattern=LABEL_KEY)], LabelValue],
+    Field(
+        max_length=MAX_LABELS,
+        description='Up to 20 labels such as `{"pr": "17", "commit": "ab12cd"}` to find '
+        "the job by (`GET …?label=pr:17`). Keys: lower-case letters, digits, `_ . -`; values: "
+        "1 to 200 printable characters.",
+    ),
+]
+
+
+CALLBACK_URL = (
+    "An https URL that receives a signed POST when the job ends (succeeded, failed or "
+    "cancelled), per the Standard Webhooks specification, signed with this key's secret "
+    "(POST /v1/webhook-secret). Its host must resolve only to public addresses unless the "
+    "server's HAARLINE_WEBHOOK_* settings allow more."
+)
+
+
 class AnalysisCreate(CircuitSource):
     """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
 
-    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    options: JobOptions = Field(default_factory=JobOptions)
     data: DataInline | None = Field(
         default=None,
         description="For a circuit with inputs: rows to draw the inputs from instead of the "
         "options' input law.",
+    )
+    labels: Labels = Field(default_factory=dict)
+    callback_url: str | None = Field(
+        default=None,
+        max_length=MAX_CALLBACK_CHARS,
+        description=CALLBACK_URL + " Jobs only: the score route refuses it.",
     )
 
 
@@ -127,11 +178,15 @@ class CompareCreate(_Body):
     model_config = ConfigDict(extra="forbid")
 
     circuits: list[CircuitSource] = Field(min_length=2, max_length=20)
-    options: AnalysisOptions = Field(default_factory=AnalysisOptions)
+    options: JobOptions = Field(default_factory=JobOptions)
+    labels: Labels = Field(default_factory=dict)
     data: DataInline | None = Field(
         default=None,
         description="For circuits with inputs: rows to draw the inputs from (every circuit "
         "must encode as many inputs as the rows have features).",
+    )
+    callback_url: str | None = Field(
+        default=None, max_length=MAX_CALLBACK_CHARS, description=CALLBACK_URL
     )
 
 
@@ -169,6 +224,8 @@ class JobLinks(BaseModel):
     report: str
     summary: str
     plots: str
+    events: str = Field(description="Server-sent events of its progress and its end.")
+    deliveries: str = Field(description="The notifications of its end and their attempts.")
 
 
 class JobPublic(BaseModel):
@@ -184,7 +241,25 @@ class JobPublic(BaseModel):
     created: float
     updated: float
     events: list[EventPublic] = Field(default_factory=list)
+    labels: dict[str, str] = Field(default_factory=dict)
+    policy: Literal["passed", "warned", "failed"] | None = Field(
+        default=None,
+        description="The verdict of `options.policy` on the finished report (null without one).",
+    )
+    callback_url: str | None = Field(
+        default=None, description="Notified when the job ends (see deliveries)."
+    )
     links: JobLinks
+
+
+class JobPage(BaseModel):
+    """One page of a job listing, newest first."""
+
+    jobs: list[JobPublic]
+    total: int = Field(description="Jobs matching the filters, on every page together.")
+    next: str | None = Field(
+        description="The next page's URL (also in the `Link` header), null on the last page."
+    )
 
 
 class ReferencePublic(BaseModel):
@@ -234,6 +309,13 @@ class ReadyPublic(BaseModel):
     min_free_bytes: int = Field(description="Below this, readiness fails (503).")
 
 
+_VERDICT: dict[str, Literal["passed", "warned", "failed"]] = {
+    "pass": "passed",
+    "warn": "warned",
+    "fail": "failed",
+}
+
+
 def job_public(job: dict[str, Any], base: str) -> JobPublic:
     """Render a stored job for its owner, with links under ``base``."""
     root = f"{base}/{job['id']}"
@@ -248,7 +330,66 @@ def job_public(job: dict[str, Any], base: str) -> JobPublic:
         created=job["created"],
         updated=job["updated"],
         events=[EventPublic(**e) for e in job.get("events", [])],
+        labels=job.get("labels", {}),
+        policy=_VERDICT.get(job.get("policy") or ""),
+        callback_url=job.get("callback_url"),
         links=JobLinks(
-            self=root, report=f"{root}/report", summary=f"{root}/summary", plots=f"{root}/plots"
+            self=root,
+            report=f"{root}/report",
+            summary=f"{root}/summary",
+            plots=f"{root}/plots",
+            events=f"{root}/events",
+            deliveries=f"{root}/deliveries",
         ),
     )
+
+
+class DeliveryAttemptPublic(BaseModel):
+    """One attempt to deliver a notification."""
+
+    attempt: int = Field(description="1 for the first attempt.")
+    at: float = Field(description="When it started (Unix seconds).")
+    seconds: float = Field(description="How long it took.")
+    status_code: int | None = Field(description="The receiver's HTTP status, if it answered.")
+    error: str | None = Field(
+        description="Why it did not count as delivered (a non-2xx status, a refused "
+        "destination, no connection, a timeout); null when delivered."
+    )
+
+
+class DeliveryPublic(BaseModel):
+    """The notification of a job's end, and every attempt to deliver it."""
+
+    id: str = Field(description="The message id, sent as webhook-id on every attempt.")
+    event: Literal[
+        "analysis.succeeded",
+        "analysis.failed",
+        "analysis.cancelled",
+        "comparison.succeeded",
+        "comparison.failed",
+        "comparison.cancelled",
+    ]
+    url: str
+    status: Literal["pending", "sending", "delivered", "failed"] = Field(
+        description="pending: an attempt is due at next_attempt; sending: one is under way; "
+        "delivered: answered 2xx; failed: every retry was used."
+    )
+    next_attempt: float | None = Field(description="When a pending delivery is tried next.")
+    created: float
+    attempts: list[DeliveryAttemptPublic]
+
+
+class WebhookSecretCreated(BaseModel):
+    """A new signing secret, shown this once."""
+
+    secret: str = Field(
+        description="whsec_ and the key in base64 (Standard Webhooks); keep it, it is not "
+        "shown again."
+    )
+    created: float
+
+
+class WebhookSecretPublic(BaseModel):
+    """Whether this key has a signing secret (never the secret itself)."""
+
+    created: float = Field(description="When the current secret was created (Unix seconds).")

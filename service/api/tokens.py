@@ -1,11 +1,11 @@
-"""Short-lived signed links to one job's report page.
+"""Signed share links to one job's outputs.
 
-A token is ``<job id>.<expiry, unix seconds>.<signature>`` with the signature an
-HMAC-SHA256 of ``page:<job id>:<expiry>`` under the server secret, base64url without
-padding. It opens that one job's page (whose images are inlined) and nothing else; it
-stops working at its expiry, when the secret changes, when the job is deleted and when
-the key that made it is revoked (the page route checks the last two). Checks are
-constant-time.
+A token is ``<job id>.<link id>.<expiry, unix seconds>.<signature>`` with the signature an
+HMAC-SHA256 of ``share:<job id>:<link id>:<expiry>`` under the server secret, base64url
+without padding. It opens that one job's page, report, summary and plots, and nothing else;
+it stops working at its expiry, when the secret changes, when the job is deleted, when its
+link is revoked and when the key that made it is revoked (the routes check the last three
+in the store, where every link is recorded). Checks are constant-time.
 
 Anything that is not a well-formed token, whatever its characters or bytes, raises
 :class:`TokenError` and nothing else: the token is decoded as ASCII and matched against
@@ -26,13 +26,10 @@ from pathlib import Path
 from haarline.service.errors import TokenError
 from haarline.service.jobs.store import is_job_id
 
-__all__ = ["MAX_TTL", "TokenError", "check_token", "load_secret", "make_token"]
+__all__ = ["TokenError", "check_token", "load_secret", "make_token"]
 
-MAX_TTL = 7 * 24 * 3600
-"""Longest lifetime of a link (seconds)."""
-
-_SHAPE = re.compile(r"([0-9a-f]{32})\.([0-9]{1,12})\.([A-Za-z0-9_-]{43})")
-"""A job id, an expiry of at most 12 ASCII digits, a 32-byte signature in base64url."""
+_SHAPE = re.compile(r"([0-9a-f]{32})\.([0-9a-f]{16})\.([0-9]{1,12})\.([A-Za-z0-9_-]{43})")
+"""A job id, a link id, an expiry of at most 12 ASCII digits, a 32-byte signature."""
 
 
 def load_secret(data_dir: Path, configured: str | None) -> bytes:
@@ -50,28 +47,27 @@ def load_secret(data_dir: Path, configured: str | None) -> bytes:
         return value
 
 
-def _sign(secret: bytes, job_id: str, expires: int) -> str:
-    mac = hmac.new(secret, f"page:{job_id}:{expires}".encode(), hashlib.sha256).digest()
+def _sign(secret: bytes, job_id: str, link_id: str, expires: int) -> str:
+    message = f"share:{job_id}:{link_id}:{expires}".encode()
+    mac = hmac.new(secret, message, hashlib.sha256).digest()
     return base64.urlsafe_b64encode(mac).rstrip(b"=").decode("ascii")
 
 
-def make_token(
-    secret: bytes, job_id: str, ttl: int, *, now: float | None = None
-) -> tuple[str, int]:
-    """A token for ``job_id`` valid for ``ttl`` seconds; returns ``(token, expires)``."""
-    expires = int((time.time() if now is None else now) + ttl)
-    return f"{job_id}.{expires}.{_sign(secret, job_id, expires)}", expires
+def make_token(secret: bytes, job_id: str, link_id: str, expires: int) -> str:
+    """The token of link ``link_id`` of ``job_id``, valid until ``expires`` (unix time)."""
+    return f"{job_id}.{link_id}.{expires}.{_sign(secret, job_id, link_id, expires)}"
 
 
-def check_token(
-    secret: bytes, token: str | bytes, job_id: str, *, now: float | None = None
-) -> None:
-    """Raise :class:`TokenError` unless ``token`` opens ``job_id`` right now.
+def check_token(secret: bytes, token: str | bytes, job_id: str, *, now: float | None = None) -> str:
+    """The link id of ``token``; raise :class:`TokenError` unless it opens ``job_id`` now.
+
+    The caller still checks that the link is recorded and not revoked.
 
     Examples
     --------
-    >>> token, _ = make_token(b"k" * 32, "a" * 32, 60, now=0)
+    >>> token = make_token(b"k" * 32, "a" * 32, "0123456789abcdef", 60)
     >>> check_token(b"k" * 32, token, "a" * 32, now=30)
+    '0123456789abcdef'
     >>> check_token(b"k" * 32, "a.².b", "a" * 32)
     Traceback (most recent call last):
     ...
@@ -85,11 +81,12 @@ def check_token(
     match = _SHAPE.fullmatch(token) if token.isascii() else None
     if match is None:
         raise TokenError("malformed token")
-    token_job, expires_text, signature = match.groups()
+    token_job, link_id, expires_text, signature = match.groups()
     expires = int(expires_text)
-    if not hmac.compare_digest(_sign(secret, token_job, expires), signature):
+    if not hmac.compare_digest(_sign(secret, token_job, link_id, expires), signature):
         raise TokenError("invalid token")
     if not (is_job_id(job_id) and hmac.compare_digest(token_job, job_id)):
         raise TokenError("the token is for another job")
     if expires < (time.time() if now is None else now):
-        raise TokenError("the token has expired")
+        raise TokenError("the link has expired")
+    return link_id

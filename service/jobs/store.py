@@ -6,7 +6,9 @@ writes. A database that is locked for longer than the busy timeout, or a full di
 :class:`StoreUnavailable`, which the service answers with 503.
 
 Job states are :class:`~haarline.service.jobs.states.JobState` members, bound as SQL
-parameters. Every state change is recorded in ``events`` with its time. A finished job is
+parameters. Every state change is recorded in ``events`` with its time; a job that ends
+with a ``callback_url`` queues its notification in the same transaction
+(:func:`haarline.service.jobs.outbox.enqueue_end`). A finished job is
 deleted only on request (``DELETE`` of its URL) or by retention
 (``HAARLINE_RETENTION_DAYS``), with its events, result and PNGs. The tables and their
 migrations are in :mod:`haarline.service.jobs.migrations`.
@@ -16,17 +18,19 @@ from __future__ import annotations
 
 import json
 import re
+import secrets
 import shutil
 import sqlite3
 import time
 import uuid
-from collections.abc import Iterator
-from contextlib import contextmanager
+from collections.abc import Iterator, Sequence
+from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
 from typing import Any
 
 from haarline.service.errors import StoreUnavailable
 from haarline.service.jobs.migrations import migrate
+from haarline.service.jobs.outbox import enqueue_end
 from haarline.service.jobs.states import ACTIVE, FINAL, JobState
 
 __all__ = ["JOB_ID", "JobState", "Store", "StoreUnavailable", "is_job_id"]
@@ -78,6 +82,13 @@ class Store:
             raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
         finally:
             conn.close()
+
+    def connect(self) -> AbstractContextManager[sqlite3.Connection]:
+        """A connection (autocommit, rows by name) for modules with tables of their own.
+
+        Errors are translated as in every store call (:class:`StoreUnavailable`).
+        """
+        return self._connect()
 
     def initialize(self) -> list[int]:
         """Switch the file to WAL mode and bring its schema up to date; return the migrations run.
@@ -157,8 +168,14 @@ class Store:
         request: dict[str, Any],
         request_hash: str,
         idempotency_key: str | None = None,
+        labels: dict[str, str] | None = None,
+        callback_url: str | None = None,
+        work: float | None = None,
     ) -> tuple[dict[str, Any], bool]:
         """Insert a queued job; with an idempotency key already used, return the old one.
+
+        ``callback_url`` is notified when the job ends; ``work`` is its estimated work
+        (admission's), which the ``Retry-After`` of a full queue reads.
 
         Returns
         -------
@@ -176,9 +193,11 @@ class Store:
                 if row is not None:
                     conn.execute("COMMIT")
                     return _job(row), False
+            labels = dict(sorted((labels or {}).items()))
             conn.execute(
                 "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
-                "state, created, updated) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                "state, created, updated, labels, callback_url, work) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (
                     job_id,
                     owner,
@@ -189,7 +208,14 @@ class Store:
                     JobState.QUEUED,
                     now,
                     now,
+                    json.dumps(labels),
+                    callback_url,
+                    work,
                 ),
+            )
+            conn.executemany(
+                "INSERT INTO job_labels (job_id, key, value) VALUES (?, ?, ?)",
+                [(job_id, k, v) for k, v in labels.items()],
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
@@ -232,8 +258,8 @@ class Store:
             )
             conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', cached = 1, "
-                "updated = ? WHERE id = ?",
-                (JobState.SUCCEEDED, now, job_id),
+                "updated = ?, policy = (SELECT policy FROM jobs WHERE id = ?) WHERE id = ?",
+                (JobState.SUCCEEDED, now, source_id, job_id),
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
@@ -244,6 +270,7 @@ class Store:
                     "answered from the stored result of an identical request",
                 ),
             )
+            enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
         return True
 
@@ -278,16 +305,45 @@ class Store:
         return job
 
     def list_jobs(
-        self, owner: str, *, kind: str | None = None, limit: int = 50, offset: int = 0
-    ) -> list[dict[str, Any]]:
-        """An owner's jobs (of one kind, when given), newest first."""
+        self,
+        owner: str,
+        *,
+        kind: str | None = None,
+        limit: int = 50,
+        labels: Sequence[tuple[str, str | None]] = (),
+        states: Sequence[JobState] = (),
+        before: tuple[float, str] | None = None,
+    ) -> tuple[list[dict[str, Any]], int]:
+        """An owner's jobs newest first, and how many match in all.
+
+        ``labels`` are ``(key, value)`` pairs every job must carry (``value`` ``None``: any
+        value); ``states`` the states allowed (empty: all); ``before`` a cursor
+        ``(created, id)``: only jobs strictly after it in the order (newest first, ties by
+        id), so pages never repeat or skip a job while new ones arrive.
+        """
+        where = ["owner = ?", "(? IS NULL OR kind = ?)"]
+        args: list[Any] = [owner, kind, kind]
+        for key, value in labels:
+            where.append(
+                "EXISTS (SELECT 1 FROM job_labels l WHERE l.job_id = jobs.id AND l.key = ?"
+                + (" AND l.value = ?)" if value is not None else ")")
+            )
+            args += [key] if value is None else [key, value]
+        if states:
+            where.append(f"state IN ({_marks(tuple(states))})")
+            args += list(states)
+        condition = " AND ".join(where)
+        page_condition, page_args = condition, list(args)
+        if before is not None:
+            page_condition += " AND (created < ? OR (created = ? AND id < ?))"
+            page_args += [before[0], before[0], before[1]]
         with self._connect() as conn:
             rows = conn.execute(
-                "SELECT * FROM jobs WHERE owner = ? AND (? IS NULL OR kind = ?) "
-                "ORDER BY created DESC LIMIT ? OFFSET ?",
-                (owner, kind, kind, limit, offset),
+                f"SELECT * FROM jobs WHERE {page_condition} ORDER BY created DESC, id DESC LIMIT ?",
+                (*page_args, limit),
             ).fetchall()
-        return [_job(r) for r in rows]
+            total = conn.execute(f"SELECT count(*) FROM jobs WHERE {condition}", args).fetchone()
+        return [_job(r) for r in rows], int(total[0])
 
     def active_count(self, owner: str) -> int:
         """Queued or running jobs of an owner."""
@@ -411,15 +467,18 @@ class Store:
                     "INSERT OR REPLACE INTO artifacts (job_id, name, content) VALUES (?, ?, ?)",
                     (job_id, name, content),
                 )
-            conn.execute(
+            status = _policy_status(report)
+            cur = conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', "
-                "updated = ? WHERE id = ? AND state = ?",
-                (JobState.SUCCEEDED, now, job_id, JobState.RUNNING),
+                "updated = ?, policy = ? WHERE id = ? AND state = ?",
+                (JobState.SUCCEEDED, now, status, job_id, JobState.RUNNING),
             )
             conn.execute(
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
                 (job_id, JobState.SUCCEEDED, now),
             )
+            if cur.rowcount:
+                enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
 
     def mark(self, job_id: str, state: JobState, *, error: str | None = None) -> None:
@@ -439,6 +498,8 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, state, now, error),
                 )
+                if state in FINAL:
+                    enqueue_end(conn, job_id, state, now)
             conn.execute("COMMIT")
 
     def request_cancel(self, job_id: str) -> JobState | None:
@@ -463,6 +524,7 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, JobState.CANCELLED, now, "cancelled before it started"),
                 )
+                enqueue_end(conn, job_id, JobState.CANCELLED, now)
                 state = JobState.CANCELLED
             elif state is JobState.RUNNING:
                 conn.execute("UPDATE jobs SET cancel = 1, updated = ? WHERE id = ?", (now, job_id))
@@ -503,6 +565,46 @@ class Store:
             conn.execute("COMMIT")
         return len(ids)
 
+    # --- share links ------------------------------------------------------------------------
+
+    def add_link(self, job_id: str, owner: str, expires: int) -> str:
+        """Record a new share link of a job; return its id."""
+        link_id = secrets.token_hex(8)
+        with self._connect() as conn:
+            conn.execute(
+                "INSERT INTO links (id, job_id, owner, created, expires) VALUES (?, ?, ?, ?, ?)",
+                (link_id, job_id, owner, time.time(), expires),
+            )
+        return link_id
+
+    def links(self, job_id: str) -> list[dict[str, Any]]:
+        """A job's share links, oldest first (revoked and expired ones too)."""
+        with self._connect() as conn:
+            rows = conn.execute(
+                "SELECT id, created, expires, revoked FROM links WHERE job_id = ? "
+                "ORDER BY created, id",
+                (job_id,),
+            ).fetchall()
+        return [dict(r) for r in rows]
+
+    def link_open(self, link_id: str, job_id: str) -> bool:
+        """Whether a link of this job exists and has not been revoked (expiry is signed)."""
+        with self._connect() as conn:
+            row = conn.execute(
+                "SELECT 1 FROM links WHERE id = ? AND job_id = ? AND revoked IS NULL",
+                (link_id, job_id),
+            ).fetchone()
+        return row is not None
+
+    def revoke_link(self, link_id: str, job_id: str) -> bool:
+        """Revoke a link; ``False`` if the job has no such link not yet revoked."""
+        with self._connect() as conn:
+            cur = conn.execute(
+                "UPDATE links SET revoked = ? WHERE id = ? AND job_id = ? AND revoked IS NULL",
+                (time.time(), link_id, job_id),
+            )
+        return cur.rowcount == 1
+
     def result(self, job_id: str) -> tuple[dict[str, Any], str] | None:
         """The stored report and Markdown of a finished job."""
         with self._connect() as conn:
@@ -534,10 +636,32 @@ def _job(row: sqlite3.Row) -> dict[str, Any]:
     job["request"] = json.loads(job["request"])
     job["cancel"] = bool(job["cancel"])
     job["cached"] = bool(job["cached"])
+    job["labels"] = json.loads(job.get("labels") or "{}")
     return job
 
 
+_RANK = {"pass": 0, "warn": 1, "fail": 2}
+
+
+def _policy_status(result: dict[str, Any]) -> str | None:
+    """A report's policy status, or a comparison's worst over its circuits (or ``None``)."""
+    policy = result.get("policy")
+    if isinstance(policy, dict):
+        return str(policy.get("status"))
+    ranking = result.get("ranking") or []
+    found = [str(r["policy"]) for r in ranking if isinstance(r, dict) and r.get("policy") in _RANK]
+    return max(found, key=_RANK.__getitem__) if found else None
+
+
 def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
-    """Delete what belongs to deleted jobs (inside the caller's transaction)."""
-    for table in ("events", "results", "artifacts"):
+    """Delete what belongs to deleted jobs (inside the caller's transaction).
+
+    A job's notifications go with it, a pending one too (its attempts are not made).
+    """
+    conn.executemany(
+        "DELETE FROM delivery_attempts WHERE delivery_id IN "
+        "(SELECT id FROM deliveries WHERE job_id = ?)",
+        [(i,) for i in ids],
+    )
+    for table in ("events", "results", "artifacts", "deliveries", "job_labels", "links"):
         conn.executemany(f"DELETE FROM {table} WHERE job_id = ?", [(i,) for i in ids])

@@ -102,18 +102,31 @@ def run_request(
     options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
     context = haarline.Context(memory_budget=memory_budget, progress=progress, scheduler=scheduler)
     data = haarline.dataset_from(request["data"]) if request.get("data") else None
+    policy = haarline.parse_policy(request["policy"]) if request.get("policy") else None
+
+    def judged(report: dict[str, Any]) -> dict[str, Any]:
+        if policy is not None:
+            try:
+                report["policy"] = haarline.evaluate_policy(policy, report)
+            except haarline.PolicyError as exc:
+                exc.problems = [
+                    haarline.Problem(f"options.policy.{p.path}", p.message) for p in exc.problems
+                ]
+                raise
+        return report
+
     if kind == "compare":
         reports, sources = [], []
         for i, spec in enumerate(request["circuits"]):
             circuit = circuit_of(spec)
-            reports.append(haarline.analyze(circuit, options, data=data, context=context))
+            reports.append(judged(haarline.analyze(circuit, options, data=data, context=context)))
             sources.append(spec.get("reference") or f"circuits[{i}]")
         result = haarline.compare_reports(reports, sources)
         images = haarline.comparison_files(reports)
         links = [f"plots/{name}" for name in sorted(images)]
         return result, api_wording(haarline.compare_markdown(result, images=links)), images
     circuit = circuit_of(request)
-    report = haarline.analyze(circuit, options, data=data, context=context)
+    report = judged(haarline.analyze(circuit, options, data=data, context=context))
     images = haarline.plot_files(report, haarline.expand(circuit))
     # relative to .../{id}/summary, "plots/NAME" is the plot's own URL
     links = [f"plots/{name}" for name in sorted(images)]

@@ -271,7 +271,7 @@ class GateBook:
         if modifier.argument is None:  # pragma: no cover - the grammar requires one
             raise _Fail(modifier, "'pow @' needs an exponent")
         value = _angle(modifier.argument, scope)
-        if value.terms:
+        if value.symbolic:
             raise _Fail(modifier, f"the exponent of 'pow({value}) @' must be a number{via}")
         k = value.constant
         if not k.is_integer():

@@ -125,7 +125,7 @@ def without_identities(pieces: Sequence[Piece]) -> list[Piece]:
         if not (
             _takes_angle(p.gate)
             and p.angle is not None
-            and not p.angle.terms
+            and not p.angle.symbolic
             and p.angle.constant == 0.0
         )
     ]

@@ -7,9 +7,9 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import MutableMapping
+from collections.abc import Mapping, MutableMapping
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypeVar
 
 from antlr4 import CommonTokenStream, InputStream
 from antlr4.error.ErrorListener import ErrorListener
@@ -32,36 +32,78 @@ _CONSTANTS = {
 
 # --------------------------------------------------------------------------- angles
 
+_K = TypeVar("_K", str, tuple[str, str])
+
 
 @dataclass(frozen=True)
 class _Value:
-    """An angle that is affine in the inputs: ``constant + Σ coefficient · input``."""
+    """An angle that is a polynomial of degree two at most in the inputs.
+
+    ``constant + Σ coefficient · input + Σ coefficient · input_a · input_b``: affine forms
+    are trainable angles (one input, coefficient 1) and scaled data inputs; the product
+    terms carry the second-order feature map ``s (π - x_a)(π - x_b)``.
+    """
 
     constant: float
     terms: tuple[tuple[str, float], ...] = ()
+    pairs: tuple[tuple[tuple[str, str], float], ...] = ()
 
     @staticmethod
     def of_input(name: str) -> _Value:
         return _Value(0.0, ((name, 1.0),))
 
+    @property
+    def symbolic(self) -> bool:
+        """Whether the value depends on any input."""
+        return bool(self.terms or self.pairs)
+
     def plus(self, other: _Value, sign: float = 1.0) -> _Value:
         coef = dict(self.terms)
         for name, c in other.terms:
             coef[name] = coef.get(name, 0.0) + sign * c
-        return _Value(self.constant + sign * other.constant, _clean(coef))
+        pair = dict(self.pairs)
+        for key, c in other.pairs:
+            pair[key] = pair.get(key, 0.0) + sign * c
+        return _Value(self.constant + sign * other.constant, _clean(coef), _clean(pair))
 
     def times(self, factor: float) -> _Value:
-        return _Value(self.constant * factor, _clean({n: c * factor for n, c in self.terms}))
+        return _Value(
+            self.constant * factor,
+            _clean({n: c * factor for n, c in self.terms}),
+            _clean({k: c * factor for k, c in self.pairs}),
+        )
 
     def over(self, divisor: float) -> _Value:
-        return _Value(self.constant / divisor, _clean({n: c / divisor for n, c in self.terms}))
+        return _Value(
+            self.constant / divisor,
+            _clean({n: c / divisor for n, c in self.terms}),
+            _clean({k: c / divisor for k, c in self.pairs}),
+        )
+
+    def product(self, other: _Value) -> _Value:
+        """The product of two affine values (a polynomial of degree two)."""
+        out = other.times(self.constant)
+        coef = dict(out.terms)
+        for name, c in self.terms:
+            coef[name] = coef.get(name, 0.0) + c * other.constant
+        pair: dict[tuple[str, str], float] = dict(out.pairs)
+        for a, ca in self.terms:
+            for b, cb in other.terms:
+                key = (min(a, b), max(a, b))
+                pair[key] = pair.get(key, 0.0) + ca * cb
+        return _Value(out.constant, _clean(coef), _clean(pair))
 
     def finite(self) -> bool:
-        return math.isfinite(self.constant) and all(math.isfinite(c) for _, c in self.terms)
+        return (
+            math.isfinite(self.constant)
+            and all(math.isfinite(c) for _, c in self.terms)
+            and all(math.isfinite(c) for _, c in self.pairs)
+        )
 
     def __str__(self) -> str:
         parts = []
-        for name, c in self.terms:
+        named = [(f"{a}*{b}", c) for (a, b), c in self.pairs] + list(self.terms)
+        for name, c in named:
             text = name if abs(c) == 1.0 else f"{_number(abs(c))}*{name}"
             parts.append(("- " if c < 0 else "+ ") + text)
         if self.constant or not parts:
@@ -74,8 +116,8 @@ def _number(x: float) -> str:
     return str(int(x)) if x.is_integer() and abs(x) < 1e15 else repr(x)
 
 
-def _clean(coef: dict[str, float]) -> tuple[tuple[str, float], ...]:
-    return tuple(sorted((n, c) for n, c in coef.items() if c != 0.0))
+def _clean(coef: Mapping[_K, float]) -> tuple[tuple[_K, float], ...]:
+    return tuple(sorted(((n, c) for n, c in coef.items() if c != 0.0), key=lambda item: item[0]))
 
 
 Scope = MutableMapping[str, "int | _Value"]
@@ -126,7 +168,7 @@ def _lookup(node: ast.Identifier, scope: Scope) -> int | _Value:
 
 
 def _angle(node: Any, scope: Scope) -> _Value:
-    """Evaluate an angle expression into an affine form over the inputs."""
+    """Evaluate an angle expression into a polynomial (degree two at most) in the inputs."""
     if isinstance(node, ast.IntegerLiteral):
         try:
             value = _Value(float(node.value))
@@ -158,18 +200,20 @@ def _binary_angle(node: ast.BinaryExpression, scope: Scope) -> _Value:
     if op in ("+", "-"):
         return a.plus(b, 1.0 if op == "+" else -1.0)
     if op == "*":
-        if not a.terms:
+        if not a.symbolic:
             return b.times(a.constant)
-        if not b.terms:
+        if not b.symbolic:
             return a.times(b.constant)
-        raise _Fail(node, f"the product ({a}) * ({b}) of two inputs is not supported")
-    if b.terms:
+        if a.pairs or b.pairs:
+            raise _Fail(node, f"the product ({a}) * ({b}) has a degree above two in the inputs")
+        return a.product(b)
+    if b.symbolic:
         raise _Fail(node, f"dividing by or raising to an input ({b}) is not supported")
     if op == "/":
         if b.constant == 0.0:
             raise _Fail(node, "division by zero")
         return a.over(b.constant)
-    if a.terms:
+    if a.symbolic:
         raise _Fail(node, f"raising an input ({a}) to a power is not supported")
     try:
         return _Value(math.pow(a.constant, b.constant))

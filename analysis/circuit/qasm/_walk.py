@@ -2,13 +2,16 @@
 
 :class:`Reader` handles the top-level declarations (include, the one qubit register,
 inputs), runs gate calls, ``gphase``, barriers and ``for`` loops, bounds the work, and turns
-each haarline gate a call expands to into a format-1 step (``on`` explicit, ``angle`` or
-``param``). What a gate call means is :mod:`haarline.circuit.qasm._gates`; the entry point
+each haarline gate a call expands to into a format-1 step (``on`` explicit, ``angle``,
+``param`` or a data ``input``). Inputs that the data marker (:data:`DATA_PRAGMA`) names
+are data features (feature ``k`` is the ``k``-th name), every other input is a trainable
+parameter. What a gate call means is :mod:`haarline.circuit.qasm._gates`; the entry point
 and the supported subset are :mod:`haarline.circuit.qasm.parse`.
 """
 
 from __future__ import annotations
 
+import math
 import re
 from collections import ChainMap
 from collections.abc import Iterable
@@ -28,6 +31,18 @@ _MAX_WORK = 100_000
 """Statements and loop iterations run while reading one program."""
 
 _PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,63}")
+
+DATA_PRAGMA = "haarline data"
+"""What marks inputs as data features, in order: the pragma ``pragma haarline data x0 x1``
+or the comment ``// haarline data: x0 x1`` (which :func:`to_qasm` writes, since some
+widely used importers refuse every pragma, and a comment leaves the file readable there,
+with the data inputs read as ordinary parameters)."""
+
+DATA_COMMENT = re.compile(r"^[ \t]*//[ \t]*haarline data:(.*)$", re.M)
+"""The comment form of the data marker (one per program)."""
+
+_REL = 1e-12
+"""Relative tolerance when matching the constant of a product map ``s (π - a)(π - b)``."""
 
 
 MAX_FAILURES = 20
@@ -51,10 +66,15 @@ class Reader:
         self.constants: dict[str, int | _Value] = {k: _Value(v) for k, v in _CONSTANTS.items()}
         self.scope: ChainMap[str, int | _Value] = ChainMap(self.inputs, self.constants)
         self.steps: list[dict[str, Any]] = []
+        self.data: dict[str, int] = {}  # data input name -> feature index
+        self.data_node: ast.Pragma | None = None
+        self.data_marker: str | None = None  # what named the data inputs, for messages
         self.work = 0
         self.book = GateBook(version, self.constants, self._tick)
 
-    def read(self, program: ast.Program) -> list[dict[str, Any]]:
+    def read(
+        self, program: ast.Program, comment: tuple[int, list[str]] | None = None
+    ) -> list[dict[str, Any]]:
         """Read the program; return its format-1 steps in program order.
 
         Every statement is read even after one fails, so one run reports the problems of
@@ -67,7 +87,18 @@ class Reader:
             When any statement failed, with every failure in order.
         """
         failures: list[_Fail] = []
+        if comment is not None:
+            line, names = comment
+            self._mark(names, None, f"the comment '// {DATA_PRAGMA}:' on line {line}")
         for statement in program.statements:
+            if isinstance(statement, ast.Pragma):
+                try:
+                    self._pragma(statement)
+                except _Fail as exc:
+                    raise Failures([exc]) from None
+        for statement in program.statements:
+            if isinstance(statement, ast.Pragma):
+                continue
             declaration = isinstance(
                 statement, (ast.Include, ast.QubitDeclaration, ast.IODeclaration)
             )
@@ -79,6 +110,13 @@ class Reader:
                     break
         if failures:
             raise Failures(failures)
+        undeclared = [name for name in self.data if name not in self.inputs]
+        if undeclared:
+            raise _Fail(
+                self.data_node,
+                f"{self.data_marker} names {', '.join(map(repr, undeclared))}, which no "
+                "'input angle[...]' or 'input float[...]' declares",
+            )
         if self.register is None:
             raise _Fail(None, "no qubit register is declared (expected 'qubit[n] q;')")
         if not self.steps:
@@ -97,6 +135,36 @@ class Reader:
             self.book.define(statement)
         else:
             self._run(statement, self.scope)
+
+    def _pragma(self, statement: ast.Pragma) -> None:
+        command = statement.command.strip()
+        words = (command[:-1] if command.endswith(";") else command).split()
+        if words[:2] != DATA_PRAGMA.split():
+            raise _Fail(
+                statement,
+                f"the pragma '{command[:60]}' is not supported; the one pragma read is "
+                f"'pragma {DATA_PRAGMA} NAME ...', which marks inputs as data features",
+            )
+        self._mark(words[2:], statement, f"'pragma {DATA_PRAGMA}'")
+
+    def _mark(self, names: list[str], node: Any, what: str) -> None:
+        """Make ``names`` the data features, in order (from the pragma or the comment)."""
+        if self.data_marker is not None:
+            raise _Fail(
+                node,
+                f"{what} names data inputs a second time (after {self.data_marker}); name "
+                "every feature once",
+            )
+        self.data_marker = what
+        self.data_node = node
+        if not names:
+            raise _Fail(node, f"{what} names no input; give the names of the data inputs")
+        for name in names:
+            if not _PARAM_NAME.fullmatch(name):
+                raise _Fail(node, f"{what}: '{name[:70]}' is not an input name")
+            if name in self.data:
+                raise _Fail(node, f"{what} names the data input '{name}' twice")
+            self.data[name] = len(self.data)
 
     def _tick(self, node: Any) -> None:
         self.work += 1
@@ -222,19 +290,79 @@ class Reader:
         on: list[Any] = [app.qubits[0]] if len(app.qubits) == 1 else [list(app.qubits)]
         step: dict[str, Any] = {"gate": app.gate, "on": on}
         if app.angle is not None:
-            value = app.angle
-            if not value.terms:
-                step["angle"] = value.constant
-            elif value.constant == 0.0 and len(value.terms) == 1 and value.terms[0][1] == 1.0:
-                step["param"] = value.terms[0][0]
-            else:
+            step.update(self._angle_keys(app))
+        self.steps.append(step)
+
+    def _angle_keys(self, app: Piece) -> dict[str, Any]:
+        """The step keys of a gate's angle: ``angle``, ``param`` or ``input`` and ``scale``."""
+        value = app.angle
+        assert value is not None
+        if not value.symbolic:
+            return {"angle": value.constant}
+        names = {n for n, _ in value.terms} | {n for pair, _ in value.pairs for n in pair}
+        data = names & self.data.keys()
+        if not data:
+            if value.constant == 0.0 and len(value.terms) == 1 and value.terms[0][1] == 1.0:
+                return {"param": value.terms[0][0]}
+            if value.pairs:
                 raise _Fail(
                     app.node,
-                    f"the angle {value} cannot be represented{app.via}: a haarline step takes a "
-                    "number or one input exactly as declared, not a scaled or shifted input "
-                    "(declare a separate input for this angle)",
+                    f"the angle {value} cannot be represented{app.via}: a product of inputs "
+                    f"is read only for data inputs (named by 'pragma {DATA_PRAGMA} ...')",
                 )
-        self.steps.append(step)
+            raise _Fail(
+                app.node,
+                f"the angle {value} cannot be represented{app.via}: a trainable angle is a "
+                "number or one input exactly as declared, not a scaled or shifted input "
+                "(declare a separate input for this angle, or mark data inputs with "
+                f"'pragma {DATA_PRAGMA} ...')",
+            )
+        if data != names:
+            raise _Fail(
+                app.node,
+                f"the angle {value} mixes data inputs ({', '.join(sorted(data))}) and trainable "
+                f"inputs ({', '.join(sorted(names - data))}){app.via}; a haarline angle is "
+                "either trainable or computed from the data",
+            )
+        if not value.pairs:
+            if len(value.terms) == 1 and value.constant == 0.0:
+                name, scale = value.terms[0]
+                return _scaled({"input": self.data[name]}, scale)
+            raise _Fail(
+                app.node,
+                f"the angle {value} cannot be represented{app.via}: a data angle is s*x for "
+                "one data input x, or s*(pi - x_a)*(pi - x_b) on a two-qubit gate, with no "
+                "offset",
+            )
+        return self._product(app, value)
+
+    def _product(self, app: Piece, value: _Value) -> dict[str, Any]:
+        """``s (π - x_a)(π - x_b)`` on qubits ``(a, b)``: format 1's ``"input": "product"``."""
+        ((a, b), s) = value.pairs[0]
+        pi = math.pi
+        expected = {a: -pi * s, b: -pi * s}
+        matches = (
+            len(value.pairs) == 1
+            and a != b
+            and len(value.terms) == 2
+            and all(math.isclose(c, expected.get(n, 0.0), rel_tol=_REL) for n, c in value.terms)
+            and math.isclose(value.constant, pi * pi * s, rel_tol=_REL)
+        )
+        if not matches:
+            raise _Fail(
+                app.node,
+                f"the angle {value} cannot be represented{app.via}: a product of data inputs is "
+                "read only in the form s*(pi - x_a)*(pi - x_b)",
+            )
+        features = sorted((self.data[a], self.data[b]))
+        if len(app.qubits) != 2 or sorted(app.qubits) != features:
+            raise _Fail(
+                app.node,
+                f"the product map of features {features[0]} and {features[1]} is applied to "
+                f"qubits {', '.join(map(str, app.qubits))}{app.via}; format 1 applies "
+                "s*(pi - x_a)*(pi - x_b) only to the qubit pair (a, b) itself",
+            )
+        return _scaled({"input": "product"}, s)
 
     def _loop(self, statement: ast.ForInLoop, scope: Scope) -> None:
         if not isinstance(statement.type, (ast.IntType, ast.UintType)):
@@ -261,3 +389,7 @@ class Reader:
                 raise _Fail(spec, "a loop range cannot have step 0")
             return range(start, end + (1 if step > 0 else -1), step)
         raise _Fail(spec, "loops run over a range [a:b] or a set {a, b, ...} of integers")
+
+
+def _scaled(step: dict[str, Any], scale: float) -> dict[str, Any]:
+    return step if scale == 1.0 else {**step, "scale": scale}

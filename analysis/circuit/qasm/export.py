@@ -7,8 +7,8 @@ into the same states (``tests/test_qasm_interchange.py`` checks one).
 
 from __future__ import annotations
 
-from haarline.circuit.program import Program
-from haarline.errors import CircuitError, Problem
+from haarline.circuit.program import Encoding, Program
+from haarline.circuit.qasm._walk import DATA_PRAGMA
 
 __all__ = ["to_qasm"]
 
@@ -43,27 +43,43 @@ _RESERVED = frozenset(
 )
 
 
-def _input_names(program: Program) -> list[str]:
-    """One OpenQASM identifier per parameter: its name if it is free, else a fresh one."""
+def _input_names(program: Program) -> tuple[list[str], list[str]]:
+    """OpenQASM identifiers of the parameters and of the data features.
+
+    A parameter keeps its name if it is free, else gets a fresh one; feature ``k`` is
+    ``x_k`` (or a fresh name if a parameter took that).
+    """
     given = list(program.parameter_names) + [None] * program.parameters
     taken = set(_RESERVED)
     out: list[str | None] = [None] * program.parameters
+    features: list[str] = []
 
-    def claim(p: int, wanted: str) -> None:
+    def claim(wanted: str) -> str:
         name, k = wanted, 1
         while name in taken:
             name = f"{wanted[:58]}_{k}"
             k += 1
         taken.add(name)
-        out[p] = name
+        return name
 
     for p in range(program.parameters):  # named parameters first, so they keep their names
         if given[p] is not None:
-            claim(p, str(given[p]))
+            out[p] = claim(str(given[p]))
     for p in range(program.parameters):
         if out[p] is None:
-            claim(p, f"theta_{p}")
-    return [str(name) for name in out]
+            out[p] = claim(f"theta_{p}")
+    features = [claim(f"x_{k}") for k in range(program.inputs)]
+    return [str(name) for name in out], features
+
+
+def _encoded_angle(encoding: Encoding, features: list[str]) -> str:
+    """``s*x`` or ``s*(pi - x_a)*(pi - x_b)``, the factor left out when ``s`` is 1."""
+    if encoding.product:
+        a, b = (features[f] for f in encoding.features)
+        text = f"(pi - {a})*(pi - {b})"
+    else:
+        text = features[encoding.features[0]]
+    return text if encoding.scale == 1.0 else f"{float(encoding.scale)!r}*{text}"
 
 
 def to_qasm(program: Program) -> str:
@@ -79,14 +95,17 @@ def to_qasm(program: Program) -> str:
     str
         A ``// circuit: NAME`` comment, ``OPENQASM 3.0;``, ``include "stdgates.inc";``,
         definitions of ``rxx``/``ryy``/``rzz`` if used (they are not in stdgates.inc),
-        ``input angle[64] NAME;`` per parameter in index order, ``qubit[n] q;`` and one line
-        per operation. Parameter ``p`` is named ``program.parameter_names[p]`` or
-        ``theta_<p>``; a name that is an OpenQASM keyword, built-in or gate name, or already
-        taken, gets a suffix ``_1``, ``_2``, .... Fixed angles are written with
-        ``repr(float)``, so they read back exactly; gate ``i`` is written ``id`` and
-        ``cphase`` is written ``cp`` (stdgates.inc's ``cp(λ) = ctrl @ p(λ)`` is
-        ``diag(1, 1, 1, e^{iλ})``, the same matrix, global phase included, so it needs no
-        definition of its own).
+        ``input angle[64] NAME;`` per parameter in index order, for a circuit with data
+        inputs ``input float[64] x_k;`` per feature and the comment
+        ``// haarline data: x_0 x_1 ...`` that marks them, ``qubit[n] q;`` and one line
+        per operation. A data angle is written ``s*x_k`` or ``s*(pi - x_a)*(pi - x_b)``
+        (the factor ``s`` left out when it is 1). Parameter ``p`` is named
+        ``program.parameter_names[p]`` or ``theta_<p>``; a name that is an OpenQASM
+        keyword, built-in or gate name, or already taken, gets a suffix ``_1``, ``_2``, ....
+        Fixed angles are written with ``repr(float)``, so they read back exactly; gate
+        ``i`` is written ``id`` and ``cphase`` is written ``cp`` (stdgates.inc's
+        ``cp(λ) = ctrl @ p(λ)`` is ``diag(1, 1, 1, e^{iλ})``, the same matrix, global
+        phase included, so it needs no definition of its own).
 
     Notes
     -----
@@ -114,26 +133,20 @@ def to_qasm(program: Program) -> str:
     rx(0.5) q[1];
     <BLANKLINE>
     """
-    if program.encodings:
-        raise CircuitError(
-            [
-                Problem(
-                    "inputs",
-                    f"the circuit encodes {program.inputs} data inputs; OpenQASM export writes "
-                    "trainable parameters only, and has no agreed way yet to mark an input as "
-                    "data (export a copy without 'input' steps)",
-                )
-            ]
-        )
-    names = _input_names(program)
+    names, features = _input_names(program)
     title = " ".join(str(program.name).split()) or "circuit"
     lines = [f"// circuit: {title}", "OPENQASM 3.0;", 'include "stdgates.inc";']
     used = {op.gate for op in program.operations}
     lines += [text for gate, text in _DEFINITIONS.items() if gate in used]
     lines += [f"input angle[64] {name};" for name in names]
+    if features:
+        lines += [f"input float[64] {name};" for name in features]
+        lines.append(f"// {DATA_PRAGMA}: {' '.join(features)}")
     lines.append(f"qubit[{program.qubits}] q;")
     for op in program.operations:
-        if op.param is not None:
+        if op.encoding is not None:
+            args = f"({_encoded_angle(program.encodings[op.encoding], features)})"
+        elif op.param is not None:
             args = f"({names[op.param]})"
         elif op.angle is not None:
             args = f"({float(op.angle)!r})"

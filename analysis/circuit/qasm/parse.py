@@ -24,6 +24,16 @@ Supported subset
   a gate uses becomes a named parameter (step key ``param``), numbered in order of first
   use; an input no gate uses is not a parameter of the circuit. Names are ASCII letters,
   digits and ``_``, at most 64 characters.
+- **Data inputs.** ``// haarline data: x0 x1 ...`` (a comment, which :func:`to_qasm`
+  writes) or ``pragma haarline data x0 x1 ...`` (once per program) marks the named inputs
+  as data features: feature ``k`` is the ``k``-th name, the description gets ``inputs`` =
+  the number of names (an unused feature still counts). A gate angle made of data inputs
+  is ``s*x`` (step keys ``input: k``, ``scale: s``) or, on a two-qubit rotation of qubits
+  ``a`` and ``b``, ``s*(pi - x_a)*(pi - x_b)`` with ``x_a``, ``x_b`` the features of those
+  qubits (``input: "product"``); any other polynomial (an offset, ``x*y`` alone, a third
+  power, data and trainable inputs in one angle) is refused. The comment form exists
+  because some widely used importers refuse every pragma; they read the features as
+  ordinary parameters. Without a marker every input is trainable.
 - Gate calls ``name(angles) operands;`` on ``q[i]``; a one-qubit gate may also be applied
   to the whole register ``q``, one application per qubit in index order. ``gphase(γ);``
   (a global phase, which changes no metric: it is read as nothing) and ``gphase(γ) q;``.
@@ -85,12 +95,12 @@ input that only ``gphase`` uses is no parameter.
 
 Everything else is rejected with :class:`~haarline.errors.CircuitError` naming the line,
 the column and why: measurement, reset, classical bits and variables, ``if``, ``while``,
-``switch``, subroutines, ``defcal``/``cal``, ``delay``, ``box``, durations, pragmas,
+``switch``, subroutines, ``defcal``/``cal``, ``delay``, ``box``, durations, other pragmas,
 annotations, more than one register, physical qubits ``$0``, slices, unknown gates and
 inputs of other types; gates on three or more qubits (``ccx``, ``cswap``, ``ctrl @`` on a
 two-qubit gate, ``ctrl(2) @ x``) unless defined from smaller gates; ``pow(k) @`` with a
 non-integer ``k``; ``cu3`` without its definition (the published ``qelib1.inc`` versions
-differ by a phase on the control); and scaled or shifted inputs. Syntax errors from the
+differ by a phase on the control); and scaled or shifted trainable inputs. Syntax errors from the
 parser are reported the same way. At most 1000 gate applications are read (format 1
 allows 1000 steps in ``layer``), and at most 256 KiB of text (the parser reads roughly
 2000 lines a second).
@@ -113,7 +123,7 @@ from pathlib import PurePath
 from haarline.circuit.model import Circuit, parse_circuit
 from haarline.circuit.qasm._standard import STANDARD_GATES
 from haarline.circuit.qasm._syntax import _Fail, _problem, _syntax_tree, _where
-from haarline.circuit.qasm._walk import Failures, Reader
+from haarline.circuit.qasm._walk import DATA_COMMENT, Failures, Reader
 from haarline.circuit.text import bounded_text
 from haarline.errors import CircuitError, Problem
 
@@ -189,8 +199,15 @@ def parse_qasm(text: str | bytes, *, source: str | None = None) -> Circuit:
     text = text.removeprefix("\ufeff")
     tree = _syntax_tree(text, source)
     reader = Reader(tree.version)
+    marks = list(DATA_COMMENT.finditer(text))
+    if len(marks) > 1:
+        line = text.count("\n", 0, marks[1].start()) + 1
+        raise _problem(f"line {line}: a second '// haarline data:' comment", source)
+    comment = None
+    if marks:
+        comment = (text.count("\n", 0, marks[0].start()) + 1, marks[0][1].split())
     try:
-        steps = reader.read(tree)
+        steps = reader.read(tree, comment)
     except Failures as many:
         problems = []
         for exc in many.failures:
@@ -208,4 +225,6 @@ def parse_qasm(text: str | bytes, *, source: str | None = None) -> Circuit:
         "layers": 1,
         "layer": steps,
     }
+    if reader.data:
+        data["inputs"] = len(reader.data)
     return parse_circuit(data, source=source)

@@ -2,33 +2,118 @@
 
 The same routes serve analyses (``/v1/analyses``) and comparisons (``/v1/comparisons``).
 A key sees only its own jobs: another key's job id answers 404, exactly like an unknown id.
+The report, summary and plots also open with a share token (``?token=``,
+:mod:`haarline.service.api.access`). Listings filter by labels and state and page with a
+cursor (``next`` in the body and a ``Link: <…>; rel="next"`` header), newest first.
 A finished job's report, summary and plots never change: they carry a strong ``ETag`` and
 ``Cache-Control: …, immutable``, and ``If-None-Match`` gives 304
 (:mod:`haarline.service.api.http`). A job's status may change at any time
-(``Cache-Control: no-store``). ``DELETE`` cancels an active job (202) and deletes a
-finished one with its outputs (204).
+(``Cache-Control: no-store``); ``?wait=S`` holds the answer until it does, or for S
+seconds (:mod:`haarline.service.api.watch`). ``DELETE`` cancels an active job (202) and
+deletes a finished one with its outputs (204). A job's ``callback_url`` is checked here
+(:mod:`haarline.service.jobs.destinations`); its notifications, event stream and secret
+routes are in :mod:`haarline.service.api.routes.notify`.
 """
 
+import base64
+import binascii
 import re
 from typing import Annotated, Any
+from urllib.parse import urlencode
 
+import haarline
 from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, Response
+from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
+from haarline.service.api.access import SHARED_READ, Token, readable_job, summary_links
 from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
-from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDep
+from haarline.service.api.deps import (
+    CallerDep,
+    KeyOwnerDep,
+    PageSecretDep,
+    RunnerDep,
+    SettingsDep,
+    StoreDep,
+)
 from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.problems import problem_response, problem_responses
-from haarline.service.api.schemas import AnalysisCreate, CompareCreate, JobPublic, job_public
+from haarline.service.api.schemas import (
+    LABEL_KEY,
+    AnalysisCreate,
+    CompareCreate,
+    JobPage,
+    JobPublic,
+    job_public,
+)
+from haarline.service.api.watch import MAX_WAIT, next_change
+from haarline.service.errors import CallbackRefused
+from haarline.service.jobs import outbox
 from haarline.service.jobs.backoff import full_queue_wait
+from haarline.service.jobs.destinations import check_destination
 from haarline.service.jobs.space import require_free_space
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store, is_job_id
+from haarline.service.settings import Settings
 
 __all__ = ["analyses", "comparisons"]
 
 PLOT_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,60}\.png$")
-MAX_OFFSET = 1_000_000_000
-"""Largest listing offset (SQLite integers stop at 2**63 - 1; a 422 rather than a 500)."""
+_LABEL_KEY = re.compile(LABEL_KEY)
+_CURSOR = re.compile(r"^([0-9]{1,12}(?:\.[0-9]{1,17})?):([0-9a-f]{32})$")
+"""A decoded listing cursor: the ``created`` time and the id of the last job shown."""
+
+LabelFilter = Annotated[
+    list[str] | None,
+    Query(
+        alias="label",
+        max_length=20,
+        description="`key:value` (or `key`, any value) that a job's labels must have; repeat "
+        "to require several.",
+    ),
+]
+StateFilter = Annotated[
+    list[JobState] | None,
+    Query(alias="state", max_length=5, description="Only jobs in these states (repeatable)."),
+]
+
+
+def _label_filters(given: list[str] | None) -> list[tuple[str, str | None]]:
+    out: list[tuple[str, str | None]] = []
+    for i, text in enumerate(given or []):
+        key, sep, value = text.partition(":")
+        if not _LABEL_KEY.fullmatch(key) or (sep and not value) or len(value) > 200:
+            raise haarline.OptionError(
+                [
+                    haarline.Problem(
+                        f"label[{i}]",
+                        f"{text[:80]!r} is not a label filter; expected key:value or key, the "
+                        "key of lower-case letters, digits and _ . - (e.g. pr:17)",
+                    )
+                ]
+            )
+        out.append((key, value if sep else None))
+    return out
+
+
+def _cursor(text: str | None) -> tuple[float, str] | None:
+    if text is None:
+        return None
+    try:
+        decoded = base64.urlsafe_b64decode(text + "=" * (-len(text) % 4)).decode("ascii")
+    except (binascii.Error, ValueError):
+        decoded = ""
+    match = _CURSOR.fullmatch(decoded)
+    if match is None:
+        raise haarline.OptionError(
+            [haarline.Problem("cursor", "not a cursor of this listing; use the `next` link")]
+        )
+    return float(match.group(1)), match.group(2)
+
+
+def _encode_cursor(job: dict[str, Any]) -> str:
+    raw = f"{float(job['created'])!r}:{job['id']}".encode("ascii")  # exact: repr round-trips
+    return base64.urlsafe_b64encode(raw).rstrip(b"=").decode("ascii")
+
 
 JSON_BODY = Depends(require_json)
 """A body route's check of the request's media type (415 unless JSON)."""
@@ -61,6 +146,22 @@ def _owned(store: Store, job_id: str, caller: str, kind: str) -> dict[str, Any]:
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
     return job
+
+
+def _callback(url: str | None, caller: str, store: Store, settings: Settings) -> str | None:
+    """Check a ``callback_url`` (destination rules, a signing secret to sign with)."""
+    if url is None:
+        return None
+    check_destination(url, settings)
+    with store.connect() as conn:
+        secret = outbox.secret_of(conn, caller)
+    if secret is None:
+        raise CallbackRefused(
+            url,
+            "this key has no signing secret yet; create one with POST /v1/webhook-secret "
+            "(it is shown once), then submit again",
+        )
+    return url
 
 
 def _get(store: Store, job_id: str) -> dict[str, Any]:
@@ -111,16 +212,21 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response: Response,
         idempotency_key: IdempotencyKey = None,
     ) -> Any:
+        labels: dict[str, str] = body.labels  # type: ignore[attr-defined]
         if kind == "analysis":
-            stored, _ = admit_analysis(body, settings)
+            stored, estimate = admit_analysis(body, settings)
         else:
-            stored, _ = admit_compare(body, settings)
+            stored, estimate = admit_compare(body, settings)
+        url: str | None = body.callback_url  # type: ignore[attr-defined]
+        callback = _callback(url, caller, store, settings)
         digest = request_hash(kind, stored)
         here = request.url.path
         if idempotency_key is not None:
             previous = store.find_idempotent(caller, idempotency_key)
             if previous is not None:
-                if previous["request_hash"] != digest:
+                same = previous["request_hash"] == digest
+                same = same and previous["labels"] == dict(sorted(labels.items()))
+                if not same or previous["callback_url"] != callback:
                     return problem_response(
                         409,
                         "this Idempotency-Key was used with a different request body",
@@ -138,7 +244,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 f"this key already has {settings.queue_per_key} queued or running jobs, the "
                 "limit; retry later",
                 kind="queue-full",
-                headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
+                headers={
+                    "Retry-After": str(full_queue_wait(store, settings, runner.capacity, caller))
+                },
                 instance=here,
             )
         job, created = store.create_job(
@@ -147,6 +255,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             request=stored,
             request_hash=digest,
             idempotency_key=idempotency_key,
+            labels=labels,
+            callback_url=callback,
+            work=estimate.work,
         )
         if created:
             # the cache is per key unless HAARLINE_SHARED_RESULT_CACHE shares it
@@ -161,30 +272,117 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
 
     @router.get(
         "",
-        response_model=list[JobPublic],
+        response_model=JobPage,
         operation_id=f"list{plural.capitalize()}",
-        summary=f"List this key's {noun} jobs, newest first",
-        responses=problem_responses(401, 422, 503),
+        summary=f"List this key's {noun} jobs, newest first, by label and state",
+        responses={
+            200: {
+                "description": "One page of jobs.",
+                "headers": {
+                    "Link": {
+                        "description": 'The next page: `<URL>; rel="next"` (absent on the last).',
+                        "schema": {"type": "string"},
+                    }
+                },
+            },
+            **problem_responses(401, 422, 503),
+        },
     )
     def listing(
+        request: Request,
+        response: Response,
         caller: CallerDep,
         store: StoreDep,
+        settings: SettingsDep,
+        label: LabelFilter = None,
+        state: StateFilter = None,
         limit: Annotated[int, Query(ge=1, le=200)] = 50,
-        offset: Annotated[int, Query(ge=0, le=MAX_OFFSET)] = 0,
+        cursor: Annotated[
+            str | None, Query(max_length=100, description="From `next`; omit for page one.")
+        ] = None,
+        offset: Annotated[str | None, Query(include_in_schema=False)] = None,
     ) -> Any:
-        jobs = store.list_jobs(caller, kind=kind, limit=limit, offset=offset)
-        return [job_public(j, base) for j in jobs if j["kind"] == kind]
+        if offset is not None:  # never ignored: a client paging by offset would loop
+            raise haarline.OptionError(
+                [
+                    haarline.Problem(
+                        "offset",
+                        "listings page with a cursor now, not an offset: follow `next` in the "
+                        'body (or the Link: <...>; rel="next" header)',
+                    )
+                ]
+            )
+        filters = _label_filters(label)
+        jobs, total = store.list_jobs(
+            caller,
+            kind=kind,
+            limit=limit + 1,
+            labels=filters,
+            states=state or (),
+            before=_cursor(cursor),
+        )
+        more = len(jobs) > limit
+        jobs = jobs[:limit]
+        following = None
+        if more:
+            query = [("label", text) for text in label or []]
+            query += [("state", s.value) for s in state or []]
+            query += [("limit", str(limit)), ("cursor", _encode_cursor(jobs[-1]))]
+            following = f"{settings.base_url}{base}?{urlencode(query)}"
+            response.headers["Link"] = f'<{following}>; rel="next"'
+        response.headers["Cache-Control"] = NO_STORE
+        return JobPage(jobs=[job_public(j, base) for j in jobs], total=total, next=following)
+
+    @router.get(
+        "/latest",
+        response_model=JobPublic,
+        operation_id=f"latest{title}",
+        summary=f"This key's newest {noun} job with these labels (and states)",
+        responses=problem_responses(401, 404, 422, 503),
+    )
+    def latest(
+        response: Response,
+        caller: CallerDep,
+        store: StoreDep,
+        label: LabelFilter = None,
+        state: StateFilter = None,
+    ) -> Any:
+        jobs, _ = store.list_jobs(
+            caller, kind=kind, limit=1, labels=_label_filters(label), states=state or ()
+        )
+        if not jobs:
+            raise HTTPException(404, f"no {noun} job of this key matches")
+        response.headers["Cache-Control"] = NO_STORE
+        return job_public(store.get_job(jobs[0]["id"]) or jobs[0], base)
 
     @router.get(
         "/{job_id}",
         response_model=JobPublic,
         operation_id=f"get{title}",
-        summary="Status and progress",
-        responses=problem_responses(401, 404, 503),
+        summary="Status and progress; with wait=S, as soon as either changes (a long poll)",
+        responses=problem_responses(401, 404, 422, 503),
     )
-    def status(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
+    async def status(
+        job_id: str,
+        caller: CallerDep,
+        store: StoreDep,
+        response: Response,
+        wait: Annotated[
+            float | None,
+            Query(
+                ge=0,
+                le=MAX_WAIT,
+                allow_inf_nan=False,
+                description="Seconds to hold the answer until the state or progress changes "
+                f"(at most {MAX_WAIT:g}); a finished job answers at once.",
+            ),
+        ] = None,
+    ) -> Any:
         response.headers["Cache-Control"] = NO_STORE
-        return job_public(_owned(store, job_id, caller, kind), base)
+        job = await run_in_threadpool(_owned, store, job_id, caller, kind)
+        if wait:
+            job = await next_change(store, job, wait)
+        return job_public(job, base)
 
     @router.delete(
         "/{job_id}",
@@ -213,6 +411,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     @router.get(
         "/{job_id}/report",
         operation_id=f"get{title}Report",
+        openapi_extra=SHARED_READ,
         summary="The report JSON (report_format 1)"
         if kind == "analysis"
         else "The comparison JSON (compare_format 1): ranking and reports",
@@ -222,16 +421,28 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 "description": "The report object, with the keys the README lists",
                 "content": {"application/json": {"schema": {"type": "object"}}},
             },
-            **problem_responses(401, 404, 409, 503),
+            **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
-    def report(job_id: str, request: Request, caller: CallerDep, store: StoreDep) -> Response:
-        result, _ = _finished(store, _owned(store, job_id, caller, kind))
+    def report(
+        job_id: str,
+        request: Request,
+        owner: KeyOwnerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        token: Token = None,
+    ) -> Response:
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
+        result, _ = _finished(store, job)
         return immutable(request, bytes(JSONResponse(result).body), "application/json")
 
     @router.get(
         "/{job_id}/summary",
         operation_id=f"get{title}Summary",
+        openapi_extra=SHARED_READ,
         summary="The Markdown summary",
         response_class=Response,
         responses={
@@ -239,28 +450,53 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 "description": "Markdown text (UTF-8)",
                 "content": {"text/markdown": {"schema": {"type": "string"}}},
             },
-            **problem_responses(401, 404, 409, 503),
+            **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
-    def summary(job_id: str, request: Request, caller: CallerDep, store: StoreDep) -> Response:
-        _, markdown = _finished(store, _owned(store, job_id, caller, kind))
-        return immutable(request, markdown.encode(), "text/markdown; charset=utf-8")
+    def summary(
+        job_id: str,
+        request: Request,
+        owner: KeyOwnerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        token: Token = None,
+    ) -> Response:
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
+        _, markdown = _finished(store, job)
+        public = settings.public_url
+        root = f"{public.rstrip('/')}{base}/{job_id}/" if public else None
+        text = summary_links(markdown, root=root, token=token)
+        return immutable(request, text.encode(), "text/markdown; charset=utf-8")
 
     @router.get(
         "/{job_id}/plots",
         response_model=list[str],
         operation_id=f"list{title}Plots",
+        openapi_extra=SHARED_READ,
         summary="Names of the PNG plots",
-        responses=problem_responses(401, 404, 409, 503),
+        responses=problem_responses(401, 403, 404, 409, 422, 503),
     )
-    def plots(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
-        job = _owned(store, job_id, caller, kind)
+    def plots(
+        job_id: str,
+        owner: KeyOwnerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        token: Token = None,
+    ) -> Any:
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
         _finished(store, job)
         return store.artifact_names(job_id)
 
     @router.get(
         "/{job_id}/plots/{name}",
         operation_id=f"get{title}Plot",
+        openapi_extra=SHARED_READ,
         summary="One PNG plot",
         response_class=Response,
         responses={
@@ -268,13 +504,22 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 "description": "A PNG image",
                 "content": {"image/png": {"schema": {"type": "string", "format": "binary"}}},
             },
-            **problem_responses(401, 404, 409, 503),
+            **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
     def plot(
-        job_id: str, name: str, request: Request, caller: CallerDep, store: StoreDep
+        job_id: str,
+        name: str,
+        request: Request,
+        owner: KeyOwnerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        token: Token = None,
     ) -> Response:
-        job = _owned(store, job_id, caller, kind)
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
         _finished(store, job)
         content = store.artifact(job_id, name) if PLOT_NAME.fullmatch(name) else None
         if content is None:

@@ -1,20 +1,25 @@
-"""Report pages and the signed links that open them without an API key.
+"""Report pages, and the share links that open a job's outputs without an API key.
 
 ``GET /v1/analyses/{id}/page`` (and ``/v1/comparisons/{id}/page``) answers the owner's key
-or a ``token`` from ``POST …/share``. No key and no token: 401. A token that is malformed
-(whatever its characters), expired, tampered with, made for another job, or made by a key
-that has since been revoked: 403. A deleted job: 404. The page is self-contained (PNGs
-inlined), so a token never needs to open anything but the page itself. A finished job's
-page never changes: it carries a strong ``ETag`` and answers 304 to ``If-None-Match``;
-the page of a job still queued or running refreshes itself and is ``no-store``.
+or a ``token`` from ``POST …/share`` (who may read what: :mod:`haarline.service.api.access`).
+The page is self-contained (PNGs inlined). A finished job's page never changes: it carries
+a strong ``ETag`` and answers 304 to ``If-None-Match``; the page of a job still queued or
+running refreshes itself and is ``no-store``.
+
+Share links: ``POST …/share`` makes one (its lifetime up to ``HAARLINE_SHARE_MAX_DAYS``,
+90 days by default), ``GET …/share`` lists a job's links with their state, and ``DELETE
+…/share/{link_id}`` revokes one. A link opens the job's page, report, summary and plots;
+it dies with its job and with the key that made it.
 """
 
-from typing import Annotated, Any
+import time
+from typing import Any, Literal
 
-from fastapi import APIRouter, Depends, HTTPException, Query, Request, Response
+import haarline
+from fastapi import APIRouter, Depends, HTTPException, Request, Response
 from fastapi.responses import HTMLResponse
+from haarline.service.api.access import SHARED_READ, Token, readable_job
 from haarline.service.api.deps import (
-    DEV_OWNER,
     CallerDep,
     KeyOwnerDep,
     PageSecretDep,
@@ -24,8 +29,7 @@ from haarline.service.api.deps import (
 from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.page import comparison_page, job_page, report_page
 from haarline.service.api.problems import problem_responses
-from haarline.service.api.tokens import MAX_TTL, check_token, make_token
-from haarline.service.errors import TokenError
+from haarline.service.api.tokens import make_token
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store, is_job_id
 from pydantic import BaseModel, Field
@@ -41,15 +45,24 @@ class ShareCreate(BaseModel):
     """Body of ``POST …/share``."""
 
     ttl_seconds: int = Field(
-        default=86_400, ge=60, le=MAX_TTL, description="How long the link works (60 s to 7 days)."
+        default=86_400,
+        ge=60,
+        le=10 * 365 * 86_400,
+        description="How long the link works: 60 s up to the service's maximum "
+        "(HAARLINE_SHARE_MAX_DAYS, 90 days unless configured).",
     )
 
 
 class SharePublic(BaseModel):
-    """A signed link to one job's page."""
+    """A signed link to one job's page, report, summary and plots."""
 
-    url: str
+    id: str = Field(description="The link's id, to revoke it with `DELETE …/share/{id}`.")
+    url: str = Field(description="The job's page; add the same `token` to its other outputs.")
+    token: str = Field(description="The share token (`?token=…` on page, report, summary, plots).")
+    created: float
     expires: int = Field(description="Unix time after which the link stops working.")
+    revoked: float | None = Field(default=None, description="When it was revoked, if it was.")
+    state: Literal["open", "expired", "revoked"]
 
 
 def _job(store: Store, job_id: str, kind: str) -> dict[str, Any]:
@@ -87,9 +100,8 @@ def _page_route(collection: str) -> None:
         response_class=HTMLResponse,
         operation_id=f"get{noun}Page",
         summary="The self-contained HTML report page (key or share token)",
-        # the key is optional here: a share token in the query opens the page too (the
-        # key's requirement comes from the dependency; this adds "or nothing")
-        openapi_extra={"security": [{}]},
+        # the key is optional here: a share token in the query opens the page too
+        openapi_extra=SHARED_READ,
         responses={
             200: {"content": {"text/html": {}}},
             **problem_responses(401, 403, 404, 422, 503),
@@ -102,29 +114,11 @@ def _page_route(collection: str) -> None:
         store: StoreDep,
         secret: PageSecretDep,
         owner: KeyOwnerDep,
-        token: Annotated[str | None, Query(max_length=300)] = None,
+        token: Token = None,
     ) -> Response:
-        if token is not None:
-            try:
-                check_token(secret, token, job_id)
-            except TokenError as exc:
-                raise HTTPException(403, f"this link does not open the page: {exc}") from None
-            job = _job(store, job_id, kind)
-            shared_in_dev = settings.dev_mode and job["owner"] == DEV_OWNER
-            if not (shared_in_dev or store.key_active(job["owner"])):
-                raise HTTPException(
-                    403, "this link does not open the page: the key that shared it was revoked"
-                )
-        elif owner is None:
-            raise HTTPException(
-                401,
-                "an API key or a share token is required",
-                headers={"WWW-Authenticate": "Bearer"},
-            )
-        else:
-            job = _job(store, job_id, kind)
-            if job["owner"] != owner:
-                raise HTTPException(404, f"no such job {job_id!r}")
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
         headers = {
             "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
             "'unsafe-inline'; base-uri 'none'; form-action 'none'",
@@ -136,11 +130,37 @@ def _page_route(collection: str) -> None:
             return immutable(request, text.encode(), "text/html; charset=utf-8", headers=headers)
         return HTMLResponse(text, headers={**headers, "Cache-Control": NO_STORE})
 
+    def link_public(job_id: str, link: dict[str, Any], secret: bytes, base: str) -> SharePublic:
+        token = make_token(secret, job_id, link["id"], link["expires"])
+        state: Literal["open", "expired", "revoked"] = (
+            "revoked"
+            if link["revoked"] is not None
+            else "expired"
+            if link["expires"] < time.time()
+            else "open"
+        )
+        return SharePublic(
+            id=link["id"],
+            url=f"{base}/v1/{collection}/{job_id}/page?token={token}",
+            token=token,
+            created=link["created"],
+            expires=link["expires"],
+            revoked=link["revoked"],
+            state=state,
+        )
+
+    def owned(store: Any, job_id: str, caller: str) -> dict[str, Any]:
+        job = _job(store, job_id, kind)
+        if job["owner"] != caller:
+            raise HTTPException(404, f"no such job {job_id!r}")
+        return job
+
     @router.post(
         f"/v1/{collection}/{{job_id}}/share",
         response_model=SharePublic,
-        operation_id=f"share{noun}Page",
-        summary="A short-lived signed link to this job's page, for reviewers without a key",
+        operation_id=f"share{noun}",
+        summary="A signed link to this job's page, report, summary and plots, for readers "
+        "without a key",
         responses=problem_responses(401, 404, 408, 413, 415, 422, 503),
         dependencies=[Depends(require_json)],
     )
@@ -152,13 +172,57 @@ def _page_route(collection: str) -> None:
         secret: PageSecretDep,
         body: ShareCreate | None = None,
     ) -> SharePublic:
-        job = _job(store, job_id, kind)
-        if job["owner"] != caller:
-            raise HTTPException(404, f"no such job {job_id!r}")
+        owned(store, job_id, caller)
         ttl = (body or ShareCreate()).ttl_seconds
-        token, expires = make_token(secret, job_id, ttl)
-        url = f"{settings.base_url}/v1/{collection}/{job_id}/page?token={token}"
-        return SharePublic(url=url, expires=expires)
+        longest = int(settings.share_max_days * 86_400)
+        if ttl > longest:
+            raise haarline.OptionError(
+                [
+                    haarline.Problem(
+                        "ttl_seconds",
+                        f"{ttl} is longer than this service allows for a link: at most "
+                        f"{longest} s ({settings.share_max_days:g} days, "
+                        "HAARLINE_SHARE_MAX_DAYS)",
+                    )
+                ]
+            )
+        expires = int(time.time() + ttl)
+        link_id = store.add_link(job_id, caller, expires)
+        link = {"id": link_id, "created": time.time(), "expires": expires, "revoked": None}
+        return link_public(job_id, link, secret, settings.base_url)
+
+    @router.get(
+        f"/v1/{collection}/{{job_id}}/share",
+        response_model=list[SharePublic],
+        operation_id=f"list{noun}Shares",
+        summary="This job's share links, oldest first, with their state",
+        responses=problem_responses(401, 404, 503),
+    )
+    def shares(
+        job_id: str,
+        caller: CallerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        response: Response,
+    ) -> list[SharePublic]:
+        owned(store, job_id, caller)
+        response.headers["Cache-Control"] = NO_STORE
+        return [link_public(job_id, li, secret, settings.base_url) for li in store.links(job_id)]
+
+    @router.delete(
+        f"/v1/{collection}/{{job_id}}/share/{{link_id}}",
+        status_code=204,
+        response_class=Response,
+        operation_id=f"revoke{noun}Share",
+        summary="Revoke one share link (it stops opening anything at once)",
+        responses={204: {"description": "Revoked."}, **problem_responses(401, 404, 503)},
+    )
+    def revoke(job_id: str, link_id: str, caller: CallerDep, store: StoreDep) -> Response:
+        owned(store, job_id, caller)
+        if not store.revoke_link(link_id, job_id):
+            raise HTTPException(404, f"no open share link {link_id!r} of this job")
+        return Response(status_code=204)
 
 
 _page_route("analyses")
