@@ -108,9 +108,8 @@ _clients_lock = threading.Lock()
 
 def _reachable(address: str) -> None:
     """Fail at once, and plainly, when nothing listens at the address."""
-    m = _ADDRESS.fullmatch(address)
-    assert m is not None  # checked by the context
-    host, port = m.group(2).strip("[]"), int(m.group(3))
+    m = _ADDRESS.fullmatch(check_address(address))
+    host, port = (m.group(2).strip("[]"), int(m.group(3))) if m else ("", 0)
     try:
         with socket.create_connection((host, port), timeout=CONNECT_SECONDS):
             pass
@@ -155,9 +154,12 @@ def connect(address: str) -> Any:
         within :data:`WORKER_WAIT_SECONDS`, or a worker runs another haarline or numpy.
     """
     with _clients_lock:
-        client = _clients.get(address)
-        if client is not None and client.status == "running":
-            return client
+        client = _clients.pop(address, None)
+        if client is not None:
+            if client.status == "running":
+                _clients[address] = client
+                return client
+            client.close()  # lost its scheduler for good: open a new one
         try:
             from distributed import Client
         except ImportError:
