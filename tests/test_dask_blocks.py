@@ -267,3 +267,33 @@ def test_a_block_mode_job_names_the_unreachable_scheduler(make_client):
         time.sleep(0.1)
     assert job["state"] == "failed"
     assert job["error"].startswith(f"HAARLINE_DASK_SCHEDULER: no Dask scheduler at {address}")
+
+
+def test_blocks_whose_shared_arguments_were_lost_are_sent_again(dask_cluster):
+    # what happens when a worker dies with the last copy of the program: the scheduler
+    # cancels the blocks that need it; here the copies are cancelled on purpose at once
+    import numpy as np
+    from haarline.engine import batching
+    from haarline.engine.sampling import Stream
+    from haarline.metrics.expressibility import _pair_fidelities
+
+    program = haarline.expand(haarline.parse_circuit({**WIDE, "qubits": 14, "layers": 3}))
+    options = {
+        "copies": 2,
+        "seed": 4,
+        "stream": Stream.EXPRESSIBILITY,
+        "memory_budget": 64 << 20,
+        "dtype": np.complex128,
+        "draws": None,
+    }
+    cut = batching.blocks_for(256, 2)
+    tasks = [(_pair_fidelities, program, s, c, options) for s, c in cut]
+    try:
+        blocks = cluster.Blocks(dask_cluster.address, batching._sample_block, tasks, "lost")
+        blocks.client.cancel(blocks.shared, force=True)
+        parts = batching._gather(blocks, sizes=[c for _, c in cut], progress=None, stage="lost")
+        blocks.close()
+    finally:
+        cluster.disconnect()
+    assert max(blocks.resent) == 1 and blocks.generation == 1
+    assert (np.concatenate(parts) == haarline.fidelities(program, pairs=256, seed=4)).all()

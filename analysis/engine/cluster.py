@@ -34,6 +34,7 @@ haarline.errors.OptionError: scheduler: expected a Dask scheduler address tcp://
 
 from __future__ import annotations
 
+import logging
 import pickle
 import re
 import socket
@@ -60,6 +61,8 @@ __all__ = [
     "recording",
     "threads",
 ]
+
+log = logging.getLogger("haarline.cluster")
 
 CONNECT_SECONDS = 10.0
 """How long the scheduler may take to answer a new connection."""
@@ -377,6 +380,11 @@ class Blocks:
                     f"lost the Dask scheduler at {self.address} while {what} was running"
                 ) from None
             self.resent[k] += 1
+            log.warning(
+                "block %d of %s sent again: the copies of its shared arguments were lost",
+                k,
+                what,
+            )
             self.futures[k] = self._send(k)
             return AGAIN
         self.seconds[k] = seconds
