@@ -34,6 +34,7 @@ from haarline.engine.statevector import (
 )
 from haarline.errors import (
     CircuitError,
+    ClusterError,
     DataError,
     HaarlineError,
     InputError,
@@ -145,6 +146,7 @@ __all__ = [
     "Capacity",
     "Circuit",
     "CircuitError",
+    "ClusterError",
     "CircuitGenerators",
     "ClosureStop",
     "Context",

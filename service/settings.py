@@ -7,7 +7,13 @@ variable                           meaning (default)
 ``HAARLINE_HOST``                  bind address (``127.0.0.1``)
 ``HAARLINE_PORT``                  port (``8000``)
 ``HAARLINE_WORKERS``               compute processes (number of CPU cores)
-``HAARLINE_DASK_SCHEDULER``        address of a Dask scheduler; when set, work runs there
+``HAARLINE_DASK_SCHEDULER``        address of a Dask scheduler, ``tcp://HOST:PORT``; when
+                                   set, work runs on its cluster (also the default of the
+                                   CLI's ``--dask``)
+``HAARLINE_DASK_UNIT``             what one Dask task is: ``job`` (a whole job; the workers
+                                   must share the data directory) or ``block`` (jobs run in
+                                   the service's own processes and send the sampled blocks
+                                   of each analysis to the cluster) (``job``)
 ``HAARLINE_DEV_MODE``              ``1``: no API keys, loopback only, said loudly (``0``)
 ``HAARLINE_MAX_BODY_BYTES``        largest request body (``1048576``)
 ``HAARLINE_READ_TIMEOUT``          seconds a client may take to send a request's headers,
@@ -80,12 +86,22 @@ import os
 import re
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal
 
+from haarline.engine.cluster import check_address
+from haarline.errors import OptionError
 from haarline.service.errors import SettingsError
-from pydantic import BaseModel, ConfigDict, Field, SecretStr, ValidationError, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    SecretStr,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
-__all__ = ["ENV_PREFIX", "RENAMED", "Settings", "SettingsError"]
+__all__ = ["ENV_PREFIX", "RENAMED", "Settings", "SettingsError", "dask_scheduler_from_env"]
 
 ENV_PREFIX = "HAARLINE_"
 
@@ -116,6 +132,7 @@ class Settings(BaseModel):
     port: int = Field(default=8000, ge=1, le=65535)
     workers: int = Field(default_factory=lambda: os.cpu_count() or 1, ge=1, le=256)
     dask_scheduler: str | None = None
+    dask_unit: Literal["job", "block"] = "job"
     dev_mode: bool = False
     max_body_bytes: int = Field(default=1_048_576, ge=1024)
     read_timeout: float = Field(default=30.0, gt=0, le=3600)
@@ -142,12 +159,27 @@ class Settings(BaseModel):
     )
     webhook_timeout: float = Field(default=10.0, gt=0, le=120)
 
+    @field_validator("dask_scheduler")
+    @classmethod
+    def _address(cls, value: str | None) -> str | None:
+        if value is None:
+            return None
+        try:
+            return check_address(value.strip())
+        except OptionError as exc:
+            raise ValueError(exc.problems[0].message) from None
+
     @model_validator(mode="after")
     def _safe(self) -> Settings:
         if self.dev_mode and not _is_loopback(self.host):
             raise ValueError(
                 f"development mode serves without API keys and may only bind a loopback "
                 f"address, not {self.host!r}"
+            )
+        if self.dask_unit == "block" and self.dask_scheduler is None:
+            raise ValueError(
+                "dask_unit: 'block' sends blocks to a Dask cluster; set "
+                f"{ENV_PREFIX}DASK_SCHEDULER too, or use 'job' (the default)"
             )
         for origin in self.cors_origins:
             if not _ORIGIN.fullmatch(origin):
@@ -232,7 +264,7 @@ class Settings(BaseModel):
                 field = str(err["loc"][0]) if err["loc"] else ""
                 where = ENV_PREFIX + field.upper() if field else "settings"
                 message = err["msg"].removeprefix("Value error, ")
-                for name in _LISTS:
+                for name in (*_LISTS, "dask_unit"):
                     if message.startswith(f"{name}: "):
                         where, message = ENV_PREFIX + name.upper(), message[len(name) + 2 :]
                 lines.append(f"{where}: {message}")
@@ -244,3 +276,24 @@ class Settings(BaseModel):
                 f"{ENV_PREFIX}DATA_DIR: cannot create {str(settings.data_dir)!r}: {exc.strerror}"
             ) from None
         return settings
+
+
+def dask_scheduler_from_env(env: Mapping[str, str] | None = None) -> str | None:
+    """``HAARLINE_DASK_SCHEDULER`` alone, checked: the CLI's default for ``--dask``.
+
+    The command line reads no other variable (the rest configure the server), and reading
+    this one creates no data directory.
+
+    Raises
+    ------
+    SettingsError
+        Naming the variable, its value and the accepted form.
+    """
+    env = os.environ if env is None else env
+    value = env.get(ENV_PREFIX + "DASK_SCHEDULER", "").strip()
+    if not value:
+        return None
+    try:
+        return check_address(value, ENV_PREFIX + "DASK_SCHEDULER")
+    except OptionError as exc:
+        raise SettingsError(str(exc)) from None
