@@ -16,7 +16,6 @@ from typing import Any
 
 import yaml
 from haarline.circuit.model import MAX_DESCRIPTION_BYTES, Circuit, _describe, parse_circuit
-from haarline.circuit.qasm.parse import MAX_QASM_BYTES, parse_qasm
 from haarline.circuit.text import bounded_text, read_file
 from haarline.errors import CircuitError, Problem
 
@@ -218,7 +217,9 @@ def load_circuit(path: str | Path) -> Circuit:
     """
     path = Path(path)
     suffix = path.suffix.lower()
-    if suffix == ".qasm":
+    if suffix == ".qasm":  # the OpenQASM reader (and its parser) loads only for such files
+        from haarline.circuit.qasm.parse import MAX_QASM_BYTES, parse_qasm
+
         return parse_qasm(read_file(path, limit=MAX_QASM_BYTES), source=str(path))
     kind = "yaml" if suffix in (".yaml", ".yml") else "json"
     return parse_circuit_text(read_file(path), kind=kind, source=str(path))

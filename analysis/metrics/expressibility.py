@@ -35,10 +35,10 @@ from haarline.engine.context import Context
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream, block_rng
 from haarline.engine.statevector import Complexes
+from haarline.metrics._special import log_gamma
 from haarline.metrics.haar import haar_bin_log_masses, haar_second_moment
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
-from scipy import special  # scipy.stats would add a second to start-up
 
 __all__ = [
     "BOOTSTRAP_RESAMPLES",
@@ -163,9 +163,9 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
         hi = min(pairs, int(np.ceil(mean + 12 * sd + 12)))
         k = np.arange(lo, hi + 1, dtype=float)
         pmf = np.exp(
-            special.gammaln(m + 1)
-            - special.gammaln(k + 1)
-            - special.gammaln(m - k + 1)
+            log_gamma(m + 1)
+            - log_gamma(k + 1)
+            - log_gamma(m - k + 1)
             + k * lqj
             + (m - k) * np.log1p(-qj)
         )
