@@ -16,7 +16,16 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
     results = json.loads(out.read_text())
     assert results["bench_format"] == 1 and results["mode"] == "smoke"
     figures = results["figures"]
-    assert set(figures) == {"bandwidth", "naive", "adjoint", "references", "scan", "memory"}
+    assert set(figures) == {
+        "bandwidth",
+        "naive",
+        "adjoint",
+        "references",
+        "scan",
+        "memory",
+        "compiled",
+        "startup",
+    }
     for name in ("bandwidth", "naive", "adjoint", "memory"):
         assert figures[name], name
         for row in figures[name]:
@@ -29,6 +38,20 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
     assert all(r["baseline"]["max_fidelity_difference"] < 1e-10 for r in figures["naive"])
     assert all(r["baseline"]["max_gradient_difference"] < 1e-10 for r in figures["adjoint"])
     assert [r["workers"] for r in figures["references"]["runs"]] == [1]
-    assert {t["figure"] for t in results["targets"]} == set(figures)
+    # the compiled figure runs where the bench extra installed qulacs, else says why not
+    compiled = figures["compiled"]
+    if importlib.util.find_spec("qulacs") is None:
+        assert "not installed" in compiled["skipped"] and compiled["rows"] == []
+    else:
+        assert compiled["skipped"] is None and compiled["rows"]
+        for row in compiled["rows"]:
+            assert row["ratio"] > 0 and row["baseline"]["max_state_difference"] < 1e-12
+    startup = figures["startup"]
+    assert startup["version"]["seconds"] > 0 and startup["analyze_small"]["seconds"] > 0
+    peer = startup["expressibility_whole"]
+    assert peer["ratio"] > 0 and peer["baseline"]["max_fidelity_difference"] < 1e-10
+    named = {t["figure"] for t in results["targets"]}
+    assert {"bandwidth", "naive", "adjoint", "references", "scan", "memory"} <= named
+    assert {"compiled_one_core", "compiled_two_cores", "startup_version", "peer"} <= named
     printed = capsys.readouterr().out
     assert "| bandwidth ratio |" in printed and "| target | value | met |" in printed
