@@ -17,6 +17,16 @@ copy that happens anyway. Should a sample's running factor fall below :func:`_ti
 inside a segment (rotations at θ ≈ π), its column is rescaled right there, so nothing
 overflows.
 
+**Real arithmetic.** When every coefficient of a segment is real (``ry``, ``cz``, ``cx``,
+``h``, ``x``, ``z``, ``swap``, … at any angles: the fixed matrices, permutation phases and
+the block's coefficient table have no imaginary part) and the states are real (the
+sampled metrics start from |0…0⟩; :func:`execute` looks once), the tile holds only the
+real parts (``float64``, or ``float32`` in single precision) and every operation
+multiplies by the real coefficients: half the bytes, and a quarter of the flops of a
+complex multiply. The results are the same doubles: a complex product whose imaginary
+parts are zero computes ``x·c - 0·0 = x·c`` for its real part, and sums add parts
+separately.
+
 Every amplitude of sample ``k`` sees the same floating-point operations in the same order
 whatever the batch size, tile size or layout (numpy's elementwise loops give the same
 result for an element wherever it sits in an array), so the numbers never depend on
@@ -26,12 +36,13 @@ chunking or on how samples are split between processes.
 from __future__ import annotations
 
 import threading
-from typing import Any, Literal
+from typing import Any, Literal, TypeAlias
 
 import numpy as np
 from haarline.engine._coefficients import evaluate
 from haarline.engine._ops import Op, ops_2x2
 from haarline.engine._records import (
+    Amplitudes,
     BlockKind,
     Coef,
     Complexes,
@@ -66,16 +77,20 @@ change."""
 
 def _tiny(dtype: np.dtype[Any]) -> float:
     """Running factor below which a sample's tile column is rescaled mid-segment."""
-    return 1e-150 if np.dtype(dtype).itemsize == 16 else 1e-18
+    double = np.dtype(dtype).itemsize == (8 if np.dtype(dtype).kind == "f" else 16)
+    return 1e-150 if double else 1e-18
 
 
 class _Pool:
-    """Per-thread flat scratch arrays, shared by every bound tile of that thread."""
+    """Per-thread flat scratch arrays, shared by every bound tile of that thread.
+
+    Arrays of any dtype (complex, or real for real tiles), hence ``NDArray[Any]``.
+    """
 
     def __init__(self) -> None:
-        self.arrays: dict[tuple[str, int, int], Complexes] = {}
+        self.arrays: dict[tuple[str, int, int], NDArray[Any]] = {}
 
-    def get(self, dtype: np.dtype[Any], index: int, size: int) -> Complexes:
+    def get(self, dtype: np.dtype[Any], index: int, size: int) -> NDArray[Any]:
         key = (np.dtype(dtype).str, index, size)
         arr = self.arrays.get(key)
         if arr is None:
@@ -111,24 +126,24 @@ class _Tile:
         self.ops = [op for group in self.groups for op in group]
         self.final = current
 
-    def _temp(self, i: int, shape: tuple[int, ...]) -> Complexes:
+    def _temp(self, i: int, shape: tuple[int, ...]) -> Amplitudes:
         size = int(np.prod(shape))
         return self.temps[i][:size].reshape(shape)
 
-    def _halves(self, buf: Complexes, q: int) -> tuple[Complexes, Complexes]:
+    def _halves(self, buf: Amplitudes, q: int) -> tuple[Amplitudes, Amplitudes]:
         k = len(self.local)
         p = self.local[q]
         v = buf.reshape(1 << p, 2, 1 << (k - p - 1), self.columns)
         return v[:, 0], v[:, 1]
 
     def _quarters(
-        self, buf: Complexes, first: int, second: int
-    ) -> dict[tuple[int, int], Complexes]:
+        self, buf: Amplitudes, first: int, second: int
+    ) -> dict[tuple[int, int], Amplitudes]:
         k = len(self.local)
         p1, p2 = self.local[first], self.local[second]
         lo, hi = min(p1, p2), max(p1, p2)
         v = buf.reshape(1 << lo, 2, 1 << (hi - lo - 1), 2, 1 << (k - hi - 1), self.columns)
-        out: dict[tuple[int, int], Complexes] = {}
+        out: dict[tuple[int, int], Amplitudes] = {}
         for bf in (0, 1):
             for bs in (0, 1):
                 b_lo, b_hi = (bf, bs) if p1 < p2 else (bs, bf)
@@ -142,11 +157,14 @@ class _Tile:
         if form.kind == "perm":
             assert k.perm is not None and k.phase is not None
             identity = np.array_equal(k.perm, np.arange(len(k.perm)))
-            phase = None if np.all(k.phase == 1) else k.phase.astype(dtype)[:, None]
+            values = k.phase.real if dtype.kind == "f" else k.phase  # real: checked before
+            phase = None if np.all(k.phase == 1) else values.astype(dtype)[:, None]
             if identity:
                 if phase is not None:
 
-                    def rephase(c: Complexes, buf: Complexes = buf, ph: Complexes = phase) -> None:
+                    def rephase(
+                        c: Amplitudes, buf: Amplitudes = buf, ph: Amplitudes = phase
+                    ) -> None:
                         np.multiply(buf, ph, out=buf)
 
                     add(rephase)
@@ -155,11 +173,11 @@ class _Tile:
             source = k.perm.astype(np.intp)
 
             def permute(
-                c: Complexes,
-                src: Complexes = buf,
-                dst: Complexes = other,
+                c: Amplitudes,
+                src: Amplitudes = buf,
+                dst: Amplitudes = other,
                 perm: NDArray[np.intp] = source,
-                ph: Complexes | None = phase,
+                ph: Amplitudes | None = phase,
             ) -> None:
                 np.take(src, perm, axis=0, out=dst, mode="clip")
                 if ph is not None:
@@ -171,7 +189,7 @@ class _Tile:
             start, rows = (_slot(x) for x in form.coefs)
 
             def phases(
-                c: Complexes, buf: Complexes = buf, lo: int = start, hi: int = start + rows
+                c: Amplitudes, buf: Amplitudes = buf, lo: int = start, hi: int = start + rows
             ) -> None:
                 np.multiply(buf, c[lo:hi], out=buf)
 
@@ -199,10 +217,10 @@ class _Tile:
         if form.kind == "swap":
 
             def swap(
-                c: Complexes,
-                x: Complexes = quarters[(0, 1)],
-                y: Complexes = quarters[(1, 0)],
-                t: Complexes = u,
+                c: Amplitudes,
+                x: Amplitudes = quarters[(0, 1)],
+                y: Amplitudes = quarters[(1, 0)],
+                t: Amplitudes = u,
             ) -> None:
                 np.copyto(t, x)
                 np.copyto(x, y)
@@ -224,8 +242,9 @@ class _Tile:
         subs = [quarters[key] for key in order]
         olds = [np.empty(shape, dtype=dtype) for _ in range(4)]
         entries = [[form.coefs[4 * i + j] for j in range(4)] for i in range(4)]
+        real = dtype.kind == "f"  # a real tile: every constant is real (checked before)
 
-        def general4(c: Complexes) -> None:
+        def general4(c: Amplitudes) -> None:
             for s, o in zip(subs, olds, strict=True):
                 np.copyto(o, s)
             for i in range(4):
@@ -235,7 +254,7 @@ class _Tile:
                     if isinstance(e, complex):
                         if e == 0:
                             continue
-                        np.multiply(olds[j], e, out=u)
+                        np.multiply(olds[j], e.real if real else e, out=u)
                     else:
                         np.multiply(olds[j], c[e], out=u)
                     np.add(subs[i], u, out=subs[i])
@@ -307,11 +326,12 @@ _local = _PerThread()
 
 
 def scratch(dtype: np.dtype[Any], index: int, size: int) -> Complexes:
-    """A flat scratch array of ``size`` elements from the per-thread pool.
+    """A flat complex scratch array of ``size`` elements from the per-thread pool.
 
     Indices 0-3 are the tiles'; the gate-by-gate path uses 10 and up.
     """
-    return _local.pool.get(dtype, index, _power_of_two(size))[:size]
+    out: Complexes = _local.pool.get(dtype, index, _power_of_two(size))[:size]
+    return out
 
 
 def _bound(
@@ -334,6 +354,40 @@ def _power_of_two(x: int) -> int:
     return 1 << max(0, (x - 1).bit_length())
 
 
+def _real_dtype(dtype: np.dtype[Any]) -> np.dtype[Any]:
+    """The real type of a complex type's parts (``complex128`` → ``float64``)."""
+    return np.dtype(np.float32 if dtype.itemsize == 8 else np.float64)
+
+
+def _real_constants(schedule: Schedule, s: int, forms: list[Form]) -> bool:
+    """Whether every constant of segment ``s`` is real (kept with the schedule).
+
+    The constants are fixed by the plan (the forms' structure never depends on the
+    angles): fixed matrix entries, factors and permutation phases.
+    """
+    found = schedule.real.get(s)
+    if found is None:
+        found = True
+        for form in forms:
+            constants = [x for x in (*form.coefs, form.factor) if isinstance(x, complex)]
+            if any(x.imag != 0 for x in constants):
+                found = False
+            phase = form.kernel.phase if form.kind == "perm" else None
+            if phase is not None and np.any(phase.imag != 0):
+                found = False
+        schedule.real[s] = found
+    return found
+
+
+def _block(
+    schedule: Schedule, s: int, forms: list[Form], table: Amplitudes, real_states: bool
+) -> tuple[Amplitudes, np.dtype[Any]] | None:
+    """The real coefficient table and tile type of a block, or None to run it complex."""
+    if not real_states or not _real_constants(schedule, s, forms) or np.any(table.imag):
+        return None
+    return np.ascontiguousarray(table.real), _real_dtype(table.dtype)
+
+
 def _slots(plan: Plan, schedule: Schedule, s: int, dtype: np.dtype[Any]) -> int:
     """Coefficient slots of segment ``s`` (one dry evaluation, kept with the schedule)."""
     found = schedule.slots.get(s)
@@ -343,13 +397,14 @@ def _slots(plan: Plan, schedule: Schedule, s: int, dtype: np.dtype[Any]) -> int:
     return found
 
 
-Rescale = tuple[int, np.complexfloating[Any, Any]]
+# quoted: numpy's runtime `inexact` takes one type argument, its stubs two
+Rescale: TypeAlias = "tuple[int, np.inexact[Any, Any]]"
 """A mid-segment rescale: after the kernel at this position, multiply by this value."""
 
 
 def _scale(
-    forms: list[Form], table: Complexes, dtype: np.dtype[Any]
-) -> tuple[Complexes | None, dict[int, list[Rescale]]]:
+    forms: list[Form], table: Amplitudes, dtype: np.dtype[Any]
+) -> tuple[Amplitudes | None, dict[int, list[Rescale]]]:
     """Running per-sample factor of a segment, and rare mid-segment rescales.
 
     The factor has shape (w,) (or is None); the rescales ``{column: [(kernel position,
@@ -357,13 +412,14 @@ def _scale(
     """
     tiny = _tiny(dtype)
     width = table.shape[1]
-    scale: Complexes | None = None
+    scale: Amplitudes | None = None
     marks: dict[int, list[Rescale]] = {}
     for pos, form in enumerate(forms):
         f = form.factor
         if f is None:
             continue
-        value = table[f] if isinstance(f, int) else np.full(width, f, dtype=dtype)
+        constant = f.real if isinstance(f, complex) and dtype.kind == "f" else f
+        value = table[f] if isinstance(f, int) else np.full(width, constant, dtype=dtype)
         scale = value.copy() if scale is None else scale * value
         low = np.flatnonzero(np.abs(scale) < tiny)
         for i in low.tolist():
@@ -376,7 +432,7 @@ def execute(
     plan: Plan,
     schedule: Schedule,
     thetas: NDArray[np.float64],
-    states: Complexes,
+    states: Amplitudes,
     *,
     tile: int = TILE_AMPLITUDES,
 ) -> None:
@@ -388,12 +444,13 @@ def execute(
         return
     old = np.getbufsize()
     np.setbufsize(BUFFER_SIZE)
+    real = not np.any(states.imag)  # one look: real segments keep real states real
     try:
         for s in range(len(schedule.segments)):
             if len(schedule.segments[s].qubits) == schedule.qubits:
-                _by_samples(plan, schedule, s, thetas, states, tile)
+                real = _by_samples(plan, schedule, s, thetas, states, tile, real)
             else:
-                _by_tiles(plan, schedule, s, thetas, states, tile)
+                real = _by_tiles(plan, schedule, s, thetas, states, tile, real)
     finally:
         np.setbufsize(old)
 
@@ -403,10 +460,14 @@ def _by_samples(
     schedule: Schedule,
     s: int,
     thetas: NDArray[np.float64],
-    states: Complexes,
+    states: Amplitudes,
     tile: int,
-) -> None:
-    """A segment over every qubit: tiles are blocks of samples, one column each."""
+    real: bool,
+) -> bool:
+    """A segment over every qubit: tiles are blocks of samples, one column each.
+
+    ``real``: the states are real. Returns whether they still are.
+    """
     seg = schedule.segments[s]
     n = schedule.qubits
     batch = states.shape[0]
@@ -414,19 +475,25 @@ def _by_samples(
     slots = _slots(plan, schedule, s, dtype)
     limit = max(1, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize))
     width = max(1, min(batch, max(64, tile >> n), limit))
+    stays = real
     for b0 in range(0, batch, width):
         b1 = min(batch, b0 + width)
         forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
-        work = _bound(schedule, s, forms, b1 - b0, dtype, _power_of_two((b1 - b0) << n))
-        np.copyto(work.buffers[0], states[b0:b1].T)
-        scale, marks = _scale(forms, table, dtype)
+        found = _block(schedule, s, forms, table, real)
+        coefs, kind = found if found is not None else (table, dtype)
+        stays = stays and found is not None
+        work = _bound(schedule, s, forms, b1 - b0, kind, _power_of_two((b1 - b0) << n))
+        block = states[b0:b1]
+        np.copyto(work.buffers[0], (block.real if found is not None else block).T)
+        scale, marks = _scale(forms, coefs, kind)
         rescales: list[tuple[int | None, Rescale]] = [(i, e) for i, es in marks.items() for e in es]
-        _run_ops(work, table, rescales, column=True)
+        _run_ops(work, coefs, rescales, column=True)
         out = work.buffers[work.final]
         if scale is None:
-            np.copyto(states[b0:b1], out.T)
+            np.copyto(block, out.T)
         else:
-            np.multiply(out.T, scale[:, None], out=states[b0:b1])
+            np.multiply(out.T, scale[:, None], out=block)
+    return stays
 
 
 def _by_tiles(
@@ -434,10 +501,14 @@ def _by_tiles(
     schedule: Schedule,
     s: int,
     thetas: NDArray[np.float64],
-    states: Complexes,
+    states: Amplitudes,
     tile: int,
-) -> None:
-    """A segment of a larger circuit: tiles are slices of one sample's state."""
+    real: bool,
+) -> bool:
+    """A segment of a larger circuit: tiles are slices of one sample's state.
+
+    ``real``: the states are real. Returns whether they still are.
+    """
     seg = schedule.segments[s]
     n = schedule.qubits
     batch = states.shape[0]
@@ -449,30 +520,35 @@ def _by_tiles(
     size = _power_of_two(columns << len(seg.qubits))
     slots = _slots(plan, schedule, s, dtype)
     width = max(1, min(batch, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize)))
+    stays = real
     for b0 in range(0, batch, width):
         b1 = min(batch, b0 + width)
         forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
-        work = _bound(schedule, s, forms, columns, dtype, size)
+        found = _block(schedule, s, forms, table, real)
+        coefs, kind = found if found is not None else (table, dtype)
+        stays = stays and found is not None
+        work = _bound(schedule, s, forms, columns, kind, size)
         first = work.buffers[0].reshape(inner)
         out = work.buffers[work.final].reshape(inner)
-        scale, marks = _scale(forms, table, dtype)
+        scale, marks = _scale(forms, coefs, kind)
         for i in range(b1 - b0):
-            c = table[:, i : i + 1]
+            c = coefs[:, i : i + 1]
             events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
             factor = None if scale is None else scale[i : i + 1].reshape(ones)
             view = states[b0 + i].reshape(shape).transpose(order)
             for f in np.ndindex(*fshape):
                 part = view[f]
-                np.copyto(first, part)
+                np.copyto(first, part.real if found is not None else part)
                 _run_ops(work, c, events, column=False)
                 if factor is None:
                     np.copyto(part, out)
                 else:
                     np.multiply(out, factor, out=part)
+    return stays
 
 
 def _run_ops(
-    tile: _Tile, c: Complexes, events: list[tuple[int | None, Rescale]], *, column: bool
+    tile: _Tile, c: Amplitudes, events: list[tuple[int | None, Rescale]], *, column: bool
 ) -> None:
     """Run a tile's operations.
 
@@ -483,7 +559,7 @@ def _run_ops(
         for op in tile.ops:
             op(c)
         return
-    by_pos: dict[int, list[tuple[int | None, np.complexfloating[Any, Any]]]] = {}
+    by_pos: dict[int, list[tuple[int | None, np.inexact[Any, Any]]]] = {}
     for col, (pos, mult) in events:
         by_pos.setdefault(pos, []).append((col, mult))
     for pos, group in enumerate(tile.groups):
@@ -491,7 +567,5 @@ def _run_ops(
             op(c)
         for col, mult in by_pos.get(pos, ()):
             buf = tile.buffers[tile.holder[pos]]
-            if column:
-                buf[:, col] *= mult
-            else:
-                buf *= mult
+            part = buf[:, col] if column else buf
+            np.multiply(part, mult, out=part)
