@@ -36,6 +36,7 @@ chunking or on how samples are split between processes.
 from __future__ import annotations
 
 import threading
+from functools import partial
 from typing import Any, Literal, TypeAlias
 
 import numpy as np
@@ -52,6 +53,7 @@ from haarline.engine._records import (
     Segment,
     is_block,
 )
+from haarline.engine._threads import in_threads, thread_count
 from numpy.typing import NDArray
 
 __all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "TILE_AMPLITUDES", "execute", "scratch"]
@@ -73,6 +75,12 @@ numpy copies strided operands whose contiguous runs are shorter than about 4096
 elements through its buffers, which makes an in-place multiply on a tile's half-view
 three times slower; with 256 it works on them directly. Copies only: the numbers do not
 change."""
+
+
+THREAD_QUBITS = 10
+"""Smallest circuit (in qubits) whose tiles are shared between threads: below it a tile's
+operations are too short for a thread to win back what handing it over costs. Speed
+only."""
 
 
 def _tiny(dtype: np.dtype[Any]) -> float:
@@ -385,7 +393,7 @@ def _block(
     """The real coefficient table and tile type of a block, or None to run it complex."""
     if not real_states or not _real_constants(schedule, s, forms) or np.any(table.imag):
         return None
-    return np.ascontiguousarray(table.real), _real_dtype(table.dtype)
+    return table.real, _real_dtype(table.dtype)  # a view: its rows are read in place
 
 
 def _slots(plan: Plan, schedule: Schedule, s: int, dtype: np.dtype[Any]) -> int:
@@ -438,19 +446,21 @@ def execute(
 ) -> None:
     """Apply ``schedule`` in place to ``states`` (shape ``(B, 2**n)``, C-contiguous).
 
-    ``tile`` (amplitudes per tile, a power of two) changes speed only.
+    ``tile`` (amplitudes per tile, a power of two) changes speed only, and so does the
+    number of threads over tiles (:func:`haarline.engine._threads.engine_threads`).
     """
     if states.shape[0] == 0:
         return
     old = np.getbufsize()
     np.setbufsize(BUFFER_SIZE)
     real = not np.any(states.imag)  # one look: real segments keep real states real
+    threads = thread_count()
     try:
         for s in range(len(schedule.segments)):
             if len(schedule.segments[s].qubits) == schedule.qubits:
-                real = _by_samples(plan, schedule, s, thetas, states, tile, real)
+                real = _by_samples(plan, schedule, s, thetas, states, tile, real, threads)
             else:
-                real = _by_tiles(plan, schedule, s, thetas, states, tile, real)
+                real = _by_tiles(plan, schedule, s, thetas, states, tile, real, threads)
     finally:
         np.setbufsize(old)
 
@@ -463,10 +473,12 @@ def _by_samples(
     states: Amplitudes,
     tile: int,
     real: bool,
+    threads: int,
 ) -> bool:
     """A segment over every qubit: tiles are blocks of samples, one column each.
 
-    ``real``: the states are real. Returns whether they still are.
+    ``real``: the states are real. Returns whether they still are. With ``threads > 1``
+    the blocks are cut so that each thread gets some, and run in threads.
     """
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -475,13 +487,16 @@ def _by_samples(
     slots = _slots(plan, schedule, s, dtype)
     limit = max(1, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize))
     width = max(1, min(batch, max(64, tile >> n), limit))
-    stays = real
-    for b0 in range(0, batch, width):
+    if threads > 1 and n >= THREAD_QUBITS:
+        width = min(width, -(-batch // threads))
+    else:
+        threads = 1
+
+    def one(b0: int) -> bool:
         b1 = min(batch, b0 + width)
         forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
         found = _block(schedule, s, forms, table, real)
         coefs, kind = found if found is not None else (table, dtype)
-        stays = stays and found is not None
         work = _bound(schedule, s, forms, b1 - b0, kind, _power_of_two((b1 - b0) << n))
         block = states[b0:b1]
         np.copyto(work.buffers[0], (block.real if found is not None else block).T)
@@ -493,7 +508,10 @@ def _by_samples(
             np.copyto(block, out.T)
         else:
             np.multiply(out.T, scale[:, None], out=block)
-    return stays
+        return found is not None
+
+    starts = range(0, batch, width)
+    return all(in_threads([partial(one, b0) for b0 in starts], threads)) and real
 
 
 def _by_tiles(
@@ -504,10 +522,12 @@ def _by_tiles(
     states: Amplitudes,
     tile: int,
     real: bool,
+    threads: int,
 ) -> bool:
     """A segment of a larger circuit: tiles are slices of one sample's state.
 
-    ``real``: the states are real. Returns whether they still are.
+    ``real``: the states are real. Returns whether they still are. With ``threads > 1``
+    the tiles of a block (every sample's every slice) are shared out between threads.
     """
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -527,23 +547,36 @@ def _by_tiles(
         found = _block(schedule, s, forms, table, real)
         coefs, kind = found if found is not None else (table, dtype)
         stays = stays and found is not None
-        work = _bound(schedule, s, forms, columns, kind, size)
-        first = work.buffers[0].reshape(inner)
-        out = work.buffers[work.final].reshape(inner)
         scale, marks = _scale(forms, coefs, kind)
-        for i in range(b1 - b0):
-            c = coefs[:, i : i + 1]
-            events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
-            factor = None if scale is None else scale[i : i + 1].reshape(ones)
-            view = states[b0 + i].reshape(shape).transpose(order)
-            for f in np.ndindex(*fshape):
-                part = view[f]
-                np.copyto(first, part.real if found is not None else part)
+        items = [(i, f) for i in range(b1 - b0) for f in np.ndindex(*fshape)]
+
+        def some(
+            mine: list[tuple[int, tuple[int, ...]]],
+            b0: int = b0,
+            forms: list[Form] = forms,
+            coefs: Amplitudes = coefs,
+            kind: np.dtype[Any] = kind,
+            real_tile: bool = found is not None,
+            scale: Amplitudes | None = scale,
+            marks: dict[int, list[Rescale]] = marks,
+        ) -> None:
+            work = _bound(schedule, s, forms, columns, kind, size)  # this thread's tile
+            first = work.buffers[0].reshape(inner)
+            out = work.buffers[work.final].reshape(inner)
+            for i, f in mine:
+                c = coefs[:, i : i + 1]
+                events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
+                part = states[b0 + i].reshape(shape).transpose(order)[f]
+                np.copyto(first, part.real if real_tile else part)
                 _run_ops(work, c, events, column=False)
-                if factor is None:
+                if scale is None:
                     np.copyto(part, out)
                 else:
-                    np.multiply(out, factor, out=part)
+                    np.multiply(out, scale[i : i + 1].reshape(ones), out=part)
+
+        share = threads if threads > 1 and n >= THREAD_QUBITS else 1
+        per = -(-len(items) // share)
+        in_threads([partial(some, items[k : k + per]) for k in range(0, len(items), per)], share)
     return stays
 
 
