@@ -48,7 +48,7 @@ def test_version_imports_neither_scipy_nor_matplotlib_nor_fastapi():
 
 def test_a_small_analysis_imports_only_its_metric():
     modules = _imported("analyze", "ref:ry-cz-ring", "--metrics", "expressibility", "--pairs", "20")
-    assert _roots(modules, (*HEAVY, "openqasm3")) == []
+    assert _roots(modules, (*HEAVY, "openqasm3", "yaml")) == []
     skipped = sorted(
         m
         for m in modules

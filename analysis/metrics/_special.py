@@ -148,9 +148,13 @@ def _coverage(t: float, dof: int, weights: NDArray[np.float64]) -> float:
     return sin * total
 
 
-def _density(t: float, dof: int) -> float:
+def _log_norm(dof: int) -> float:
+    """Logarithm of the Student t density's constant, ``Γ((ν+1)/2) / (√(νπ) Γ(ν/2))``."""
+    return math.lgamma((dof + 1) / 2) - math.lgamma(dof / 2) - 0.5 * math.log(dof * math.pi)
+
+
+def _density(t: float, dof: int, log_norm: float) -> float:
     """The Student t density at ``t``."""
-    log_norm = math.lgamma((dof + 1) / 2) - math.lgamma(dof / 2) - 0.5 * math.log(dof * math.pi)
     return math.exp(log_norm - (dof + 1) / 2 * math.log1p(t * t / dof))
 
 
@@ -191,10 +195,14 @@ def student_t_quantile(dof: int, confidence: float) -> float:
     t = _expansion(NormalDist().inv_cdf(0.5 + confidence / 2), dof)
     if dof >= EXPANSION_DOF:
         return t
-    weights = _series_weights(dof)
-    for _ in range(100):
-        step = (_coverage(t, dof, weights) - confidence) / (2.0 * _density(t, dof))
+    weights, log_norm = _series_weights(dof), _log_norm(dof)
+    previous = math.inf
+    for _ in range(50):
+        step = (_coverage(t, dof, weights) - confidence) / (2.0 * _density(t, dof, log_norm))
+        if abs(step) >= previous:  # rounding noise: the last step did not shrink
+            break
         t = max(t - step, t / 2)  # a step past zero halves t instead
-        if abs(step) <= 1e-16 * t:
+        previous = abs(step)
+        if previous <= 1e-15 * t:
             break
     return t
