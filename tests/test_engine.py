@@ -124,8 +124,8 @@ def test_memory_budget_too_small_for_one_state():
 # The per-gate path (run_steps) is the one checked against the dense reference above; the
 # fused schedule must agree with it to rounding, whatever the segment size and tile size.
 
+from haarline.engine._execute import execute  # noqa: E402
 from haarline.engine._fusion import build_schedule  # noqa: E402
-from haarline.engine._tiles import execute  # noqa: E402
 from haarline.engine.statevector import (  # noqa: E402
     compile_program,
     run_steps,

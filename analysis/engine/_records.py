@@ -1,9 +1,10 @@
 """The engine's records: plans, fused schedules and kernel forms, and the kinds they name.
 
 These small types are shared by :mod:`haarline.engine.statevector` (which builds plans and
-runs them) and the fused path (:mod:`haarline.engine._fusion`, :mod:`haarline.engine._coefficients`,
-:mod:`haarline.engine._tiles`, :mod:`haarline.engine._ops`), which all read them; keeping them
-here lets every one of those modules import them without an import cycle.
+runs them) and the fused path (:mod:`haarline.engine._fusion`,
+:mod:`haarline.engine._coefficients`, :mod:`haarline.engine._execute`,
+:mod:`haarline.engine._tiles`, :mod:`haarline.engine._ops`), which all read them; keeping
+them here lets every one of those modules import them without an import cycle.
 
 Kinds are closed sets of names (``Literal`` aliases), so a misspelt kind is a type error:
 
@@ -52,7 +53,7 @@ Complexes = NDArray[np.complexfloating[Any, Any]]
 # quoted: numpy's runtime `inexact` takes one type argument, its stubs two
 Amplitudes: TypeAlias = "NDArray[np.inexact[Any, Any]]"
 """A tile's array or coefficient table: complex, or real (``float64``/``float32``) while a
-segment whose every coefficient is real runs on real states (:mod:`haarline.engine._tiles`)."""
+segment whose every coefficient is real runs on real states (:mod:`haarline.engine._execute`)."""
 
 KernelKind = Literal["one", "two", "perm", "phase"]
 """How a kernel fuses its gates (see :class:`Kernel`)."""
@@ -140,7 +141,7 @@ class Schedule:
 
     ``slots`` holds the number of per-sample coefficient slots of each segment, and
     ``real`` whether a segment's constants (fixed matrices, permutation phases) are all
-    real, both found on first use (:mod:`haarline.engine._tiles`); they never take part in
+    real, both found on first use (:mod:`haarline.engine._execute`); they never take part in
     comparisons.
     """
 
