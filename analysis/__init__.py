@@ -49,7 +49,6 @@ if TYPE_CHECKING:
     from haarline.engine.statevector import (
         DEFAULT_MEMORY_BUDGET,
         compile_program,
-        engine_threads,
         rows_per_chunk,
         run,
         zero_states,
@@ -210,7 +209,6 @@ _LAZY: dict[str, tuple[str, ...]] = {
     "haarline.engine.statevector": (
         "DEFAULT_MEMORY_BUDGET",
         "compile_program",
-        "engine_threads",
         "rows_per_chunk",
         "run",
         "zero_states",
@@ -511,7 +509,6 @@ __all__ = [
     "diagram_layout",
     "divergence_from_haar",
     "draw_angles",
-    "engine_threads",
     "entangling_capability",
     "estimate",
     "evaluate_policy",

@@ -221,34 +221,6 @@ def test_real_circuits_on_real_states_give_the_complex_paths_numbers(n, layers, 
     np.testing.assert_allclose(real, run_steps(plan, thetas, x.copy()), atol=1e-5 * np.abs(x).max())
 
 
-@pytest.mark.parametrize(("n", "rows"), [(10, 7), (12, 64), (13, 3), (15, 2)])
-def test_threads_over_tiles_never_change_a_bit(n, rows):
-    # tiles shared between threads see the same operations as on one thread: blocks of
-    # samples (n <= 12) and slices of one state (segmented, n > 12); a complex circuit
-    # and a real one (real tiles)
-    from haarline.engine.statevector import engine_threads
-
-    rng = np.random.default_rng(n)
-    for description in (
-        random_description(rng, n, steps=10),
-        {"qubits": n, "layers": 2, "layer": REAL_LAYER},
-    ):
-        plan = compile_program(expand(parse_circuit(description)))
-        thetas = rng.uniform(0, 2 * np.pi, size=(rows, plan.parameters))
-        alone = run(plan, thetas)
-        for threads in (2, 3):
-            with engine_threads(threads):
-                assert np.array_equal(run(plan, thetas), alone)
-
-
-def test_engine_threads_refuses_a_count_out_of_range():
-    from haarline.engine.statevector import engine_threads
-
-    for bad in (0, 65, 1.5, True):
-        with pytest.raises(ValueError, match="thread count"), engine_threads(bad):
-            pass
-
-
 @pytest.mark.parametrize("n", [4, 13])
 def test_rows_never_depend_on_the_batch(n):
     # bit for bit: a row of a big batch equals the same row run alone or in another batch

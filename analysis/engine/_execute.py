@@ -10,7 +10,7 @@ Every kernel of the segment then runs on the scratch array, which stays in the C
 caches, with long contiguous inner loops whatever qubit it acts on, and the tile is
 written back. Memory is streamed twice per segment instead of several times per gate.
 The scratch arrays and the operations bound to them live in
-:mod:`haarline.engine._tiles`; threads over tiles in :mod:`haarline.engine._threads`.
+:mod:`haarline.engine._tiles`.
 
 Kernels whose form leaves out a per-sample factor (shear and diagonal forms, see
 :mod:`haarline.engine._coefficients`) have it multiplied in when the tile is written back, a
@@ -36,17 +36,15 @@ chunking or on how samples are split between processes.
 
 from __future__ import annotations
 
-from functools import partial
 from typing import Any, Literal, TypeAlias
 
 import numpy as np
 from haarline.engine._coefficients import evaluate
 from haarline.engine._records import Amplitudes, Form, Plan, Schedule
-from haarline.engine._threads import in_threads, thread_count
 from haarline.engine._tiles import TILE_AMPLITUDES, Tile, bound_tile, power_of_two
 from numpy.typing import NDArray
 
-__all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "THREAD_QUBITS", "execute"]
+__all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "execute"]
 
 COEFFICIENT_BYTES = 16 << 20
 """Most bytes of per-sample coefficients evaluated at once (bounds the columns of a tile
@@ -58,12 +56,6 @@ numpy copies strided operands whose contiguous runs are shorter than about 4096
 elements through its buffers, which makes an in-place multiply on a tile's half-view
 three times slower; with 256 it works on them directly. Copies only: the numbers do not
 change."""
-
-
-THREAD_QUBITS = 10
-"""Smallest circuit (in qubits) whose tiles are shared between threads: below it a tile's
-operations are too short for a thread to win back what handing it over costs. Speed
-only."""
 
 
 def _tiny(dtype: np.dtype[Any]) -> float:
@@ -189,21 +181,19 @@ def execute(
 ) -> None:
     """Apply ``schedule`` in place to ``states`` (shape ``(B, 2**n)``, C-contiguous).
 
-    ``tile`` (amplitudes per tile, a power of two) changes speed only, and so does the
-    number of threads over tiles (:func:`haarline.engine._threads.engine_threads`).
+    ``tile`` (amplitudes per tile, a power of two) changes speed only.
     """
     if states.shape[0] == 0:
         return
     old = np.getbufsize()
     np.setbufsize(BUFFER_SIZE)
     real = not np.any(states.imag)  # one look: real segments keep real states real
-    threads = thread_count()
     try:
         for s in range(len(schedule.segments)):
             if len(schedule.segments[s].qubits) == schedule.qubits:
-                real = _by_samples(plan, schedule, s, thetas, states, tile, real, threads)
+                real = _by_samples(plan, schedule, s, thetas, states, tile, real)
             else:
-                real = _by_tiles(plan, schedule, s, thetas, states, tile, real, threads)
+                real = _by_tiles(plan, schedule, s, thetas, states, tile, real)
     finally:
         np.setbufsize(old)
 
@@ -216,12 +206,10 @@ def _by_samples(
     states: Amplitudes,
     tile: int,
     real: bool,
-    threads: int,
 ) -> bool:
     """A segment over every qubit: tiles are blocks of samples, one column each.
 
-    ``real``: the states are real. Returns whether they still are. With ``threads > 1``
-    the blocks are cut so that each thread gets some, and run in threads.
+    ``real``: the states are real. Returns whether they still are.
     """
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -230,16 +218,13 @@ def _by_samples(
     slots = _slots(plan, schedule, s, dtype)
     limit = max(1, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize))
     width = max(1, min(batch, max(64, tile >> n), limit))
-    if threads > 1 and n >= THREAD_QUBITS:
-        width = min(width, -(-batch // threads))
-    else:
-        threads = 1
-
-    def one(b0: int) -> bool:
+    stays = real
+    for b0 in range(0, batch, width):
         b1 = min(batch, b0 + width)
         forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
         found = _block(schedule, s, forms, table, real)
         coefs, kind = found if found is not None else (table, dtype)
+        stays = stays and found is not None
         work = bound_tile(schedule, s, forms, b1 - b0, kind, power_of_two((b1 - b0) << n))
         block = states[b0:b1]
         np.copyto(work.buffers[0], (block.real if found is not None else block).T)
@@ -251,10 +236,7 @@ def _by_samples(
             np.copyto(block, out.T)
         else:
             np.multiply(out.T, scale[:, None], out=block)
-        return found is not None
-
-    starts = range(0, batch, width)
-    return all(in_threads([partial(one, b0) for b0 in starts], threads)) and real
+    return stays
 
 
 def _by_tiles(
@@ -265,12 +247,10 @@ def _by_tiles(
     states: Amplitudes,
     tile: int,
     real: bool,
-    threads: int,
 ) -> bool:
     """A segment of a larger circuit: tiles are slices of one sample's state.
 
-    ``real``: the states are real. Returns whether they still are. With ``threads > 1``
-    the tiles of a block (every sample's every slice) are shared out between threads.
+    ``real``: the states are real. Returns whether they still are.
     """
     seg = schedule.segments[s]
     n = schedule.qubits
@@ -290,36 +270,23 @@ def _by_tiles(
         found = _block(schedule, s, forms, table, real)
         coefs, kind = found if found is not None else (table, dtype)
         stays = stays and found is not None
+        work = bound_tile(schedule, s, forms, columns, kind, size)
+        first = work.buffers[0].reshape(inner)
+        out = work.buffers[work.final].reshape(inner)
         scale, marks = _scale(forms, coefs, kind)
-        items = [(i, f) for i in range(b1 - b0) for f in np.ndindex(*fshape)]
-
-        def some(
-            mine: list[tuple[int, tuple[int, ...]]],
-            b0: int = b0,
-            forms: list[Form] = forms,
-            coefs: Amplitudes = coefs,
-            kind: np.dtype[Any] = kind,
-            real_tile: bool = found is not None,
-            scale: Amplitudes | None = scale,
-            marks: dict[int, list[Rescale]] = marks,
-        ) -> None:
-            work = bound_tile(schedule, s, forms, columns, kind, size)  # this thread's tile
-            first = work.buffers[0].reshape(inner)
-            out = work.buffers[work.final].reshape(inner)
-            for i, f in mine:
-                c = coefs[:, i : i + 1]
-                events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
-                part = states[b0 + i].reshape(shape).transpose(order)[f]
-                np.copyto(first, part.real if real_tile else part)
+        for i in range(b1 - b0):
+            c = coefs[:, i : i + 1]
+            events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
+            factor = None if scale is None else scale[i : i + 1].reshape(ones)
+            view = states[b0 + i].reshape(shape).transpose(order)
+            for f in np.ndindex(*fshape):
+                part = view[f]
+                np.copyto(first, part.real if found is not None else part)
                 _run_ops(work, c, events, column=False)
-                if scale is None:
+                if factor is None:
                     np.copyto(part, out)
                 else:
-                    np.multiply(out, scale[i : i + 1].reshape(ones), out=part)
-
-        share = threads if threads > 1 and n >= THREAD_QUBITS else 1
-        per = -(-len(items) // share)
-        in_threads([partial(some, items[k : k + per]) for k in range(0, len(items), per)], share)
+                    np.multiply(out, factor, out=part)
     return stays
 
 

@@ -22,9 +22,6 @@ Both are checked against a dense ``np.kron`` reference in the tests; they agree 
 rounding. Each applies the same operations to a sample whatever the batch, so a row's
 result never depends on the batch size or chunking.
 
-Inside ``with engine_threads(k)`` the fused path shares a segment's tiles between ``k``
-threads (:mod:`haarline.engine._threads`; speed only, the numbers are bit-identical).
-
 Peak working memory is about :data:`WORK_FACTOR` states per batch row (the fused path
 adds a fixed few MiB of tile scratch per thread); :func:`rows_per_chunk` turns a memory
 budget into a batch size.
@@ -41,7 +38,6 @@ from haarline.circuit.program import Program
 from haarline.engine._execute import execute
 from haarline.engine._fusion import build_schedule
 from haarline.engine._records import Complexes, Plan, PlanStep, Schedule
-from haarline.engine._threads import engine_threads
 from haarline.engine._tiles import scratch
 from haarline.errors import LimitError
 from numpy.typing import NDArray
@@ -58,7 +54,6 @@ __all__ = [
     "apply_step",
     "batch_bytes",
     "compile_program",
-    "engine_threads",
     "rows_per_chunk",
     "run",
     "step_matrix",

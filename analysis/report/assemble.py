@@ -19,7 +19,6 @@ from haarline._version import __version__
 from haarline.circuit.model import Circuit
 from haarline.circuit.program import expand, facts
 from haarline.engine.context import Context
-from haarline.engine.statevector import engine_threads
 from haarline.report.data import Dataset
 from haarline.report.inputs import check_inputs
 from haarline.report.metric_row import Request
@@ -93,15 +92,6 @@ def analyze(
     """
     options = options or AnalysisOptions()
     context = replace(context or Context(), precision=options.precision)
-    # the context's cores: worker processes for many samples, threads over tiles when a
-    # computation runs in this process (few samples of many qubits)
-    with engine_threads(context.workers):
-        return _analyze(circuit, options, data, context)
-
-
-def _analyze(
-    circuit: Circuit, options: AnalysisOptions, data: Dataset | None, context: Context
-) -> dict[str, Any]:
     start = time.perf_counter()
     timings: dict[str, float] = {}
     program = expand(circuit)
