@@ -115,7 +115,7 @@ openapi: $(VENV)/.core
 clean:
 	rm -rf $(VENV) $(VENV313) .pytest_cache .hypothesis *.egg-info build dist
 
-## bench: the benchmark suite (about 7 minutes); prints a table and writes bench/results.json
+## bench: the benchmark suite (4-7 minutes); prints a table and writes bench/results.json
 ## (installs the bench extra: qulacs, the compiled baseline of the compiled figure)
 bench: $(VENV)/.bench
 	$(BIN)/python bench/run.py --out bench/results.json
