@@ -25,6 +25,10 @@ Figures (medians of repeated runs):
   (``dask scheduler`` and 1, then 2, single-thread ``dask worker`` processes), with the
   compute time and the bytes sent and returned per block, and from those the expected
   efficiency at 10 and 100 workers (the model is in :func:`cluster_model`).
+* ``compiled`` and ``startup`` (issue 15, ``bench/compiled.py``): states per second of the
+  fidelity workload against the compiled simulator qulacs on one and both cores (skipped
+  with a message when the ``bench`` extra is not installed), and whole-process times of
+  the CLI.
 """
 
 from __future__ import annotations
@@ -46,6 +50,7 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
+import compiled  # noqa: E402
 import haarline  # noqa: E402
 import plain  # noqa: E402
 from haarline.engine import cluster  # noqa: E402
@@ -93,6 +98,15 @@ FULL = {
     "cluster_model_pairs": [5000, 20000],  # the default pair count and a large run
     "cluster_model_workers": [10, 100],
     "cluster_bandwidth": 125e6,  # bytes/s of a 1 Gbit/s network, for the model
+    "compiled_qubits": [4, 8, 12, 16, 20],
+    "compiled_pairs": {4: 5000, 8: 2000, 12: 100, 16: 8, 20: 1},
+    "compiled_repeats": {20: 3},
+    "compiled_cores": [1, 2],
+    "startup_repeats": 9,
+    "peer_qubits": 6,
+    "peer_pairs": 20_000,
+    "peer_repeats": 3,
+    "peer_sample_pairs": 200,
 }
 
 SMOKE = {
@@ -119,6 +133,15 @@ SMOKE = {
     "memory_pairs": 4,
     "memory_budgets": [256 << 20],
     "cluster_qubits": 8,
+    "compiled_qubits": [4, 6],
+    "compiled_pairs": {4: 20, 6: 10},
+    "compiled_repeats": {},
+    "compiled_cores": [1],
+    "startup_repeats": 1,
+    "peer_qubits": 4,
+    "peer_pairs": 200,
+    "peer_repeats": 1,
+    "peer_sample_pairs": 5,
 }
 
 TARGETS = {
@@ -129,6 +152,14 @@ TARGETS = {
     "scan": "<= 60 s",
     "memory": "peak resident memory <= 1.25 x budget",
     "cluster": "2 workers >= 1.6 x as fast as 1 (no target beyond this machine's 2 cores)",
+    "compiled_one_core": "haarline / qulacs >= 1.0 at every n in 4..20, one core",
+    "compiled_small": "haarline / qulacs >= 3 at n <= 8, one core",
+    "compiled_two_cores": "haarline / qulacs >= 1.0 at every n in 4..20, both cores",
+    "startup_version": "haarline --version, whole process <= 0.2 s",
+    "startup_analyze": "haarline analyze ref:ry-cz-ring --metrics expressibility "
+    "--pairs 100, whole process <= 0.3 s",
+    "peer": "whole-process expressibility at n = 6, 20 000 pairs >= 100x the per-sample "
+    "tensordot peer",
 }
 
 
@@ -617,6 +648,30 @@ def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
     add("memory", [round(r["ratio"], 3) for r in mem], all(r["ratio"] <= 1.25 for r in mem))
     cl = figures["cluster"]
     add("cluster", round(cl["ratio"], 2), cl["ratio"] >= 1.6 if cl["qubits"] >= 20 else None)
+    measured = {r["qubits"] for r in figures["compiled"]["rows"]}
+    full = {4, 8, 12, 16, 20} <= measured  # smoke sizes judge nothing
+    for name, cores, sizes, bar in (
+        ("compiled_one_core", 1, range(4, 21), 1.0),
+        ("compiled_small", 1, range(4, 9), 3.0),
+        ("compiled_two_cores", 2, range(4, 21), 1.0),
+    ):
+        rows = [
+            r for r in figures["compiled"]["rows"] if r["cores"] == cores and r["qubits"] in sizes
+        ]
+        add(
+            name,
+            {r["qubits"]: round(r["ratio"], 2) for r in rows} or None,
+            all(r["ratio"] >= bar for r in rows) if rows and full else None,
+        )
+    start = figures["startup"]
+    judged = start["repeats"] >= 5  # a single smoke run judges nothing
+    version = start["version"]["seconds"]
+    add("startup_version", round(version, 3), version <= 0.2 if judged else None)
+    small = start["analyze_small"]["seconds"]
+    add("startup_analyze", round(small, 3), small <= 0.3 if judged else None)
+    whole = start["expressibility_whole"]
+    at_size = whole["qubits"] == 6 and whole["pairs"] == 20_000
+    add("peer", round(whole["ratio"]), whole["ratio"] >= 100 if at_size else None)
     return out
 
 
@@ -672,6 +727,27 @@ def table(results: dict[str, Any]) -> str:
             f"| Dask model | {m['pairs']} pairs, {m['blocks']} blocks, {m['workers']} workers "
             f"| efficiency {m['efficiency']:.2f} | {m['seconds']:.1f} s expected |"
         )
+    comp = f["compiled"]
+    if comp["skipped"]:
+        lines.append(f"| compiled ratio | - | {comp['skipped']} | qulacs |")
+    for r in comp["rows"]:
+        lines.append(
+            f"| compiled ratio | n = {r['qubits']}, {r['circuit']} x{r['layers']}, "
+            f"{r['states']} states, {r['cores']} core(s) | {r['ratio']:.2f}x | "
+            f"{r['baseline']['states_per_second']:.0f} states/s qulacs |"
+        )
+    s = f["startup"]
+    lines.append(f"| start-up | {s['command']} --version | {s['version']['seconds']:.3f} s | - |")
+    lines.append(
+        f"| start-up | {s['command']} analyze {s['analyze_small']['args']} | "
+        f"{s['analyze_small']['seconds']:.3f} s | - |"
+    )
+    w = s["expressibility_whole"]
+    lines.append(
+        f"| peer ratio | whole-process expressibility, n = {w['qubits']}, {w['pairs']} pairs "
+        f"({w['seconds']:.2f} s) | {w['ratio']:.0f}x | "
+        f"{w['baseline']['seconds_per_pair'] * 1e3:.2f} ms/pair tensordot peer |"
+    )
     lines.append("")
     lines.append("| target | value | met |")
     lines.append("| --- | --- | --- |")
@@ -680,7 +756,17 @@ def table(results: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-SECTIONS = ("bandwidth", "naive", "adjoint", "references", "scan", "memory", "cluster")
+SECTIONS = (
+    "bandwidth",
+    "naive",
+    "adjoint",
+    "references",
+    "scan",
+    "memory",
+    "cluster",
+    "compiled",
+    "startup",
+)
 
 
 def main(argv: list[str] | None = None) -> dict[str, Any]:
@@ -701,6 +787,8 @@ def main(argv: list[str] | None = None) -> dict[str, Any]:
         "scan": bench_scan(cfg),
         "memory": bench_memory(cfg),
         "cluster": bench_cluster(cfg),
+        "compiled": compiled.bench_compiled(cfg),
+        "startup": compiled.bench_startup(cfg),
     }
     results: dict[str, Any] = {
         "bench_format": BENCH_FORMAT,

@@ -24,6 +24,8 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
         "scan",
         "memory",
         "cluster",
+        "compiled",
+        "startup",
     }
     for name in ("bandwidth", "naive", "adjoint", "memory"):
         assert figures[name], name
@@ -46,7 +48,21 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
         assert r["returned_bytes_per_block"] < 8 * r["block_pairs"] + 200
     assert [m["workers"] for m in cl["model"]["points"]] == [10, 100, 10, 100]
     assert all(0 < m["efficiency"] <= 1 for m in cl["model"]["points"])
-    assert {t["figure"] for t in results["targets"]} == set(figures)
+    # the compiled figure runs where the bench extra installed qulacs, else says why not
+    compiled = figures["compiled"]
+    if importlib.util.find_spec("qulacs") is None:
+        assert "not installed" in compiled["skipped"] and compiled["rows"] == []
+    else:
+        assert compiled["skipped"] is None and compiled["rows"]
+        for row in compiled["rows"]:
+            assert row["ratio"] > 0 and row["baseline"]["max_state_difference"] < 1e-12
+    startup = figures["startup"]
+    assert startup["version"]["seconds"] > 0 and startup["analyze_small"]["seconds"] > 0
+    peer = startup["expressibility_whole"]
+    assert peer["ratio"] > 0 and peer["baseline"]["max_fidelity_difference"] < 1e-10
+    named = {t["figure"] for t in results["targets"]}
+    assert {"bandwidth", "naive", "adjoint", "references", "scan", "memory"} <= named
+    assert {"compiled_one_core", "compiled_two_cores", "startup_version", "peer"} <= named
     printed = capsys.readouterr().out
     assert "| bandwidth ratio |" in printed and "| target | value | met |" in printed
     assert "| Dask cluster |" in printed and "| Dask model |" in printed

@@ -124,9 +124,14 @@ def test_memory_budget_too_small_for_one_state():
 # The per-gate path (run_steps) is the one checked against the dense reference above; the
 # fused schedule must agree with it to rounding, whatever the segment size and tile size.
 
+from haarline.engine._execute import execute  # noqa: E402
 from haarline.engine._fusion import build_schedule  # noqa: E402
-from haarline.engine._tiles import execute  # noqa: E402
-from haarline.engine.statevector import compile_program, run_steps, zero_states  # noqa: E402
+from haarline.engine.statevector import (  # noqa: E402
+    compile_program,
+    run_steps,
+    schedule,
+    zero_states,
+)
 
 
 def _fused(plan, thetas, *, capacity=None, tile=1 << 17, dtype=np.complex128):
@@ -178,6 +183,42 @@ def test_rotations_at_pi_do_not_overflow():
     got = run(plan, thetas)
     assert np.all(np.isfinite(got))
     np.testing.assert_allclose(got, run_steps(plan, thetas, zero_states(3, 3)), atol=1e-10)
+
+
+REAL_LAYER = [
+    {"gate": "ry"},
+    {"gate": "h", "on": [0]},
+    {"gate": "cz", "on": "ring"},
+    {"gate": "ry", "on": "brick-odd"},
+    {"gate": "cx", "on": "chain"},
+    {"gate": "x", "on": [1]},
+    {"gate": "swap", "on": [[0, 2]]},
+    {"gate": "z", "on": [2]},
+]
+
+
+@pytest.mark.parametrize(
+    ("n", "layers", "dtype"),
+    [(4, 3, np.complex128), (8, 8, np.complex128), (14, 2, np.complex128), (5, 3, np.complex64)],
+)
+def test_real_circuits_on_real_states_give_the_complex_paths_numbers(n, layers, dtype):
+    # a circuit of real gates runs real states on real tiles (half the bytes); the same
+    # linear map on i·x runs on complex tiles, and since (0 + i x)(c + 0i) = x·c i exactly,
+    # its imaginary parts must be the real path's real parts, bit for bit; n = 14 runs
+    # several segments on tiles of one sample, n = 8 x 8 layers rescales mid-segment
+    circuit = parse_circuit({"qubits": n, "layers": layers, "layer": REAL_LAYER})
+    plan = compile_program(expand(circuit))
+    rng = np.random.default_rng(n)
+    thetas = rng.uniform(0, 2 * np.pi, size=(3, plan.parameters))
+    thetas[0, :4] = np.pi  # cos(θ/2) ≈ 6e-17: the running factor is rescaled
+    x = rng.normal(size=(3, 1 << n)).astype(dtype)
+    real = run(plan, thetas, states=x.copy())
+    rotated = run(plan, thetas, states=(1j * x).astype(dtype))
+    assert np.array_equal(real.real, rotated.imag) and not np.any(real.imag)
+    assert not np.any(rotated.real)
+    found = schedule(plan).real  # the real path did run: every segment was found real
+    assert len(found) == len(schedule(plan).segments) and all(found.values())
+    np.testing.assert_allclose(real, run_steps(plan, thetas, x.copy()), atol=1e-5 * np.abs(x).max())
 
 
 @pytest.mark.parametrize("n", [4, 13])

@@ -123,3 +123,43 @@ def test_loss_variance_error_matches_the_closed_form():
     want = math.sqrt((3 / 128 - (n - 3) / (n - 1) / 64) / n)
     assert result.standard_error == pytest.approx(want, rel=0.05)
     assert result.variance == pytest.approx(1 / 8, abs=4 * want)
+
+
+@pytest.mark.parametrize("dof", [3, 5, 6, 99, 874, 999, 1000, 4999, 19_999, 20_000, 10**6])
+@pytest.mark.parametrize("confidence", [0.5, 0.95, 0.999])
+def test_t_quantile_without_scipy_matches_scipy_over_the_range(dof, confidence):
+    # scipy.special.stdtrit (the inverse Student t distribution function); both sides of
+    # the series / expansion switch and high coverage, where the tail is flat
+    from haarline.metrics._special import student_t_quantile
+    from scipy import special
+
+    want = float(special.stdtrit(dof, 0.5 + confidence / 2))
+    assert student_t_quantile(dof, confidence) == pytest.approx(want, rel=2e-13)
+
+
+@pytest.mark.parametrize("bad", [0, -3, 2.5, True])
+def test_t_quantile_refuses_what_is_not_a_whole_number_of_degrees(bad):
+    from haarline.metrics._special import student_t_quantile
+
+    with pytest.raises(ValueError, match="degrees of freedom"):
+        student_t_quantile(bad, 0.95)
+
+
+def test_log_gamma_is_scipys_gammaln_to_the_bit():
+    # the plug-in bias sums binomial masses exp(lnΓ(m+1) - lnΓ(k+1) - lnΓ(m-k+1) + ...):
+    # an ulp of lnΓ(m+1) moves the reported bias by 1e-10, so the replacement must give
+    # scipy.special.gammaln's doubles exactly (whole numbers, halves, and the small range)
+    from haarline.metrics._special import log_gamma
+    from scipy import special
+
+    x = np.concatenate(
+        [
+            np.arange(1, 200_001, dtype=float),
+            np.arange(1, 20_001) + 0.5,
+            np.linspace(1e-3, 40.0, 20_001),
+            np.geomspace(40.0, 1e12, 2_001),
+        ]
+    )
+    assert np.array_equal(log_gamma(x), special.gammaln(x))
+    with pytest.raises(ValueError, match="positive"):
+        log_gamma(np.array([1.0, 0.0]))

@@ -208,7 +208,7 @@ def test_the_source_folder_names_are_never_imported(folder: str):
 
 
 # packages of the `test` extra that serve only as independent references in tests
-TEST_ONLY = {*PACKAGES, "qutip", "sklearn"}
+TEST_ONLY = {*PACKAGES, "qutip", "sklearn", "qulacs"}  # qulacs: the bench baseline
 
 
 def test_reference_packages_of_the_tests_are_never_imported_by_the_package():

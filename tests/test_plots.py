@@ -16,6 +16,10 @@ import struct
 from pathlib import Path
 
 import haarline
+import haarline.plots.comparison
+import haarline.plots.diagram
+import haarline.plots.figures
+import haarline.plots.scans
 import matplotlib
 import matplotlib.image
 import numpy as np

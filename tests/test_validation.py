@@ -13,6 +13,7 @@ import json
 import math
 
 import haarline
+import haarline.circuit.model
 import pytest
 import yaml
 from haarline import CircuitError, OptionError, expand, facts, parse_circuit, parse_circuit_text

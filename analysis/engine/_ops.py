@@ -3,7 +3,9 @@
 Each form of :mod:`haarline.engine._coefficients` becomes a short list of in-place numpy calls
 on the two halves (or quarters) of a tile that a kernel mixes; each call takes the tile's
 coefficient table ``c`` (one row per slot) and reads its coefficients from it, or uses the
-constants of fixed gates (multiplications by 0 and 1 are skipped).
+constants of fixed gates (multiplications by 0 and 1 are skipped). On a real tile (a
+segment whose coefficients are all real, run on real states) the constants are taken as
+real numbers: the same products, without the zero imaginary parts.
 """
 
 from __future__ import annotations
@@ -11,11 +13,11 @@ from __future__ import annotations
 from collections.abc import Callable
 
 import numpy as np
-from haarline.engine._records import BlockKind, Coef, Complexes
+from haarline.engine._records import Amplitudes, BlockKind, Coef
 
 __all__ = ["Op", "ops_2x2"]
 
-Op = Callable[[Complexes], object]
+Op = Callable[[Amplitudes], object]
 """One bound operation: called with the tile's coefficient table (what it returns is
 ignored)."""
 
@@ -27,19 +29,23 @@ def _is(value: object, target: complex) -> bool:
 def ops_2x2(
     kind: BlockKind,
     coefs: tuple[Coef, ...],
-    a: Complexes,
-    b: Complexes,
-    u: Complexes,
-    v: Complexes,
+    a: Amplitudes,
+    b: Amplitudes,
+    u: Amplitudes,
+    v: Amplitudes,
 ) -> list[Op]:
     """Operations for ``(a, b) <- M (a, b)`` in place.
 
     ``u``, ``v`` are temporaries of the same shape; ``coefs`` holds constants or indices
-    into the tile's coefficient table.
+    into the tile's coefficient table. On a real tile the constants must be real.
     """
+    real = a.dtype.kind == "f"
 
-    def get(c: Complexes, x: Coef) -> complex | Complexes:
-        return x if isinstance(x, complex) else c[x]
+    def get(c: Amplitudes, x: Coef) -> complex | float | Amplitudes:
+        if isinstance(x, complex):
+            return _constant(x, real)
+        row: Amplitudes = c[x]
+        return row
 
     ops: list[Op] = []
     if kind == "diag1":
@@ -67,7 +73,7 @@ def ops_2x2(
     if kind == "shear":  # [[1, beta], [gamma, 1]]
         beta, gamma = coefs
 
-        def shear(c: Complexes) -> None:
+        def shear(c: Amplitudes) -> None:
             np.multiply(b, get(c, beta), out=u)
             np.multiply(a, get(c, gamma), out=v)
             np.add(a, u, out=a)
@@ -83,9 +89,15 @@ def ops_2x2(
         and isinstance(m10, complex)
         and isinstance(m11, complex)
     ):
-        return _ops_fixed(m00, m01, m10, m11, a, b, u, v)
+        return _ops_fixed(
+            _constant(m00, real),
+            _constant(m01, real),
+            _constant(m10, real),
+            _constant(m11, real),
+            *(a, b, u, v),
+        )
 
-    def general(c: Complexes) -> None:
+    def general(c: Amplitudes) -> None:
         np.multiply(a, get(c, m00), out=u)
         np.multiply(b, get(c, m01), out=v)
         np.add(u, v, out=u)
@@ -97,19 +109,28 @@ def ops_2x2(
     return [general]
 
 
+def _constant(x: complex, real: bool) -> complex | float:
+    """A constant as a tile of this kind multiplies by it: its real part on a real tile."""
+    if not real:
+        return x
+    if x.imag != 0:
+        raise ValueError(f"a real tile cannot multiply by the complex constant {x}")
+    return x.real
+
+
 def _ops_fixed(
-    m00: complex,
-    m01: complex,
-    m10: complex,
-    m11: complex,
-    a: Complexes,
-    b: Complexes,
-    u: Complexes,
-    v: Complexes,
+    m00: complex | float,
+    m01: complex | float,
+    m10: complex | float,
+    m11: complex | float,
+    a: Amplitudes,
+    b: Amplitudes,
+    u: Amplitudes,
+    v: Amplitudes,
 ) -> list[Op]:
     """A fixed 2x2 in place, skipping multiplications by 0 and 1."""
 
-    def scaled(x: Complexes, m: complex, out: Complexes) -> None:
+    def scaled(x: Amplitudes, m: complex | float, out: Amplitudes) -> None:
         if m == 1:
             np.copyto(out, x)
         elif m == -1:
@@ -117,7 +138,7 @@ def _ops_fixed(
         else:
             np.multiply(x, m, out=out)
 
-    def fixed(c: Complexes) -> None:
+    def fixed(c: Amplitudes) -> None:
         # new a into u
         if m00 != 0:
             scaled(a, m00, u)

@@ -1,9 +1,10 @@
 """The engine's records: plans, fused schedules and kernel forms, and the kinds they name.
 
 These small types are shared by :mod:`haarline.engine.statevector` (which builds plans and
-runs them) and the fused path (:mod:`haarline.engine._fusion`, :mod:`haarline.engine._coefficients`,
-:mod:`haarline.engine._tiles`, :mod:`haarline.engine._ops`), which all read them; keeping them
-here lets every one of those modules import them without an import cycle.
+runs them) and the fused path (:mod:`haarline.engine._fusion`,
+:mod:`haarline.engine._coefficients`, :mod:`haarline.engine._execute`,
+:mod:`haarline.engine._tiles`, :mod:`haarline.engine._ops`), which all read them; keeping
+them here lets every one of those modules import them without an import cycle.
 
 Kinds are closed sets of names (``Literal`` aliases), so a misspelt kind is a type error:
 
@@ -21,7 +22,7 @@ Kinds are closed sets of names (``Literal`` aliases), so a misspelt kind is a ty
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal, TypeGuard, get_args
+from typing import Any, Literal, TypeAlias, TypeGuard, get_args
 
 import numpy as np
 from haarline.circuit.gates import GateSpec
@@ -29,6 +30,7 @@ from numpy.typing import NDArray
 
 __all__ = [
     "BLOCK_KINDS",
+    "Amplitudes",
     "BlockKind",
     "Coef",
     "Complexes",
@@ -47,6 +49,11 @@ __all__ = [
 
 Complexes = NDArray[np.complexfloating[Any, Any]]
 """A complex array of either precision: ``complex128``, or ``complex64`` in single precision."""
+
+# quoted: numpy's runtime `inexact` takes one type argument, its stubs two
+Amplitudes: TypeAlias = "NDArray[np.inexact[Any, Any]]"
+"""A tile's array or coefficient table: complex, or real (``float64``/``float32``) while a
+segment whose every coefficient is real runs on real states (:mod:`haarline.engine._execute`)."""
 
 KernelKind = Literal["one", "two", "perm", "phase"]
 """How a kernel fuses its gates (see :class:`Kernel`)."""
@@ -132,13 +139,16 @@ class Segment:
 class Schedule:
     """A plan compiled for the fast engine.
 
-    ``slots`` holds the number of per-sample coefficient slots of each segment, counted
-    on first use (:mod:`haarline.engine._tiles`); it never takes part in comparisons.
+    ``slots`` holds the number of per-sample coefficient slots of each segment, and
+    ``real`` whether a segment's constants (fixed matrices, permutation phases) are all
+    real, both found on first use (:mod:`haarline.engine._execute`); they never take part in
+    comparisons.
     """
 
     qubits: int
     segments: tuple[Segment, ...]
     slots: dict[int, int] = field(default_factory=dict, compare=False, repr=False)
+    real: dict[int, bool] = field(default_factory=dict, compare=False, repr=False)
 
 
 @dataclass(eq=False)

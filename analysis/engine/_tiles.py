@@ -1,49 +1,36 @@
-"""Apply a :class:`~haarline.engine._fusion.Schedule` to a batch of states, one tile at a time.
+"""Tiles: a segment's operations bound to scratch arrays, and the per-thread scratch pool.
 
-For each segment the batch is visited in *tiles* of about :data:`TILE_AMPLITUDES`
-amplitudes. A tile is gathered into a contiguous scratch array of shape
-``(2**len(Q), columns)``: one row per value of the segment's qubits ``Q`` (in index
-order), and one column per sample (circuits of up to 12 qubits: the whole state is one
-column) or per value of the lowest qubits outside ``Q`` (larger circuits: one sample,
-and every value of the remaining qubits is its own tile). Every kernel of the segment
-then runs on the scratch array, which stays in the CPU caches, with long contiguous inner
-loops whatever qubit it acts on, and the tile is written back. Memory is streamed twice
-per segment instead of several times per gate. Scratch arrays come from a small
-per-thread pool, so a run allocates (and page-faults) almost nothing.
-
-Kernels whose form leaves out a per-sample factor (shear and diagonal forms, see
-:mod:`haarline.engine._coefficients`) have it multiplied in when the tile is written back, a
-copy that happens anyway. Should a sample's running factor fall below :func:`_tiny`
-inside a segment (rotations at θ ≈ π), its column is rescaled right there, so nothing
-overflows.
-
-Every amplitude of sample ``k`` sees the same floating-point operations in the same order
-whatever the batch size, tile size or layout (numpy's elementwise loops give the same
-result for an element wherever it sits in an array), so the numbers never depend on
-chunking or on how samples are split between processes.
+A :class:`Tile` holds a segment's kernels as short lists of in-place numpy calls
+(:mod:`haarline.engine._ops`) bound once to two scratch arrays of shape
+``(2**len(Q), columns)`` (one row per value of the segment's qubits ``Q``) and two
+temporaries; :mod:`haarline.engine._execute` gathers a tile of states into them, calls the
+operations and writes the tile back. The arrays come from a small per-thread pool and the
+bound tiles are kept per thread (an LRU), so a run allocates (and page-faults) almost
+nothing and threads never share scratch memory. A tile of real dtype (``float64`` or
+``float32``) takes the real parts of the constants: the engine binds one for segments whose
+coefficients are all real.
 """
 
 from __future__ import annotations
 
 import threading
-from typing import Any, Literal
+from typing import Any
 
 import numpy as np
-from haarline.engine._coefficients import evaluate
 from haarline.engine._ops import Op, ops_2x2
 from haarline.engine._records import (
+    Amplitudes,
     BlockKind,
     Coef,
     Complexes,
     Form,
-    Plan,
     Schedule,
     Segment,
     is_block,
 )
 from numpy.typing import NDArray
 
-__all__ = ["BUFFER_SIZE", "COEFFICIENT_BYTES", "TILE_AMPLITUDES", "execute", "scratch"]
+__all__ = ["TILE_AMPLITUDES", "Tile", "bound_tile", "power_of_two", "scratch"]
 
 TILE_AMPLITUDES = 1 << 18
 """Amplitudes per tile (4 MiB in double precision; the kernels' temporaries add as much
@@ -52,30 +39,17 @@ per-call cost and its inner loops over short rows matter more than the cache lev
 ran as fast as 2**17 and faster than L2-sized tiles. Speed only: the numbers never depend
 on it."""
 
-COEFFICIENT_BYTES = 16 << 20
-"""Most bytes of per-sample coefficients evaluated at once (bounds the columns of a tile
-of a long circuit on few qubits)."""
-
-BUFFER_SIZE = 256
-"""numpy's ufunc buffer size while a schedule runs. With the default (8192 elements)
-numpy copies strided operands whose contiguous runs are shorter than about 4096
-elements through its buffers, which makes an in-place multiply on a tile's half-view
-three times slower; with 256 it works on them directly. Copies only: the numbers do not
-change."""
-
-
-def _tiny(dtype: np.dtype[Any]) -> float:
-    """Running factor below which a sample's tile column is rescaled mid-segment."""
-    return 1e-150 if np.dtype(dtype).itemsize == 16 else 1e-18
-
 
 class _Pool:
-    """Per-thread flat scratch arrays, shared by every bound tile of that thread."""
+    """Per-thread flat scratch arrays, shared by every bound tile of that thread.
+
+    Arrays of any dtype (complex, or real for real tiles), hence ``NDArray[Any]``.
+    """
 
     def __init__(self) -> None:
-        self.arrays: dict[tuple[str, int, int], Complexes] = {}
+        self.arrays: dict[tuple[str, int, int], NDArray[Any]] = {}
 
-    def get(self, dtype: np.dtype[Any], index: int, size: int) -> Complexes:
+    def get(self, dtype: np.dtype[Any], index: int, size: int) -> NDArray[Any]:
         key = (np.dtype(dtype).str, index, size)
         arr = self.arrays.get(key)
         if arr is None:
@@ -83,7 +57,7 @@ class _Pool:
         return arr
 
 
-class _Tile:
+class Tile:
     """A segment's operations bound to scratch arrays of one tile shape."""
 
     def __init__(
@@ -111,24 +85,24 @@ class _Tile:
         self.ops = [op for group in self.groups for op in group]
         self.final = current
 
-    def _temp(self, i: int, shape: tuple[int, ...]) -> Complexes:
+    def _temp(self, i: int, shape: tuple[int, ...]) -> Amplitudes:
         size = int(np.prod(shape))
         return self.temps[i][:size].reshape(shape)
 
-    def _halves(self, buf: Complexes, q: int) -> tuple[Complexes, Complexes]:
+    def _halves(self, buf: Amplitudes, q: int) -> tuple[Amplitudes, Amplitudes]:
         k = len(self.local)
         p = self.local[q]
         v = buf.reshape(1 << p, 2, 1 << (k - p - 1), self.columns)
         return v[:, 0], v[:, 1]
 
     def _quarters(
-        self, buf: Complexes, first: int, second: int
-    ) -> dict[tuple[int, int], Complexes]:
+        self, buf: Amplitudes, first: int, second: int
+    ) -> dict[tuple[int, int], Amplitudes]:
         k = len(self.local)
         p1, p2 = self.local[first], self.local[second]
         lo, hi = min(p1, p2), max(p1, p2)
         v = buf.reshape(1 << lo, 2, 1 << (hi - lo - 1), 2, 1 << (k - hi - 1), self.columns)
-        out: dict[tuple[int, int], Complexes] = {}
+        out: dict[tuple[int, int], Amplitudes] = {}
         for bf in (0, 1):
             for bs in (0, 1):
                 b_lo, b_hi = (bf, bs) if p1 < p2 else (bs, bf)
@@ -142,11 +116,14 @@ class _Tile:
         if form.kind == "perm":
             assert k.perm is not None and k.phase is not None
             identity = np.array_equal(k.perm, np.arange(len(k.perm)))
-            phase = None if np.all(k.phase == 1) else k.phase.astype(dtype)[:, None]
+            values = k.phase.real if dtype.kind == "f" else k.phase  # real: checked before
+            phase = None if np.all(k.phase == 1) else values.astype(dtype)[:, None]
             if identity:
                 if phase is not None:
 
-                    def rephase(c: Complexes, buf: Complexes = buf, ph: Complexes = phase) -> None:
+                    def rephase(
+                        c: Amplitudes, buf: Amplitudes = buf, ph: Amplitudes = phase
+                    ) -> None:
                         np.multiply(buf, ph, out=buf)
 
                     add(rephase)
@@ -155,11 +132,11 @@ class _Tile:
             source = k.perm.astype(np.intp)
 
             def permute(
-                c: Complexes,
-                src: Complexes = buf,
-                dst: Complexes = other,
+                c: Amplitudes,
+                src: Amplitudes = buf,
+                dst: Amplitudes = other,
                 perm: NDArray[np.intp] = source,
-                ph: Complexes | None = phase,
+                ph: Amplitudes | None = phase,
             ) -> None:
                 np.take(src, perm, axis=0, out=dst, mode="clip")
                 if ph is not None:
@@ -171,7 +148,7 @@ class _Tile:
             start, rows = (_slot(x) for x in form.coefs)
 
             def phases(
-                c: Complexes, buf: Complexes = buf, lo: int = start, hi: int = start + rows
+                c: Amplitudes, buf: Amplitudes = buf, lo: int = start, hi: int = start + rows
             ) -> None:
                 np.multiply(buf, c[lo:hi], out=buf)
 
@@ -199,10 +176,10 @@ class _Tile:
         if form.kind == "swap":
 
             def swap(
-                c: Complexes,
-                x: Complexes = quarters[(0, 1)],
-                y: Complexes = quarters[(1, 0)],
-                t: Complexes = u,
+                c: Amplitudes,
+                x: Amplitudes = quarters[(0, 1)],
+                y: Amplitudes = quarters[(1, 0)],
+                t: Amplitudes = u,
             ) -> None:
                 np.copyto(t, x)
                 np.copyto(x, y)
@@ -224,8 +201,9 @@ class _Tile:
         subs = [quarters[key] for key in order]
         olds = [np.empty(shape, dtype=dtype) for _ in range(4)]
         entries = [[form.coefs[4 * i + j] for j in range(4)] for i in range(4)]
+        real = dtype.kind == "f"  # a real tile: every constant is real (checked before)
 
-        def general4(c: Complexes) -> None:
+        def general4(c: Amplitudes) -> None:
             for s, o in zip(subs, olds, strict=True):
                 np.copyto(o, s)
             for i in range(4):
@@ -235,7 +213,7 @@ class _Tile:
                     if isinstance(e, complex):
                         if e == 0:
                             continue
-                        np.multiply(olds[j], e, out=u)
+                        np.multiply(olds[j], e.real if real else e, out=u)
                     else:
                         np.multiply(olds[j], c[e], out=u)
                     np.add(subs[i], u, out=subs[i])
@@ -258,39 +236,6 @@ def _slot(coef: Coef) -> int:
     return coef
 
 
-# -- gather and scatter -------------------------------------------------------------------
-
-
-_Run = Literal["f", "q", "w"]
-"""A qubit's part in a tile layout: selects the tile (f), local row (q) or column (w)."""
-
-
-def _layout(
-    n: int, local: tuple[int, ...], tile_log: int
-) -> tuple[tuple[int, ...], tuple[int, ...], int, int]:
-    """How one state of a large circuit is cut into a segment's tiles.
-
-    Returns the reshape of the state into runs of adjacent qubits, the transpose that
-    puts the (tile-selecting, local, column) runs in that order, the number of selecting
-    runs and the column count.
-    """
-    others = [q for q in range(n) if q not in local]
-    width = max(0, min(len(others), tile_log - len(local)))
-    columns = set(others[len(others) - width :])
-    cls: list[_Run] = ["q" if q in local else ("w" if q in columns else "f") for q in range(n)]
-    runs: list[tuple[_Run, int]] = []
-    for c in cls:
-        if runs and runs[-1][0] == c:
-            runs[-1] = (c, runs[-1][1] + 1)
-        else:
-            runs.append((c, 1))
-    shape = tuple(1 << size for _, size in runs)
-    kinds: tuple[_Run, ...] = ("f", "q", "w")
-    order = [i for kind in kinds for i, (c, _) in enumerate(runs) if c == kind]
-    select = sum(1 for c, _ in runs if c == "f")
-    return shape, tuple(order), select, 1 << width
-
-
 class _PerThread(threading.local):
     """Each thread's scratch pool and bound tiles (set up on a thread's first use).
 
@@ -300,198 +245,36 @@ class _PerThread(threading.local):
 
     def __init__(self) -> None:
         self.pool = _Pool()
-        self.tiles: dict[tuple[int, int, int, str, int], tuple[Schedule, _Tile]] = {}
+        self.tiles: dict[tuple[int, int, int, str, int], tuple[Schedule, Tile]] = {}
 
 
 _local = _PerThread()
 
 
 def scratch(dtype: np.dtype[Any], index: int, size: int) -> Complexes:
-    """A flat scratch array of ``size`` elements from the per-thread pool.
+    """A flat complex scratch array of ``size`` elements from the per-thread pool.
 
     Indices 0-3 are the tiles'; the gate-by-gate path uses 10 and up.
     """
-    return _local.pool.get(dtype, index, _power_of_two(size))[:size]
+    out: Complexes = _local.pool.get(dtype, index, power_of_two(size))[:size]
+    return out
 
 
-def _bound(
+def bound_tile(
     schedule: Schedule, s: int, forms: list[Form], columns: int, dtype: np.dtype[Any], size: int
-) -> _Tile:
+) -> Tile:
     """Bound operations of segment ``s`` for a tile width, reused between calls (LRU)."""
     pool, tiles = _local.pool, _local.tiles
     key = (id(schedule), s, columns, np.dtype(dtype).str, size)
     entry = tiles.pop(key, None)
     if entry is None or entry[0] is not schedule:
-        entry = (schedule, _Tile(schedule.segments[s], forms, columns, dtype, pool, size))
+        entry = (schedule, Tile(schedule.segments[s], forms, columns, dtype, pool, size))
     tiles[key] = entry
     while len(tiles) > 64:
         tiles.pop(next(iter(tiles)))
     return entry[1]
 
 
-def _power_of_two(x: int) -> int:
+def power_of_two(x: int) -> int:
     """Smallest power of two >= x (pool arrays come in a few sizes)."""
     return 1 << max(0, (x - 1).bit_length())
-
-
-def _slots(plan: Plan, schedule: Schedule, s: int, dtype: np.dtype[Any]) -> int:
-    """Coefficient slots of segment ``s`` (one dry evaluation, kept with the schedule)."""
-    found = schedule.slots.get(s)
-    if found is None:
-        _, table = evaluate(plan, schedule.segments[s], np.zeros((1, plan.parameters)), dtype)
-        found = schedule.slots[s] = table.shape[0]
-    return found
-
-
-Rescale = tuple[int, np.complexfloating[Any, Any]]
-"""A mid-segment rescale: after the kernel at this position, multiply by this value."""
-
-
-def _scale(
-    forms: list[Form], table: Complexes, dtype: np.dtype[Any]
-) -> tuple[Complexes | None, dict[int, list[Rescale]]]:
-    """Running per-sample factor of a segment, and rare mid-segment rescales.
-
-    The factor has shape (w,) (or is None); the rescales ``{column: [(kernel position,
-    multiplier), ...]}`` keep it above :func:`_tiny`.
-    """
-    tiny = _tiny(dtype)
-    width = table.shape[1]
-    scale: Complexes | None = None
-    marks: dict[int, list[Rescale]] = {}
-    for pos, form in enumerate(forms):
-        f = form.factor
-        if f is None:
-            continue
-        value = table[f] if isinstance(f, int) else np.full(width, f, dtype=dtype)
-        scale = value.copy() if scale is None else scale * value
-        low = np.flatnonzero(np.abs(scale) < tiny)
-        for i in low.tolist():
-            marks.setdefault(i, []).append((pos, scale[i]))
-        scale[low] = 1.0
-    return scale, marks
-
-
-def execute(
-    plan: Plan,
-    schedule: Schedule,
-    thetas: NDArray[np.float64],
-    states: Complexes,
-    *,
-    tile: int = TILE_AMPLITUDES,
-) -> None:
-    """Apply ``schedule`` in place to ``states`` (shape ``(B, 2**n)``, C-contiguous).
-
-    ``tile`` (amplitudes per tile, a power of two) changes speed only.
-    """
-    if states.shape[0] == 0:
-        return
-    old = np.getbufsize()
-    np.setbufsize(BUFFER_SIZE)
-    try:
-        for s in range(len(schedule.segments)):
-            if len(schedule.segments[s].qubits) == schedule.qubits:
-                _by_samples(plan, schedule, s, thetas, states, tile)
-            else:
-                _by_tiles(plan, schedule, s, thetas, states, tile)
-    finally:
-        np.setbufsize(old)
-
-
-def _by_samples(
-    plan: Plan,
-    schedule: Schedule,
-    s: int,
-    thetas: NDArray[np.float64],
-    states: Complexes,
-    tile: int,
-) -> None:
-    """A segment over every qubit: tiles are blocks of samples, one column each."""
-    seg = schedule.segments[s]
-    n = schedule.qubits
-    batch = states.shape[0]
-    dtype = states.dtype
-    slots = _slots(plan, schedule, s, dtype)
-    limit = max(1, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize))
-    width = max(1, min(batch, max(64, tile >> n), limit))
-    for b0 in range(0, batch, width):
-        b1 = min(batch, b0 + width)
-        forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
-        work = _bound(schedule, s, forms, b1 - b0, dtype, _power_of_two((b1 - b0) << n))
-        np.copyto(work.buffers[0], states[b0:b1].T)
-        scale, marks = _scale(forms, table, dtype)
-        rescales: list[tuple[int | None, Rescale]] = [(i, e) for i, es in marks.items() for e in es]
-        _run_ops(work, table, rescales, column=True)
-        out = work.buffers[work.final]
-        if scale is None:
-            np.copyto(states[b0:b1], out.T)
-        else:
-            np.multiply(out.T, scale[:, None], out=states[b0:b1])
-
-
-def _by_tiles(
-    plan: Plan,
-    schedule: Schedule,
-    s: int,
-    thetas: NDArray[np.float64],
-    states: Complexes,
-    tile: int,
-) -> None:
-    """A segment of a larger circuit: tiles are slices of one sample's state."""
-    seg = schedule.segments[s]
-    n = schedule.qubits
-    batch = states.shape[0]
-    dtype = states.dtype
-    shape, order, select, columns = _layout(n, seg.qubits, tile.bit_length() - 1)
-    fshape = tuple(shape[i] for i in order[:select])
-    inner = tuple(shape[i] for i in order[select:])
-    ones = (1,) * len(inner)
-    size = _power_of_two(columns << len(seg.qubits))
-    slots = _slots(plan, schedule, s, dtype)
-    width = max(1, min(batch, COEFFICIENT_BYTES // max(1, slots * dtype.itemsize)))
-    for b0 in range(0, batch, width):
-        b1 = min(batch, b0 + width)
-        forms, table = evaluate(plan, seg, thetas[b0:b1], dtype)
-        work = _bound(schedule, s, forms, columns, dtype, size)
-        first = work.buffers[0].reshape(inner)
-        out = work.buffers[work.final].reshape(inner)
-        scale, marks = _scale(forms, table, dtype)
-        for i in range(b1 - b0):
-            c = table[:, i : i + 1]
-            events: list[tuple[int | None, Rescale]] = [(None, e) for e in marks.get(i, ())]
-            factor = None if scale is None else scale[i : i + 1].reshape(ones)
-            view = states[b0 + i].reshape(shape).transpose(order)
-            for f in np.ndindex(*fshape):
-                part = view[f]
-                np.copyto(first, part)
-                _run_ops(work, c, events, column=False)
-                if factor is None:
-                    np.copyto(part, out)
-                else:
-                    np.multiply(out, factor, out=part)
-
-
-def _run_ops(
-    tile: _Tile, c: Complexes, events: list[tuple[int | None, Rescale]], *, column: bool
-) -> None:
-    """Run a tile's operations.
-
-    ``events`` are rare mid-segment rescales ``(column or None, (kernel position,
-    multiplier))``.
-    """
-    if not events:
-        for op in tile.ops:
-            op(c)
-        return
-    by_pos: dict[int, list[tuple[int | None, np.complexfloating[Any, Any]]]] = {}
-    for col, (pos, mult) in events:
-        by_pos.setdefault(pos, []).append((col, mult))
-    for pos, group in enumerate(tile.groups):
-        for op in group:
-            op(c)
-        for col, mult in by_pos.get(pos, ()):
-            buf = tile.buffers[tile.holder[pos]]
-            if column:
-                buf[:, col] *= mult
-            else:
-                buf *= mult

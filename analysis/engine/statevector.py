@@ -10,7 +10,7 @@ Two paths apply a plan:
   per plan): consecutive one-qubit gates on a qubit multiplied into one 2x2, runs of
   fixed basis-permuting gates (``cz`` rings, ``cx`` ladders, ``s``, ``t``, …) as one
   permutation with phases, and the whole segment of gates applied to one cache-sized
-  tile of the batch at a time (:mod:`haarline.engine._tiles`), so that memory is streamed once
+  tile of the batch at a time (:mod:`haarline.engine._execute`), so that memory is streamed once
   per segment instead of several times per gate;
 * :func:`apply_step`, :func:`apply_generator` and :func:`apply_pauli` apply one gate of
   the plan (its :class:`PlanStep`) in place, by viewing the batch as
@@ -35,9 +35,10 @@ from typing import Any
 import numpy as np
 from haarline.circuit.gates import generator_matrix, lookup
 from haarline.circuit.program import Program
+from haarline.engine._execute import execute
 from haarline.engine._fusion import build_schedule
 from haarline.engine._records import Complexes, Plan, PlanStep, Schedule
-from haarline.engine._tiles import execute, scratch
+from haarline.engine._tiles import scratch
 from haarline.errors import LimitError
 from numpy.typing import NDArray
 

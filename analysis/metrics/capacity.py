@@ -31,7 +31,6 @@ from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream
 from haarline.engine.statevector import apply_generator, apply_step, compile_program
 from numpy.typing import NDArray
-from scipy import linalg
 
 __all__ = [
     "DEFAULT_RANK_TOLERANCE",
@@ -195,6 +194,8 @@ def capacity(
         if rank > best_rank:
             best_rank, best_f, best_eig = rank, f, eig
     assert best_f is not None and best_eig is not None
+    from scipy import linalg  # on first use, not with the module
+
     _, _, piv = linalg.qr(best_f, pivoting=True)
     top = best_eig[0] if best_eig.size and best_eig[0] > 0 else 1.0
     redundant = []

@@ -35,10 +35,10 @@ from haarline.engine.context import Context
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import Stream, block_rng
 from haarline.engine.statevector import Complexes
+from haarline.metrics._special import log_gamma
 from haarline.metrics.haar import haar_bin_log_masses, haar_second_moment
 from haarline.metrics.intervals import mean_interval
 from numpy.typing import NDArray
-from scipy import special  # scipy.stats would add a second to start-up
 
 __all__ = [
     "BOOTSTRAP_RESAMPLES",
@@ -153,7 +153,7 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
     log_q = haar_bin_log_masses(qubits, bins)
     q = np.exp(log_q)
     m = float(pairs)
-    total = 0.0
+    terms = []
     for qj, lqj in zip(q, log_q, strict=True):
         if qj <= 0.0 or qj >= 1.0:
             continue  # an empty or a certain bin: p̂ = q exactly, so it adds no bias
@@ -161,11 +161,20 @@ def plugin_bias(qubits: int, bins: int, pairs: int) -> float:
         sd = np.sqrt(mean * (1.0 - qj))
         lo = max(1, int(np.floor(mean - 12 * sd - 12)))
         hi = min(pairs, int(np.ceil(mean + 12 * sd + 12)))
-        k = np.arange(lo, hi + 1, dtype=float)
+        terms.append((qj, lqj, np.arange(lo, hi + 1)))
+    # ln j! for every j the binomial masses use, each evaluated once (bins overlap)
+    used = np.unique(
+        np.concatenate([[pairs], *(t[2] for t in terms), *(pairs - t[2] for t in terms)])
+    )
+    log_factorial = np.zeros(pairs + 1)
+    log_factorial[used] = log_gamma(used + 1.0)
+    total = 0.0
+    for qj, lqj, ks in terms:
+        k = ks.astype(float)
         pmf = np.exp(
-            special.gammaln(m + 1)
-            - special.gammaln(k + 1)
-            - special.gammaln(m - k + 1)
+            log_factorial[pairs]
+            - log_factorial[ks]
+            - log_factorial[pairs - ks]
             + k * lqj
             + (m - k) * np.log1p(-qj)
         )

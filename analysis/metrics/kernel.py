@@ -41,7 +41,6 @@ from haarline.metrics.intervals import (
     variance_standard_error,
 )
 from numpy.typing import NDArray
-from scipy import linalg
 
 __all__ = [
     "GEOMETRIC_REGULARIZATION",
@@ -237,6 +236,8 @@ def geometric_difference(
     >>> round(geometric_difference(k, k, 1e-9), 6)
     1.0
     """
+    from scipy import linalg  # on first use, not with the module
+
     n = len(quantum)
     kc = classical * (n / np.trace(classical))
     kq = quantum * (n / np.trace(quantum))

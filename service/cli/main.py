@@ -7,6 +7,13 @@ stdout; messages and the progress bar go to stderr.
 This module owns the commands and the parser; the analysis flags shared by ``analyze``
 and ``compare`` and their value parsers are in :mod:`haarline.service.cli.options`, and
 ``serve`` and ``keys`` in :mod:`haarline.service.cli.serve`.
+
+Start-up: a command imports only what it uses. ``haarline --version`` is answered before
+the parser is built (the parser's help lists every metric, which loads the core), the
+report writers, the policy rules and the progress bar are imported by the commands that
+use them, and the core itself loads scipy, the plots and the service only when a
+computation needs them (``tests/test_startup.py`` checks what ``--version`` and a small
+``analyze`` import).
 """
 
 from __future__ import annotations
@@ -18,14 +25,6 @@ from collections.abc import Sequence
 from typing import Any, NoReturn
 
 import haarline
-from haarline.circuit.model import MAX_DESCRIPTION_BYTES, MAX_LAYERS
-from haarline.circuit.references import REFERENCE_PREFIX
-from haarline.errors import ClusterError
-from haarline.report.policy import check_metrics
-from haarline.service.cli.options import add_analysis_flags, options_from_args
-from haarline.service.cli.outputs import write_analysis, write_comparison
-from haarline.service.cli.progress import TerminalProgress
-from haarline.service.cli.serve import add_commands
 from haarline.service.errors import SettingsError, UsageError
 
 __all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_POLICY", "build_parser", "main"]
@@ -37,9 +36,13 @@ EXIT_INPUT = 2
 
 def load(spec: str) -> haarline.Circuit:
     """Load a description from a path, ``ref:NAME``, or ``-`` (JSON on stdin)."""
+    from haarline.circuit.references import REFERENCE_PREFIX
+
     if spec.startswith(REFERENCE_PREFIX):
         return haarline.load_reference(spec)
     if spec == "-":
+        from haarline.circuit.model import MAX_DESCRIPTION_BYTES
+
         limit = MAX_DESCRIPTION_BYTES
         data = sys.stdin.buffer.read(limit + 1)
         if len(data) > limit:
@@ -63,6 +66,8 @@ def _emit(text: str) -> None:
 def _policy(args: argparse.Namespace, options: haarline.AnalysisOptions) -> haarline.Policy | None:
     if not args.policy:
         return None
+    from haarline.report.policy import check_metrics
+
     policy = haarline.load_policy(args.policy)
     check_metrics(policy, list(options.metrics), source=args.policy)
     return policy
@@ -164,10 +169,12 @@ def _run_analysis(
     estimate = haarline.estimate(circuit, options, memory_budget=args.memory_budget)
     seconds = estimate.seconds(_workers(args))
     _announce(estimate, seconds, args)
+    from haarline.service.cli.progress import TerminalProgress
+
     progress = TerminalProgress(stages=haarline.progress_stages(circuit, options), estimate=seconds)
     try:
         report = haarline.analyze(circuit, options, data=data, context=_context(args, progress))
-    except ClusterError as exc:  # the cluster failed during the run
+    except haarline.ClusterError as exc:  # the cluster failed during the run
         raise _renamed(exc, {"scheduler": _scheduler(args)[1]}) from None
     finally:
         progress.close()
@@ -180,12 +187,16 @@ def _run_analysis(
 
 
 def _cmd_analyze(args: argparse.Namespace) -> int:
+    from haarline.service.cli.options import options_from_args
+
     circuit = load(args.file)
     options = options_from_args(args)
     policy = _policy(args, options)
     report = _run_analysis(circuit, options, policy, args)
     images: list[str] = []
     if args.out:
+        from haarline.service.cli.outputs import write_analysis
+
         source = args.file if args.file not in ("-",) else "circuit.json"
         images = write_analysis(
             args.out,
@@ -211,6 +222,8 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
 def _cmd_compare(args: argparse.Namespace) -> int:
     if len(args.files) < 2:
         raise UsageError([haarline.Problem("FILE", "compare needs at least two circuits")])
+    from haarline.service.cli.options import options_from_args
+
     circuits = [load(spec) for spec in args.files]
     options = options_from_args(args)
     policy = _policy(args, options)
@@ -218,6 +231,8 @@ def _cmd_compare(args: argparse.Namespace) -> int:
     result = haarline.compare_reports(reports, list(args.files))
     images: list[str] = []
     if args.out:
+        from haarline.service.cli.outputs import write_comparison
+
         images = write_comparison(args.out, result)
     if args.format == "json":
         _emit(json.dumps(result, indent=2, allow_nan=False))
@@ -233,6 +248,8 @@ def _cmd_compare(args: argparse.Namespace) -> int:
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
+    from haarline.circuit.model import MAX_LAYERS
+
     circuit = load(args.file)
     for flag, value, top in (
         ("--qubits", args.qubits, haarline.MAX_QUBITS),
@@ -272,6 +289,8 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _cmd_references(args: argparse.Namespace) -> int:
+    from haarline.circuit.references import REFERENCE_PREFIX
+
     rows: list[dict[str, Any]] = []
     for name in haarline.reference_names():
         c = haarline.load_reference(name)
@@ -337,6 +356,9 @@ class _Parser(argparse.ArgumentParser):
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser (exposed for tests and the docs)."""
+    from haarline.service.cli.options import add_analysis_flags
+    from haarline.service.cli.serve import add_commands
+
     parser = _Parser(
         prog="haarline",
         description="Score parameterized quantum circuits against the Haar baseline. Metrics: "
@@ -398,9 +420,13 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the CLI; returns the exit code (also used as the console-script entry point)."""
+    arguments = sys.argv[1:] if argv is None else list(argv)
+    if arguments[:1] == ["--version"]:  # argparse's answer, without building the parser
+        _emit(f"haarline {haarline.__version__}")
+        return EXIT_OK
     parser = build_parser()
     try:
-        args = parser.parse_args(argv)
+        args = parser.parse_args(arguments)
     except SystemExit as exc:  # usage errors (argparse printed them), --help, --version
         return exc.code if isinstance(exc.code, int) else EXIT_INPUT if exc.code else EXIT_OK
     try:

@@ -1,6 +1,9 @@
 """Registry row: the dynamical Lie algebra and its prediction of deep circuits.
 
 Ragone et al. 2024; Fontana et al. 2024; Larocca et al. 2022.
+
+The Lie modules are imported by the functions that use them (only when the metric is
+requested), not with the registry: a command that asks for other metrics never loads them.
 """
 
 from __future__ import annotations
@@ -9,9 +12,6 @@ from typing import TYPE_CHECKING, Any
 
 from haarline.circuit.program import Program, expand_at
 from haarline.engine.statevector import batch_bytes
-from haarline.lie import algebra
-from haarline.lie import diagnosis as lie
-from haarline.lie.pauli import is_clifford
 from haarline.metrics.sampled_loss import LIE_SAMPLE_QUBITS, deep_layers, deep_loss_variance
 from haarline.metrics.trainability import layers_at
 from haarline.report.metric_row import MetricRow, Request, Section, TableRow, Work
@@ -36,6 +36,8 @@ def _deep_samples(options: AnalysisOptions) -> int:
 
 
 def _compute(request: Request) -> Section:
+    from haarline.lie import diagnosis as lie
+
     circuit, options, context = request.circuit, request.options, request.context
     diagnosis = lie.lie_diagnosis(
         circuit, cost=options.cost, scan=options.scan, layers=options.scan_layers, context=context
@@ -67,6 +69,8 @@ def _as_sums(program: Program) -> bool:
     fixed gates conjugate later generators into sums, and a shared parameter's generator
     is a sum.
     """
+    from haarline.lie.pauli import is_clifford
+
     used: set[int] = set()
     for op in program.operations:
         if op.param is not None:
@@ -87,6 +91,9 @@ def _work(circuit: Circuit, program: Program, options: AnalysisOptions, budget: 
     bounded by ``min(cap, 4^n - 1)``. Points with n <= LIE_SAMPLE_QUBITS add the sampled
     loss variance of a deep version (and its half-depth check) at that bound.
     """
+    from haarline.lie import algebra
+    from haarline.lie import diagnosis as lie
+
     updates, memory = 0.0, 0
     stop = algebra.WORK_FACTOR * algebra.DEFAULT_BUDGET
     for n in lie.lie_scan(circuit, options.scan, widest=True):
@@ -112,6 +119,8 @@ def _work(circuit: Circuit, program: Program, options: AnalysisOptions, budget: 
 
 
 def _stages(circuit: Circuit, options: AnalysisOptions) -> int:
+    from haarline.lie import diagnosis as lie
+
     # the closure reports one stage; each sampled point two (deep and half depth)
     counts = lie.lie_scan(circuit, options.scan, widest=True)
     return 1 + 2 * sum(1 for n in counts if n <= LIE_SAMPLE_QUBITS)
