@@ -48,6 +48,7 @@ from haarline.service.errors import OverLimit, StoreUnavailable, TimedOut, Unava
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 __all__ = [
+    "PROBLEM_HEADERS",
     "PROBLEM_STATUSES",
     "PROBLEM_TYPE",
     "OverLimit",
@@ -100,19 +101,50 @@ PROBLEM_STATUSES: dict[int, str] = {
 """Every problem status a route may declare, with the description the document shows."""
 
 
+_RETRY_AFTER = {
+    "description": "Seconds to wait before trying again.",
+    "required": True,
+    "schema": {"type": "integer", "minimum": 1},
+}
+PROBLEM_HEADERS: dict[int, dict[str, Any]] = {
+    401: {
+        "WWW-Authenticate": {
+            "description": "`Bearer`: the scheme the key goes in.",
+            "required": True,
+            "schema": {"type": "string", "enum": ["Bearer"]},
+        }
+    },
+    415: {
+        "Accept-Post": {
+            "description": "The media type a body must have: `application/json`.",
+            "required": True,
+            "schema": {"type": "string", "enum": ["application/json"]},
+        }
+    },
+    429: {"Retry-After": _RETRY_AFTER},
+    503: {"Retry-After": _RETRY_AFTER},
+}
+"""The headers that every answer of a problem status carries."""
+
+
 def problem_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
     """The ``responses=`` entries of a route for the problem statuses it can return.
+
+    Each comes with the headers that status always carries (:data:`PROBLEM_HEADERS`).
 
     Examples
     --------
     >>> sorted(problem_responses(401, 503))
     [401, 503]
+    >>> list(problem_responses(429)[429]["headers"])
+    ['Retry-After']
     """
     return {
         status: {
             "model": ProblemDetail,
             "description": PROBLEM_STATUSES[status],
             "content": {"application/problem+json": {}},
+            **({"headers": PROBLEM_HEADERS[status]} if status in PROBLEM_HEADERS else {}),
         }
         for status in statuses
     }
