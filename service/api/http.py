@@ -93,7 +93,7 @@ def immutable(
     extra = {**(headers or {}), "Cache-Control": IMMUTABLE}
     wanted = request.headers.get("if-none-match")
     if wanted is not None:
-        variants = {tag, plain, plain[:-1] + _GZIP_SUFFIX + '"'}
+        variants = {plain[:-1] + suffix + '"' for suffix in ("", _GZIP_SUFFIX, _OCTETS_SUFFIX)}
         for sent in _tags(wanted):
             named = sent.removeprefix("W/")
             if sent == "*" or named in variants:

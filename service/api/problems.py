@@ -102,9 +102,10 @@ PROBLEM_STATUSES: dict[int, str] = {
 
 
 _RETRY_AFTER = {
-    "description": "Seconds to wait before trying again.",
+    "description": "Whole seconds (1 or more) to wait before trying again.",
     "required": True,
-    "schema": {"type": "integer", "minimum": 1},
+    # no "minimum": FastAPI's document model would write it as a float (document.py)
+    "schema": {"type": "integer"},
 }
 PROBLEM_HEADERS: dict[int, dict[str, Any]] = {
     401: {

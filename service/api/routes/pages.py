@@ -101,7 +101,8 @@ def _page_responses() -> dict[int | str, dict[str, Any]]:
     out = immutable_responses(
         "The page (UTF-8)", {"text/html": {"schema": {"type": "string"}}}, finished_only=False
     )
-    out[200]["headers"].update(PAGE_HEADERS)
+    for status in (200, 304):
+        out[status]["headers"].update(PAGE_HEADERS)
     return out
 
 
