@@ -42,6 +42,7 @@ from haarline.circuit.model import validation_problems
 from haarline.errors import format_path
 from haarline.report.options import option_problems
 from haarline.service.api.document import exact_bounds
+from haarline.service.api.examples import add_examples
 from haarline.service.api.http import allowed_methods
 from haarline.service.api.schemas import ProblemDetail
 from haarline.service.errors import OverLimit, StoreUnavailable, TimedOut, Unavailable
@@ -158,14 +159,15 @@ def install_openapi(app: FastAPI) -> None:
     that did not declare 422 cannot return one here, so it is dropped. A declared problem
     response is served as ``application/problem+json`` only, with the problem schema
     (FastAPI files that schema under the route's own media type, JSON or HTML). The
-    options' ``metrics`` field lists what each metric of the registry measures, and
-    integer bounds are exact (:mod:`haarline.service.api.document`).
+    options' ``metrics`` field lists what each metric of the registry measures, integer
+    bounds are exact (:mod:`haarline.service.api.document`), and every operation gets
+    its examples (:mod:`haarline.service.api.examples`).
     """
     build = app.openapi
 
     def openapi() -> dict[str, Any]:
         if app.openapi_schema is None:
-            document = _metrics_described(_declared_problems_only(build()))
+            document = add_examples(_metrics_described(_declared_problems_only(build())))
             app.openapi_schema = exact_bounds(document, getattr(app.state, "routes", app.routes))
         return app.openapi_schema
 
