@@ -126,6 +126,7 @@ from haarline.report.options import METRICS, AnalysisOptions, parse_options
 from haarline.report.policy import Policy, PolicyError, evaluate_policy, load_policy, parse_policy
 from haarline.report.ranking import compare_markdown, compare_reports
 from haarline.report.registry import REGISTRY, StageFraction, progress_stages, requested
+from haarline.report.schema import Comparison, Report
 from haarline.report.summary import headline_rows, to_markdown, to_text, verdicts
 from haarline.report.verdict import Banner, banner, joint_verdict
 from haarline.report.workload import Estimate, estimate
@@ -147,6 +148,7 @@ __all__ = [
     "CircuitError",
     "CircuitGenerators",
     "ClosureStop",
+    "Comparison",
     "Context",
     "DataError",
     "Dataset",
@@ -176,6 +178,7 @@ __all__ = [
     "Problem",
     "Program",
     "Progress",
+    "Report",
     "Request",
     "Step",
     "StageFraction",

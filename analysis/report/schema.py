@@ -22,6 +22,9 @@ policy rule's outcome, the input law) are closed. ``tests/test_report_schema.py`
 validates every golden report and live comparisons and fails on any key no model lists,
 so an added key must be typed here in the same change.
 
+``Report`` and ``Comparison`` are exported from :mod:`haarline`; the models of their
+parts are reached through them (or imported from here by name).
+
 Examples
 --------
 >>> from haarline.circuit.model import parse_circuit
@@ -40,37 +43,7 @@ from typing import Annotated, Any, Literal
 from haarline.report.options import Metric
 from pydantic import BaseModel, ConfigDict, Field
 
-__all__ = [
-    "AlgebraPoint",
-    "CapacityResult",
-    "CircuitFacts",
-    "Comparison",
-    "DataFacts",
-    "DecayFit",
-    "DecayFits",
-    "DeepLossVariance",
-    "EntanglementResult",
-    "ExpressibilityResult",
-    "FeatureSpectrum",
-    "GradientPoint",
-    "IdealFacts",
-    "IdealShare",
-    "KernelMatrix",
-    "KernelPoint",
-    "KernelResult",
-    "LieGrowth",
-    "LieResult",
-    "PolicyOutcome",
-    "RankingRow",
-    "RedundantParameter",
-    "Report",
-    "ReportOptions",
-    "RuleOutcome",
-    "SpectrumResult",
-    "SweepRow",
-    "TrainabilityResult",
-    "VariancePredictionResult",
-]
+__all__ = ["Comparison", "Report"]
 
 
 class _Open(BaseModel):
@@ -338,7 +311,7 @@ class DeepLossVariance(_Open):
     settled: bool | None
 
 
-class AlgebraPoint(_Open):
+class AlgebraPointResult(_Open):
     """The algebra at one qubit count, its ideals and its prediction."""
 
     qubits: int
@@ -397,7 +370,7 @@ class LieResult(_Open):
     cost: Cost
     cap: int
     layers_rule: str
-    points: list[AlgebraPoint]
+    points: list[AlgebraPointResult]
     growth: LieGrowth | None
     summary: str
 
@@ -405,7 +378,7 @@ class LieResult(_Open):
 # --- the quantum kernel and the spectrum -------------------------------------------------------
 
 
-class KernelPoint(_Open):
+class KernelPointResult(_Open):
     """Fidelity-kernel statistics over random input pairs at one (qubits, layers) point."""
 
     qubits: int
@@ -461,12 +434,12 @@ class KernelMatrix(_Closed):
     values: list[list[float]]
 
 
-class KernelResult(KernelPoint):
+class KernelResult(KernelPointResult):
     """The kernel at the circuit's own size, its concentration scan and its data scores."""
 
     law: DataLaw | NormalLaw | UniformLaw = Field(discriminator="kind")
     projected: ProjectedKernel
-    points: list[KernelPoint]
+    points: list[KernelPointResult]
     fit: DecayFits | None
     decay_per_qubit: float | None
     decay_per_qubit_stderr: float | None
@@ -480,7 +453,7 @@ class KernelResult(KernelPoint):
     scan_note: str | None
 
 
-class FeatureSpectrum(_Open):
+class FeatureSpectrumResult(_Open):
     """The Fourier frequencies of one input and the sampled weight of each."""
 
     input: int
@@ -498,7 +471,7 @@ class SpectrumResult(_Open):
     """The Fourier spectrum of a model with inputs (Schuld, Sweke & Meyer 2021)."""
 
     cost: str
-    features: list[FeatureSpectrum]
+    features: list[FeatureSpectrumResult]
 
 
 # --- sweep, policy, the report ---------------------------------------------------------------
