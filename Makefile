@@ -29,6 +29,11 @@ $(VENV)/.lint: pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[test,lint]'
 	@touch $@ $(VENV)/.test $(VENV)/.core
 
+# the optional Dask extra (make bench runs one analysis on a local Dask cluster)
+$(VENV)/.dask: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e '.[dask]'
+	@touch $@ $(VENV)/.core
+
 install: $(VENV)/.core
 install-test: $(VENV)/.test
 
@@ -112,10 +117,10 @@ clean:
 	rm -rf $(VENV) $(VENV313) .pytest_cache .hypothesis *.egg-info build dist
 
 ## bench: the benchmark suite (about 4 minutes); prints a table and writes bench/results.json
-bench: $(VENV)/.core
+bench: $(VENV)/.dask
 	$(BIN)/python bench/run.py --out bench/results.json
 
 .PHONY: bench-smoke
 ## bench-smoke: the same script at tiny sizes (seconds; the test suite runs it too)
-bench-smoke: $(VENV)/.core
+bench-smoke: $(VENV)/.dask
 	$(BIN)/python bench/run.py --smoke --out bench/smoke.json

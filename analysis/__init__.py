@@ -34,6 +34,7 @@ from haarline.engine.statevector import (
 )
 from haarline.errors import (
     CircuitError,
+    ClusterError,
     DataError,
     HaarlineError,
     InputError,
@@ -146,6 +147,7 @@ __all__ = [
     "Capacity",
     "Circuit",
     "CircuitError",
+    "ClusterError",
     "CircuitGenerators",
     "ClosureStop",
     "Comparison",

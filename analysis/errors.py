@@ -6,6 +6,7 @@
     ├── InputError (ValueError)    the caller gave something we cannot use
     │   ├── CircuitError           a circuit description is malformed or invalid
     │   ├── OptionError            analysis options are out of range
+    │   │   └── ClusterError       the Dask cluster of the scheduler option cannot do the work
     │   ├── DataError              a data set has a bad row or column
     │   └── PolicyError            a policy file is malformed (haarline.report.policy)
     └── LimitError                 the work would exceed a configured limit
@@ -23,6 +24,7 @@ from dataclasses import dataclass
 
 __all__ = [
     "CircuitError",
+    "ClusterError",
     "DataError",
     "HaarlineError",
     "InputError",
@@ -88,6 +90,15 @@ class CircuitError(InputError):
 
 class OptionError(InputError):
     """Analysis options are missing, of the wrong type or out of range."""
+
+
+class ClusterError(OptionError):
+    """The Dask cluster named by the ``scheduler`` option cannot do the work.
+
+    Nothing answers at the address, the scheduler has no workers, a worker runs another
+    haarline or numpy, the scheduler went away, or one block kept killing its workers.
+    An option error because the address is an option: the CLI names ``--dask``.
+    """
 
 
 class DataError(InputError):

@@ -20,7 +20,11 @@ Figures (medians of repeated runs):
   samples) for the nineteen ``sim2019-*`` circuits at layers 1..5, with 1 and 2 workers;
 * ``scan``: wall time of a gradient-variance scan n = 2..14 (step 2), layers = n, 200
   samples, ``zz`` cost;
-* ``memory``: peak resident memory of an n = 20 expressibility run against the budget.
+* ``memory``: peak resident memory of an n = 20 expressibility run against the budget;
+* ``cluster``: one n = 20 expressibility run with its blocks on a real local Dask cluster
+  (``dask scheduler`` and 1, then 2, single-thread ``dask worker`` processes), with the
+  compute time and the bytes sent and returned per block, and from those the expected
+  efficiency at 10 and 100 workers (the model is in :func:`cluster_model`).
 """
 
 from __future__ import annotations
@@ -44,6 +48,7 @@ sys.path.insert(0, str(HERE))
 
 import haarline  # noqa: E402
 import plain  # noqa: E402
+from haarline.engine import cluster  # noqa: E402
 from haarline.engine import statevector as engine  # noqa: E402
 from haarline.engine.context import Context  # noqa: E402
 from haarline.engine.sampling import Stream, draw_angles  # noqa: E402
@@ -80,6 +85,14 @@ FULL = {
     "memory_circuit": "ry-cz-ring",
     "memory_pairs": 12,
     "memory_budgets": [engine.DEFAULT_MEMORY_BUDGET, 128 << 20],
+    "cluster_qubits": 20,
+    "cluster_circuit": "ry-cz-ring",
+    "cluster_layers": 1,
+    "cluster_pairs": 128,  # two blocks of 64 pairs
+    "cluster_budget": 256 << 20,  # per task
+    "cluster_model_pairs": [5000, 20000],  # the default pair count and a large run
+    "cluster_model_workers": [10, 100],
+    "cluster_bandwidth": 125e6,  # bytes/s of a 1 Gbit/s network, for the model
 }
 
 SMOKE = {
@@ -105,6 +118,7 @@ SMOKE = {
     "memory_qubits": 6,
     "memory_pairs": 4,
     "memory_budgets": [256 << 20],
+    "cluster_qubits": 8,
 }
 
 TARGETS = {
@@ -114,6 +128,7 @@ TARGETS = {
     "references": "<= 10 s with 2 workers",
     "scan": "<= 60 s",
     "memory": "peak resident memory <= 1.25 x budget",
+    "cluster": "2 workers >= 1.6 x as fast as 1 (no target beyond this machine's 2 cores)",
 }
 
 
@@ -432,6 +447,139 @@ def bench_memory(cfg: dict[str, Any]) -> list[dict[str, Any]]:
     return rows
 
 
+def cluster_model(
+    one: dict[str, Any], *, pairs: int, workers: int, bandwidth: float
+) -> dict[str, Any]:
+    """Expected run time and efficiency of ``pairs`` pairs on ``workers`` Dask workers.
+
+    From the one-worker run: ``t`` the compute time per pair (a block's median compute
+    time over its pairs), ``o`` the cluster's overhead per block (the gather's wall time
+    beyond the blocks' compute, per block: scheduling, loopback transfer), ``s`` the
+    serial part (the call's wall time beyond the gather: the histogram, the bootstrap,
+    the KL), and the bytes a block sends and returns. The run is cut as haarline cuts it
+    (``blocks_for(pairs, max(2, workers))``: two blocks per worker, whole blocks of 64), a
+    block of ``c`` pairs costs ``c t + o + bytes / bandwidth``, and each worker takes the
+    next block as soon as it is free (as Dask's scheduler does), so
+
+        T(w) = s + (the last worker's finishing time) + w shared / bandwidth
+
+    (Amdahl's law with whole blocks as the unit of work, plus the shared arguments sent
+    to every worker); the efficiency is ``T(1) / (w T(w))``.
+    """
+    import heapq
+
+    from haarline.engine.batching import blocks_for
+
+    per_pair = one["block_seconds"] / one["block_pairs"]
+    back_per_pair = one["returned_bytes_per_block"] / one["block_pairs"]
+
+    def wall(w: int) -> tuple[float, int]:
+        blocks = blocks_for(pairs, max(2, w))
+        free = [0.0] * w
+        for _, count in blocks:
+            start = heapq.heappop(free)
+            message = one["sent_bytes_per_block"] + back_per_pair * count
+            cost = count * per_pair + one["overhead_seconds_per_block"] + message / bandwidth
+            heapq.heappush(free, start + cost)
+        seconds = one["serial_seconds"] + max(free) + w * one["shared_bytes"] / bandwidth
+        return seconds, len(blocks)
+
+    seconds, blocks = wall(workers)
+    return {
+        "workers": workers,
+        "pairs": pairs,
+        "blocks": blocks,
+        "seconds": seconds,
+        "efficiency": wall(1)[0] / (workers * seconds),
+        "busy_workers": min(workers, blocks),
+    }
+
+
+def bench_cluster(cfg: dict[str, Any]) -> dict[str, Any]:
+    """One expressibility run with its blocks on 1, then 2, local Dask workers."""
+    import tempfile
+
+    sys.path.insert(0, str(HERE.parent / "tests"))
+    from dask_cluster import LocalDask
+
+    n = cfg["cluster_qubits"]
+    circuit = haarline.load_reference(cfg["cluster_circuit"])
+    program = haarline.expand(circuit, qubits=n, layers=cfg["cluster_layers"])
+    pairs = cfg["cluster_pairs"]
+    warm = haarline.expand(circuit, qubits=4, layers=1)
+    runs = []
+    with tempfile.TemporaryDirectory() as folder, LocalDask(Path(folder), workers=1) as local:
+        context = Context(
+            scheduler=local.address, memory_budget=cfg["cluster_budget"], parallel_from=0
+        )
+        try:
+            for workers in (1, 2):
+                if workers == 2:
+                    local.add_worker("w1")
+                    local.wait_for_workers(2)
+                # every worker imports the engine and runs a block before the timing
+                haarline.expressibility(warm, pairs=128, seed=2, context=context)
+                walls, calls = [], []
+                for _ in range(cfg["repeats"]):
+                    with cluster.recording() as sent:
+                        t = time.perf_counter()
+                        haarline.expressibility(program, pairs=pairs, seed=1, context=context)
+                        walls.append(time.perf_counter() - t)
+                    calls.append(sent[0])
+                median = statistics.median(walls)
+                call = calls[walls.index(sorted(walls)[len(walls) // 2])]
+                compute = statistics.median(s for c in calls for s in c.compute_seconds)
+                runs.append(
+                    {
+                        "workers": workers,
+                        "seconds": median,
+                        "samples": walls,
+                        "blocks": len(call.compute_seconds),
+                        "block_pairs": -(-pairs // len(call.compute_seconds)),
+                        "block_seconds": compute,
+                        "gather_seconds": call.wall_seconds,
+                        "overhead_seconds_per_block": max(
+                            0.0,
+                            (call.wall_seconds - sum(call.compute_seconds) / workers)
+                            / len(call.compute_seconds),
+                        ),
+                        "serial_seconds": max(0.0, median - call.wall_seconds),
+                        "sent_bytes_per_block": statistics.median(call.sent_bytes),
+                        "returned_bytes_per_block": statistics.median(call.returned_bytes),
+                        "shared_bytes": call.shared_bytes,
+                        "state_bytes": 16 << n,
+                    }
+                )
+                log(
+                    f"cluster, {workers} worker(s): {median:.2f} s, "
+                    f"{compute:.2f} s per block, {call.sent_bytes[0]} B sent and "
+                    f"{call.returned_bytes[0]} B returned per block"
+                )
+        finally:
+            cluster.disconnect()
+    one, two = runs
+    model = [
+        cluster_model(one, pairs=m, workers=w, bandwidth=cfg["cluster_bandwidth"])
+        for m in cfg["cluster_model_pairs"]
+        for w in cfg["cluster_model_workers"]
+    ]
+    return {
+        "qubits": n,
+        "circuit": cfg["cluster_circuit"],
+        "layers": program.layers,
+        "pairs": pairs,
+        "memory_budget_per_task": cfg["cluster_budget"],
+        "runs": runs,
+        "baseline": {"name": "the same run on 1 worker", "seconds": one["seconds"]},
+        "ratio": one["seconds"] / two["seconds"],
+        "model": {
+            "bandwidth_bytes_per_second": cfg["cluster_bandwidth"],
+            "method": cluster_model.__doc__,
+            "points": model,
+        },
+    }
+
+
 def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
     """Each figure against its target in :data:`TARGETS` (``met`` is None if not measured)."""
     out = []
@@ -467,6 +615,8 @@ def check_targets(figures: dict[str, Any]) -> list[dict[str, Any]]:
     )
     mem = figures["memory"]
     add("memory", [round(r["ratio"], 3) for r in mem], all(r["ratio"] <= 1.25 for r in mem))
+    cl = figures["cluster"]
+    add("cluster", round(cl["ratio"], 2), cl["ratio"] >= 1.6 if cl["qubits"] >= 20 else None)
     return out
 
 
@@ -508,6 +658,20 @@ def table(results: dict[str, Any]) -> str:
             f"{r['run_bytes'] / 2**20:.0f} MiB run, {r['peak_rss_bytes'] / 2**20:.0f} MiB peak | "
             f"budget {r['baseline']['bytes'] / 2**20:.0f} MiB |"
         )
+    c = f["cluster"]
+    for r in c["runs"]:
+        lines.append(
+            f"| Dask cluster | n = {c['qubits']}, {c['circuit']} x{c['layers']}, {c['pairs']} "
+            f"pairs, {r['workers']} worker(s), {r['blocks']} blocks: "
+            f"{r['block_seconds']:.2f} s, {r['sent_bytes_per_block']:.0f} B sent and "
+            f"{r['returned_bytes_per_block']:.0f} B back per block | {r['seconds']:.2f} s | "
+            f"{c['baseline']['seconds']:.2f} s on 1 worker |"
+        )
+    for m in c["model"]["points"]:
+        lines.append(
+            f"| Dask model | {m['pairs']} pairs, {m['blocks']} blocks, {m['workers']} workers "
+            f"| efficiency {m['efficiency']:.2f} | {m['seconds']:.1f} s expected |"
+        )
     lines.append("")
     lines.append("| target | value | met |")
     lines.append("| --- | --- | --- |")
@@ -516,7 +680,7 @@ def table(results: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-SECTIONS = ("bandwidth", "naive", "adjoint", "references", "scan", "memory")
+SECTIONS = ("bandwidth", "naive", "adjoint", "references", "scan", "memory", "cluster")
 
 
 def main(argv: list[str] | None = None) -> dict[str, Any]:
@@ -536,6 +700,7 @@ def main(argv: list[str] | None = None) -> dict[str, Any]:
         "references": bench_references(cfg),
         "scan": bench_scan(cfg),
         "memory": bench_memory(cfg),
+        "cluster": bench_cluster(cfg),
     }
     results: dict[str, Any] = {
         "bench_format": BENCH_FORMAT,

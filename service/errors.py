@@ -12,21 +12,25 @@ HTTP answer, the CLI turns input problems into exit code 2::
     ├── TimedOut             synchronous work ran past its limit and was stopped (504)
     ├── OverLimit            estimated work or memory above a configured limit (422)
     ├── TokenError           a page link is malformed, tampered with or expired (403)
+    ├── WebhookError         a notification's signature or timestamp does not verify
     ├── JobCancelled         raised inside a running job when its cancel flag is seen
     ├── WorkerLost           a job worker process exited before it answered (the job is retried)
     ├── PoolStopped          the job worker pool stopped before a task finished
     └── haarline.errors.HaarlineError
         └── InputError
-            └── UsageError   a command-line value argparse let through but we cannot use
+            ├── UsageError   a command-line value argparse let through but we cannot use
+            └── CallbackRefused  a callback_url the destination rules refuse (422)
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from haarline.errors import InputError
+import haarline.client as _client
+from haarline.errors import InputError, Problem
 
 __all__ = [
+    "CallbackRefused",
     "JobCancelled",
     "OverLimit",
     "PoolStopped",
@@ -37,6 +41,7 @@ __all__ = [
     "TokenError",
     "Unavailable",
     "UsageError",
+    "WebhookError",
     "WorkerLost",
 ]
 
@@ -123,3 +128,23 @@ class PoolStopped(Exception):
 
 class UsageError(InputError):
     """A command-line value that argparse let through but we cannot use."""
+
+
+WebhookError = _client.WebhookError
+"""A notification failed verification (defined beside the client, which verifies them)."""
+
+
+class CallbackRefused(InputError):
+    """A ``callback_url`` the destination rules refuse; its one problem is at ``callback_url``.
+
+    Parameters
+    ----------
+    url : str
+        The refused value, quoted in the message.
+    reason : str
+        Why, and what is allowed.
+    """
+
+    def __init__(self, url: str, reason: str):
+        self.url, self.reason = url, reason
+        super().__init__([Problem("callback_url", f"{url!r} is refused: {reason}")])

@@ -7,7 +7,13 @@ variable                           meaning (default)
 ``HAARLINE_HOST``                  bind address (``127.0.0.1``)
 ``HAARLINE_PORT``                  port (``8000``)
 ``HAARLINE_WORKERS``               compute processes (number of CPU cores)
-``HAARLINE_DASK_SCHEDULER``        address of a Dask scheduler; when set, work runs there
+``HAARLINE_DASK_SCHEDULER``        address of a Dask scheduler, ``tcp://HOST:PORT``; when
+                                   set, work runs on its cluster (also the default of the
+                                   CLI's ``--dask``)
+``HAARLINE_DASK_UNIT``             what one Dask task is: ``job`` (a whole job; the workers
+                                   must share the data directory) or ``block`` (jobs run in
+                                   the service's own processes and send the sampled blocks
+                                   of each analysis to the cluster) (``job``)
 ``HAARLINE_DEV_MODE``              ``1``: no API keys, loopback only, said loudly (``0``)
 ``HAARLINE_MAX_BODY_BYTES``        largest request body (``1048576``)
 ``HAARLINE_READ_TIMEOUT``          seconds a client may take to send a request's headers,
@@ -42,11 +48,29 @@ variable                           meaning (default)
                                    belongs to one team
 ``HAARLINE_CORS_ORIGINS``          comma-separated origins (``https://wiki.example.org``)
                                    whose pages may call the API from a browser (unset: none)
+``HAARLINE_WEBHOOK_LOOPBACK``      ``1``: a ``callback_url`` may name a loopback address
+                                   (``127.0.0.0/8``, ``::1``), over http too (``0``;
+                                   development mode allows loopback anyway)
+``HAARLINE_WEBHOOK_NETWORKS``      comma-separated networks (``10.20.0.0/16``) that
+                                   callbacks may reach although they are not public
+                                   (unset: only public addresses)
+``HAARLINE_WEBHOOK_HTTP``          ``1``: plain ``http://`` callbacks to any allowed
+                                   address (``0``: https only, except to loopback)
+``HAARLINE_WEBHOOK_RETRY_DELAYS``  comma-separated seconds between a notification's
+                                   attempts (``5,300,1800,7200,18000,36000,36000``: eight
+                                   attempts over about 28 hours)
+``HAARLINE_WEBHOOK_TIMEOUT``       seconds one attempt may take to connect, and again to
+                                   get the answer (``10``)
 =================================  ==========================================================
+
+Callbacks go to ``https`` URLs whose host resolves only to public addresses: every address
+the host resolves to is checked (:mod:`haarline.service.jobs.destinations`), when the job
+is submitted and again before each attempt.
 
 An unsafe configuration refuses to start: development mode on anything but a loopback
 address, a non-positive limit, a data directory that cannot be created, an origin that is
-not ``scheme://host[:port]``, or a variable of an older release that was renamed
+not ``scheme://host[:port]``, a webhook network that is not ``address/prefix``, a retry
+delay that is not above 0 and at most a day, or a variable of an older release that was renamed
 (``HAARLINE_MAX_COST``: the error names its new name; it is never read silently).
 
 This is a plain pydantic model read by :meth:`Settings.from_env` rather than
@@ -62,19 +86,30 @@ import os
 import re
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal
 
+from haarline.engine.cluster import check_address
+from haarline.errors import OptionError
 from haarline.service.errors import SettingsError
-from pydantic import BaseModel, ConfigDict, Field, SecretStr, ValidationError, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    SecretStr,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
-__all__ = ["ENV_PREFIX", "RENAMED", "Settings", "SettingsError"]
+__all__ = ["ENV_PREFIX", "RENAMED", "Settings", "SettingsError", "dask_scheduler_from_env"]
 
 ENV_PREFIX = "HAARLINE_"
 
 RENAMED = {"MAX_COST": "MAX_WORK", "MAX_SCORE_COST": "MAX_SCORE_WORK"}
 """Variables of earlier releases and their new names (the estimate is called "work")."""
 
-_FLAGS = ("dev_mode", "shared_result_cache")
+_FLAGS = ("dev_mode", "shared_result_cache", "webhook_loopback", "webhook_http")
+_LISTS = ("cors_origins", "webhook_networks", "webhook_retry_delays")
 _ORIGIN = re.compile(r"https?://[A-Za-z0-9.\-\[\]:]+")
 
 
@@ -97,6 +132,7 @@ class Settings(BaseModel):
     port: int = Field(default=8000, ge=1, le=65535)
     workers: int = Field(default_factory=lambda: os.cpu_count() or 1, ge=1, le=256)
     dask_scheduler: str | None = None
+    dask_unit: Literal["job", "block"] = "job"
     dev_mode: bool = False
     max_body_bytes: int = Field(default=1_048_576, ge=1024)
     read_timeout: float = Field(default=30.0, gt=0, le=3600)
@@ -115,6 +151,23 @@ class Settings(BaseModel):
     retention_days: float | None = Field(default=None, gt=0, le=36_500)
     shared_result_cache: bool = False
     cors_origins: tuple[str, ...] = ()
+    webhook_loopback: bool = False
+    webhook_networks: tuple[str, ...] = ()
+    webhook_http: bool = False
+    webhook_retry_delays: tuple[float, ...] = Field(
+        default=(5, 300, 1800, 7200, 18000, 36000, 36000), min_length=1, max_length=20
+    )
+    webhook_timeout: float = Field(default=10.0, gt=0, le=120)
+
+    @field_validator("dask_scheduler")
+    @classmethod
+    def _address(cls, value: str | None) -> str | None:
+        if value is None:
+            return None
+        try:
+            return check_address(value.strip())
+        except OptionError as exc:
+            raise ValueError(exc.problems[0].message) from None
 
     @model_validator(mode="after")
     def _safe(self) -> Settings:
@@ -123,13 +176,42 @@ class Settings(BaseModel):
                 f"development mode serves without API keys and may only bind a loopback "
                 f"address, not {self.host!r}"
             )
+        if self.dask_unit == "block" and self.dask_scheduler is None:
+            raise ValueError(
+                "dask_unit: 'block' sends blocks to a Dask cluster; set "
+                f"{ENV_PREFIX}DASK_SCHEDULER too, or use 'job' (the default)"
+            )
         for origin in self.cors_origins:
             if not _ORIGIN.fullmatch(origin):
                 raise ValueError(
                     f"cors_origins: {origin!r} is not an origin; expected scheme://host[:port] "
                     "such as https://wiki.example.org (no path, no wildcard)"
                 )
+        for network in self.webhook_networks:
+            try:
+                ipaddress.ip_network(network)
+            except ValueError as exc:
+                raise ValueError(
+                    f"webhook_networks: {network!r} is not a network ({exc}); expected "
+                    "an address with a prefix length such as 10.20.0.0/16 or fd00::/8"
+                ) from None
+        for delay in self.webhook_retry_delays:
+            if not 0 < delay <= 86_400:
+                raise ValueError(
+                    f"webhook_retry_delays: {delay:g} s is out of range; each delay must be "
+                    "above 0 and at most 86400 (a day)"
+                )
         return self
+
+    @property
+    def callback_networks(self) -> tuple[ipaddress.IPv4Network | ipaddress.IPv6Network, ...]:
+        """``HAARLINE_WEBHOOK_NETWORKS`` as network objects."""
+        return tuple(ipaddress.ip_network(n) for n in self.webhook_networks)
+
+    @property
+    def callback_loopback(self) -> bool:
+        """Whether callbacks may go to loopback (development mode, or the setting)."""
+        return self.dev_mode or self.webhook_loopback
 
     @property
     def base_url(self) -> str:
@@ -162,9 +244,10 @@ class Settings(BaseModel):
             key = ENV_PREFIX + name.upper()
             if key in env and env[key] != "":
                 raw[name] = env[key]
-        if isinstance(raw.get("cors_origins"), str):
-            raw["cors_origins"] = tuple(o.strip() for o in raw["cors_origins"].split(",") if o)
         raw.update({k: v for k, v in overrides.items() if v is not None})
+        for name in _LISTS:
+            if isinstance(raw.get(name), str):
+                raw[name] = tuple(o.strip() for o in raw[name].split(",") if o.strip())
         for name in _FLAGS:
             if isinstance(raw.get(name), str):
                 flag = raw[name].strip().lower()
@@ -181,8 +264,9 @@ class Settings(BaseModel):
                 field = str(err["loc"][0]) if err["loc"] else ""
                 where = ENV_PREFIX + field.upper() if field else "settings"
                 message = err["msg"].removeprefix("Value error, ")
-                if message.startswith("cors_origins: "):
-                    where, message = ENV_PREFIX + "CORS_ORIGINS", message[len("cors_origins: ") :]
+                for name in (*_LISTS, "dask_unit"):
+                    if message.startswith(f"{name}: "):
+                        where, message = ENV_PREFIX + name.upper(), message[len(name) + 2 :]
                 lines.append(f"{where}: {message}")
             raise SettingsError("; ".join(lines)) from None
         try:
@@ -192,3 +276,24 @@ class Settings(BaseModel):
                 f"{ENV_PREFIX}DATA_DIR: cannot create {str(settings.data_dir)!r}: {exc.strerror}"
             ) from None
         return settings
+
+
+def dask_scheduler_from_env(env: Mapping[str, str] | None = None) -> str | None:
+    """``HAARLINE_DASK_SCHEDULER`` alone, checked: the CLI's default for ``--dask``.
+
+    The command line reads no other variable (the rest configure the server), and reading
+    this one creates no data directory.
+
+    Raises
+    ------
+    SettingsError
+        Naming the variable, its value and the accepted form.
+    """
+    env = os.environ if env is None else env
+    value = env.get(ENV_PREFIX + "DASK_SCHEDULER", "").strip()
+    if not value:
+        return None
+    try:
+        return check_address(value, ENV_PREFIX + "DASK_SCHEDULER")
+    except OptionError as exc:
+        raise SettingsError(str(exc)) from None

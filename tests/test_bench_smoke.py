@@ -16,7 +16,15 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
     results = json.loads(out.read_text())
     assert results["bench_format"] == 1 and results["mode"] == "smoke"
     figures = results["figures"]
-    assert set(figures) == {"bandwidth", "naive", "adjoint", "references", "scan", "memory"}
+    assert set(figures) == {
+        "bandwidth",
+        "naive",
+        "adjoint",
+        "references",
+        "scan",
+        "memory",
+        "cluster",
+    }
     for name in ("bandwidth", "naive", "adjoint", "memory"):
         assert figures[name], name
         for row in figures[name]:
@@ -29,6 +37,16 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
     assert all(r["baseline"]["max_fidelity_difference"] < 1e-10 for r in figures["naive"])
     assert all(r["baseline"]["max_gradient_difference"] < 1e-10 for r in figures["adjoint"])
     assert [r["workers"] for r in figures["references"]["runs"]] == [1]
+    # a real Dask cluster ran the blocks: small messages, values only, never states
+    cl = figures["cluster"]
+    assert [r["workers"] for r in cl["runs"]] == [1, 2]
+    for r in cl["runs"]:
+        assert r["blocks"] == 2 and r["block_seconds"] > 0
+        assert 0 < r["sent_bytes_per_block"] < min(1000, r["shared_bytes"])
+        assert r["returned_bytes_per_block"] < 8 * r["block_pairs"] + 200
+    assert [m["workers"] for m in cl["model"]["points"]] == [10, 100, 10, 100]
+    assert all(0 < m["efficiency"] <= 1 for m in cl["model"]["points"])
     assert {t["figure"] for t in results["targets"]} == set(figures)
     printed = capsys.readouterr().out
     assert "| bandwidth ratio |" in printed and "| target | value | met |" in printed
+    assert "| Dask cluster |" in printed and "| Dask model |" in printed

@@ -140,6 +140,8 @@ def test_capacity_shares_its_points_between_workers():
         ("workers", 65, "workers"),
         ("memory_budget", 1024, "64 KiB"),
         ("precision", "half", "double or single"),
+        ("scheduler", "10.0.0.5:8786", "scheduler: expected a Dask scheduler address"),
+        ("scheduler", "tcp://10.0.0.5:99999", "port 99999"),
     ],
 )
 def test_a_bad_context_is_an_option_error(field, value, message):
@@ -153,3 +155,66 @@ def test_analyze_takes_the_precision_from_the_options():
     report = analyze(ISING, AnalysisOptions(pairs=50, samples=20), context=ctx)
     assert report["options"]["precision"] == "double"
     assert seen  # the progress callback of the context is used
+
+
+def test_with_a_dask_scheduler_each_task_gets_the_budget_and_local_workers_stay_1():
+    ctx = Context(scheduler="tcp://10.0.0.5:8786", memory_budget=1 << 24)
+    share = ctx.for_workers(50)
+    assert (share.memory_budget, share.scheduler, share.workers) == (1 << 24, None, 1)
+    with pytest.raises(haarline.OptionError, match="workers: got 2 with a Dask scheduler"):
+        Context(scheduler="tcp://10.0.0.5:8786", workers=2)
+
+
+class _Stuck:
+    """Blocks that never finish: the gather loop must still call progress (a heartbeat)."""
+
+    cancelled = False
+
+    def next_done(self, timeout):
+        import queue
+        import time
+
+        time.sleep(timeout)
+        raise queue.Empty
+
+    def result(self, i):
+        raise AssertionError("nothing finished")
+
+    def cancel(self):
+        self.cancelled = True
+
+
+def test_a_cancel_seen_in_the_heartbeat_cancels_the_outstanding_blocks():
+    from haarline.engine import batching
+
+    class Cancelled(Exception):
+        pass
+
+    calls = []
+
+    def progress(stage, done, total):
+        calls.append((stage, done, total))
+        raise Cancelled  # what the service's callback does for a cancelled job
+
+    blocks = _Stuck()
+    with pytest.raises(Cancelled):
+        batching._gather(blocks, sizes=[64, 64], progress=progress, stage="expressibility")
+    assert calls == [("expressibility", 0, 128)] and blocks.cancelled
+
+
+def test_a_plain_analysis_never_imports_dask():
+    # the optional extra costs nothing without a scheduler: start-up and a whole analysis
+    import subprocess
+    import sys
+
+    code = (
+        "import sys\n"
+        "from haarline.service.cli.main import main\n"
+        "assert main(['analyze', 'ref:ry-cz-ring', '--pairs', '200', '--samples', '50',"
+        " '--format', 'json']) == 0\n"
+        "sys.stderr.write(str(sorted(m for m in sys.modules if m.split('.')[0] in"
+        " ('dask', 'distributed'))))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert done.stderr.strip() == "[]"

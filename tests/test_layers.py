@@ -35,9 +35,10 @@ CORE_LAYERS = [
     ["haarline.lie"],
     ["haarline.report"],
     ["haarline.plots"],
+    ["haarline.client"],  # the REST client: standard library only, beside the core
 ]
 SERVICE_LAYERS = [
-    ["haarline.service.errors", "haarline.service.settings"],
+    ["haarline.service.errors", "haarline.service.settings", "haarline.service.webhooks"],
     ["haarline.service.jobs"],
     ["haarline.service.api"],
     ["haarline.service.cli"],

@@ -39,8 +39,14 @@ CAN_RETURN = {
     "listComparisons": KEYED | {422},
     "createAnalysis": CREATE,
     "createComparison": CREATE,
-    "getAnalysis": JOB,
-    "getComparison": JOB,
+    "getAnalysis": JOB | {422},  # ?wait out of range
+    "getComparison": JOB | {422},
+    "streamAnalysisEvents": JOB,
+    "streamComparisonEvents": JOB,
+    "listAnalysisDeliveries": JOB,
+    "listComparisonDeliveries": JOB,
+    "createWebhookSecret": KEYED,
+    "getWebhookSecret": KEYED | {404},  # none created yet
     "cancelAnalysis": JOB,
     "cancelComparison": JOB,
     "getAnalysisReport": SHARED,
@@ -142,6 +148,7 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
         # no key: 401 wherever a key is needed, and never on the health routes
         for i in ops:
             probe(i, keyed=False, json=bodies.get(i))
+        probe("getWebhookSecret")  # 404 before this key created one
         # unknown ids and names: 404
         for i in ops:
             probe(i, name="nope" if i == "getReference" else "nope.png")
@@ -168,6 +175,7 @@ def test_probes_get_only_listed_statuses_and_every_listed_one_occurs(make_app, t
             probe(f"get{noun}Plot", job=job, params={"token": "x" * 301})  # 422
             probe(f"latest{noun}", params={"label": "PR:1"})  # 422
             probe(f"get{noun}", job=job)
+            probe(f"get{noun}", job=job, params={"wait": 61})  # 422
         # the Idempotency-Key again with another body: 409; the queue holds 2 per key: 429
         for i, body in bodies.items():
             probe(i, json={**body, "options": {"seed": 2}}, headers=once[i])

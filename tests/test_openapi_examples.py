@@ -15,6 +15,7 @@ import pytest
 from fastapi.routing import APIRoute
 from haarline.report.schema import CircuitFacts
 from haarline.service.api.examples import examples
+from haarline.service.api.schemas import JobPublic
 from pydantic import TypeAdapter
 
 DOCUMENT = json.loads((Path(__file__).parents[1] / "openapi-notes" / "openapi.json").read_text())
@@ -79,6 +80,12 @@ def test_each_example_fits_the_models_of_its_route(operation_id, routes):
         assert answer == haarline.circuit_schema()
     elif operation_id == "getReference":
         haarline.parse_circuit(answer)
+    elif operation_id.startswith("stream"):
+        # server-sent events: every data line is the job as its status route shows it
+        data = [line[6:] for line in answer.splitlines() if line.startswith("data: ")]
+        assert data and "event: end" in answer
+        for line in data:
+            JobPublic.model_validate_json(line)
     elif operation_id == "checkCircuit":
         facts = CircuitFacts.model_validate(answer)
         assert facts.model_extra == {}

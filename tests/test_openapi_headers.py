@@ -90,6 +90,9 @@ def test_every_header_sent_is_declared(finished, make_client, tmp_path):
             again = send(c, f"get{noun}Plot", job=job, name=name, headers={"If-None-Match": tag})
             assert again.status_code == 304
         send(c, f"get{noun}", job=job)
+        send(c, f"get{noun}", job=job, params={"wait": 0.1})
+        send(c, f"stream{noun}Events", job=job)  # a finished job: `end` at once, then closed
+        send(c, f"list{noun}Deliveries", job=job)
         send(c, f"latest{noun}")
         listing = send(c, f"list{'Analyses' if noun == 'Analysis' else 'Comparisons'}")
         assert listing.status_code == 200
@@ -105,7 +108,9 @@ def test_every_header_sent_is_declared(finished, make_client, tmp_path):
     send(c, "scoreCircuit", json={"reference": "rx-product", "options": SMALL})
     send(c, "checkCircuit", json={"reference": "rx-product"})
     send(c, "checkCircuit", content=b"x=1", headers={"Content-Type": "text/plain"})  # 415
-    for op in ("getCircuitSchema", "listReferences", "health", "ready"):
+    assert send(c, "getWebhookSecret").status_code == 404
+    assert send(c, "createWebhookSecret").status_code == 201
+    for op in ("getWebhookSecret", "getCircuitSchema", "listReferences", "health", "ready"):
         send(c, op)
     send(c, "getReference", name="rx-product")
 

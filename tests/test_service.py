@@ -312,7 +312,7 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "/v1/analyses",
             {"reference": "rx-product", "bogus": 1},
             "bogus",
-            SOURCE + ", options, data, labels",
+            SOURCE + ", options, data, labels, callback_url",
         ),
         (
             "/v1/comparisons",
@@ -330,7 +330,7 @@ SOURCE = "circuit, qasm, reference"  # the fields of every circuit source
             "/v1/score",
             {"reference": "rx-product", "seed": 3},
             "seed",
-            SOURCE + ", options, data, labels",
+            SOURCE + ", options, data, labels, callback_url",
         ),
     ],
 )

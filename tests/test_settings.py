@@ -57,3 +57,16 @@ def test_no_module_reads_haarline_variables_past_the_settings():
         if p.name != "settings.py" and "environ" in p.read_text() and "HAARLINE_" in p.read_text()
     ]
     assert readers == []
+
+
+def test_the_dask_settings_are_checked_at_start_up(tmp_path):
+    address = "tcp://10.0.0.5:8786"
+    settings = Settings.from_env(env(tmp_path, DASK_SCHEDULER=address, DASK_UNIT="block"))
+    assert (settings.dask_scheduler, settings.dask_unit) == (address, "block")
+    assert Settings.from_env(env(tmp_path, DASK_SCHEDULER=address)).dask_unit == "job"
+    with pytest.raises(SettingsError, match="HAARLINE_DASK_SCHEDULER: expected a Dask sched"):
+        Settings.from_env(env(tmp_path, DASK_SCHEDULER="10.0.0.5:8786"))
+    with pytest.raises(SettingsError, match="DASK_UNIT: 'block' .* set HAARLINE_DASK_SCHED"):
+        Settings.from_env(env(tmp_path, DASK_UNIT="block"))
+    with pytest.raises(SettingsError, match="HAARLINE_DASK_UNIT: .*'job' or 'block'"):
+        Settings.from_env(env(tmp_path, DASK_SCHEDULER=address, DASK_UNIT="task"))

@@ -1,17 +1,22 @@
-"""Shared loops: simulate parameter vectors chunk by chunk, optionally in worker processes.
+"""Shared loops: simulate parameter vectors chunk by chunk, in worker processes or on Dask.
 
 Sample ``k`` of a stream always gets row ``k`` of the stream's random parameters
 (:mod:`haarline.engine.sampling`) and the engine applies the same operations to it whatever the
 chunk, so a per-sample result is a pure function of ``(program, seed, stream, k)``.
-:func:`sample_map` and :func:`block_map` use that: with ``workers > 1`` they cut the
-samples into blocks of whole :data:`~haarline.engine.sampling.BLOCK_SIZE` rows, compute the
-blocks in a pool of worker processes and put the results back in sample order, so the
-numbers are bit-identical to a single worker's.
+:func:`sample_map` and :func:`block_map` use that: with ``workers > 1`` (or a Dask
+scheduler in the context) they cut the samples into blocks of whole
+:data:`~haarline.engine.sampling.BLOCK_SIZE` rows, compute the blocks in a pool of worker
+processes (or as Dask tasks, :mod:`haarline.engine.cluster`) and put the results back in
+sample order, so the numbers are bit-identical to a single worker's. Progress is reported
+as blocks finish, in whatever order; when the progress callback raises (a cancelled job)
+or the caller is interrupted, the blocks not yet finished are cancelled.
 """
 
 from __future__ import annotations
 
+import functools
 import multiprocessing
+import queue
 import threading
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
@@ -20,6 +25,7 @@ from typing import Any
 
 import numpy as np
 from haarline.circuit.program import Program
+from haarline.engine import cluster
 from haarline.engine.context import Context, Progress
 from haarline.engine.draws import Draws
 from haarline.engine.sampling import BLOCK_SIZE
@@ -39,15 +45,25 @@ BLOCKS_PER_WORKER = 2
 """Blocks handed to each worker (two, so that a slow block does not idle the others for
 long; every block costs a round trip to a worker)."""
 
+HEARTBEAT_SECONDS = 1.0
+"""While blocks run, the progress callback is called at least this often (with unchanged
+numbers if no block finished), so that a cancel request is seen within about a second."""
+
 
 def worker_count(context: Context, program: Program, samples: int, per_sample: int = 1) -> int:
-    """The worker processes a call actually uses: the context's, or 1 for small work.
+    """The workers a call actually uses: the context's, the cluster's, or 1 for small work.
 
     The work of a sample is estimated as ``per_sample`` circuit runs of ``G`` gates on
-    ``2**n`` amplitudes; below ``context.parallel_from`` the call runs in-process.
+    ``2**n`` amplitudes; below ``context.parallel_from`` the call runs in-process. With a
+    Dask scheduler it is the cluster's worker threads, at least 2 (so that even a one-thread
+    cluster gets the blocks and this process only gathers).
     """
     work = samples * per_sample * max(1, len(program.operations)) << program.qubits
-    return 1 if work < context.parallel_from else context.workers
+    if work < context.parallel_from:
+        return 1
+    if context.scheduler is not None:
+        return max(2, cluster.threads(context.scheduler))
+    return context.workers
 
 
 def chunked_states(
@@ -197,6 +213,67 @@ def _pool(workers: int) -> ProcessPoolExecutor:
         return pool
 
 
+class _PoolBlocks:
+    """The futures of one call's blocks in the local process pool (as :class:`Blocks`)."""
+
+    def __init__(self, futures: list[Future[Any]]):
+        self.futures = futures
+        self.finished: queue.SimpleQueue[int] = queue.SimpleQueue()
+        for i, future in enumerate(futures):
+            future.add_done_callback(functools.partial(self._done, i))
+
+    def _done(self, i: int, _: Future[Any]) -> None:
+        self.finished.put(i)
+
+    def next_done(self, timeout: float) -> int:
+        return self.finished.get(timeout=timeout)
+
+    def result(self, i: int) -> Any:
+        return self.futures[i].result()
+
+    def cancel(self) -> None:
+        """Cancel the blocks that have not started (running ones cannot be stopped)."""
+        for future in self.futures:
+            future.cancel()
+
+
+def _gather(
+    blocks: _PoolBlocks | cluster.Blocks,
+    *,
+    sizes: Sequence[int],
+    progress: Progress | None,
+    stage: str,
+) -> list[Any]:
+    """Results of the blocks in task order; progress as they finish; cancel on any error.
+
+    A block sent again (its shared arguments were lost with a Dask worker) is waited for
+    again. While nothing finishes, progress is repeated every :data:`HEARTBEAT_SECONDS`.
+    """
+    total = sum(sizes)
+    out: list[Any] = [None] * len(sizes)
+    left, done = len(sizes), 0
+    try:
+        while left:
+            try:
+                i = blocks.next_done(HEARTBEAT_SECONDS)
+            except queue.Empty:
+                if progress is not None:  # may raise: a cancelled job
+                    progress(stage, done, total)
+                continue
+            value = blocks.result(i)
+            if value is cluster.AGAIN:
+                continue
+            out[i] = value
+            left -= 1
+            done += sizes[i]
+            if progress is not None:
+                progress(stage, done, total)
+    except BaseException:
+        blocks.cancel()
+        raise
+    return out
+
+
 def block_map(
     func: Callable[..., Any],
     tasks: Sequence[tuple[Any, ...]],
@@ -205,16 +282,24 @@ def block_map(
     stage: str = "",
     sizes: Sequence[int] | None = None,
 ) -> list[Any]:
-    """``[func(*task) for task in tasks]``, computed by the context's worker processes.
+    """``[func(*task) for task in tasks]``, computed by the context's workers.
 
     ``func`` and the task arguments must be picklable (module-level functions, plain
-    data). ``sizes`` (samples per task) drives the progress callback.
+    data). ``sizes`` (samples per task) drives the progress callback. With a Dask
+    scheduler in the context the tasks run on its cluster; an argument that every task
+    shares (the same object) travels once per worker.
     """
     workers, progress = context.workers, context.progress
     sizes = list(sizes) if sizes is not None else [1] * len(tasks)
     total = sum(sizes)
     if progress is not None:
         progress(stage, 0, total)
+    if context.scheduler is not None and len(tasks) > 1:
+        sent = cluster.Blocks(context.scheduler, func, tasks, stage)
+        try:
+            return _gather(sent, sizes=sizes, progress=progress, stage=stage)
+        finally:
+            sent.close()
     if workers == 1 or len(tasks) <= 1:
         out, done = [], 0
         for task, size in zip(tasks, sizes, strict=True):
@@ -224,17 +309,12 @@ def block_map(
                 progress(stage, done, total)
         return out
     pool = _pool(workers)
+    futures: list[Future[Any]] = []
     try:
-        futures: list[Future[Any]] = [pool.submit(func, *task) for task in tasks]
-        done = 0
-        for future, size in zip(futures, sizes, strict=True):
-            future.result()
-            done += size
-            if progress is not None:
-                progress(stage, done, total)
+        futures = [pool.submit(func, *task) for task in tasks]
+        return _gather(_PoolBlocks(futures), sizes=sizes, progress=progress, stage=stage)
     except BrokenProcessPool:
         with _pools_lock:  # a dead pool is not kept for the next call
             if _pools.get(workers) is pool:
                 del _pools[workers]
         raise
-    return [f.result() for f in futures]

@@ -1,9 +1,10 @@
 """How a computation runs, as one value: memory budget, precision, workers, progress.
 
-Every sampled metric takes a :class:`Context` instead of four separate keywords. Of its
-fields only ``precision`` can move a number (by rounding, within the bounds measured in
-``bench/precision.json``); the memory budget and the worker count change speed only, and
-the results are bit-identical for any of them (``tests/test_context.py``).
+Every sampled metric takes a :class:`Context` instead of separate keywords. Of its fields
+only ``precision`` can move a number (by rounding, within the bounds measured in
+``bench/precision.json``); the memory budget, the worker count and the Dask scheduler
+change speed only, and the results are bit-identical for any of them
+(``tests/test_context.py``, ``tests/test_dask_blocks.py``).
 
 Examples
 --------
@@ -11,6 +12,8 @@ Examples
 >>> ctx.dtype.__name__, ctx.workers
 ('complex64', 2)
 >>> ctx.for_workers(2).memory_budget == ctx.memory_budget // 2
+True
+>>> Context(scheduler="tcp://10.0.0.5:8786").for_workers(8).memory_budget == ctx.memory_budget
 True
 """
 
@@ -21,6 +24,7 @@ from dataclasses import dataclass, replace
 from typing import Literal
 
 import numpy as np
+from haarline.engine.cluster import check_address
 from haarline.engine.statevector import DEFAULT_MEMORY_BUDGET
 from haarline.errors import OptionError, Problem
 
@@ -71,6 +75,11 @@ class Context:
     parallel_from : int
         Work (gate applications x amplitudes) from which a call uses the workers; smaller
         calls run in-process. Speed only.
+    scheduler : str, optional
+        Address of a Dask scheduler, ``tcp://HOST:PORT``: the blocks of every call above
+        ``parallel_from`` run as Dask tasks on its workers (:mod:`haarline.engine.cluster`)
+        instead of local processes, so ``workers`` stays 1; the memory budget then holds
+        for each task. Speed only.
     """
 
     memory_budget: int = DEFAULT_MEMORY_BUDGET
@@ -78,6 +87,7 @@ class Context:
     workers: int = 1
     progress: Progress | None = None
     parallel_from: int = PARALLEL_WORK
+    scheduler: str | None = None
 
     def __post_init__(self) -> None:
         problems = []
@@ -97,6 +107,19 @@ class Context:
         f = self.parallel_from
         if isinstance(f, bool) or not isinstance(f, int) or f < 0:
             problems.append(Problem("parallel_from", f"expected an integer >= 0, got {f!r}"))
+        if self.scheduler is not None:
+            try:
+                check_address(self.scheduler)
+            except OptionError as exc:
+                problems.extend(exc.problems)
+            if w != 1 and not problems:
+                problems.append(
+                    Problem(
+                        "workers",
+                        f"got {w} with a Dask scheduler; the cluster's workers share the "
+                        "blocks, so leave the local workers at 1",
+                    )
+                )
         if self.precision not in _DTYPES:
             problems.append(
                 Problem("precision", f"got {self.precision!r}; expected double or single")
@@ -110,16 +133,20 @@ class Context:
         return _DTYPES[self.precision]
 
     def for_workers(self, workers: int) -> Context:
-        """The context of one of ``workers`` processes.
+        """The context of one of ``workers`` processes (or Dask tasks).
 
-        Its share of the memory budget, one worker, and no progress callback (which
-        cannot cross a process boundary).
+        Its share of the memory budget (on a Dask cluster each task gets the whole
+        budget: the tasks run on other machines), one worker, no scheduler (a block never
+        sends blocks of its own) and no progress callback (which cannot cross a process
+        boundary).
         """
+        share = self.memory_budget if self.scheduler else self.memory_budget // workers
         return replace(
             self,
-            memory_budget=max(MIN_MEMORY_BUDGET, self.memory_budget // workers),
+            memory_budget=max(MIN_MEMORY_BUDGET, share),
             workers=1,
             progress=None,
+            scheduler=None,
         )
 
     def report(self, stage: str, done: int, total: int) -> None:

@@ -12,8 +12,9 @@ from fastapi.middleware.cors import CORSMiddleware
 from haarline.service.api.http import Compress, HeadAsGet
 from haarline.service.api.limits import BodyLimit
 from haarline.service.api.problems import install_handlers, install_openapi
-from haarline.service.api.routes import docs, jobs, meta, pages
+from haarline.service.api.routes import docs, jobs, meta, notify, pages
 from haarline.service.jobs.executor import Runner
+from haarline.service.jobs.notify import Notifier
 from haarline.service.jobs.store import Store
 from haarline.service.settings import Settings
 
@@ -21,7 +22,17 @@ __all__ = ["create_app"]
 
 log = logging.getLogger("haarline.service")
 
-ROUTERS = (jobs.analyses, jobs.comparisons, pages.router, meta.v1, meta.health, docs.router)
+ROUTERS = (
+    jobs.analyses,
+    jobs.comparisons,
+    notify.analysis_notes,
+    notify.comparison_notes,
+    notify.secrets,
+    pages.router,
+    meta.v1,
+    meta.health,
+    docs.router,
+)
 
 
 def create_app(settings: Settings | None = None, *, start_runner: bool = True) -> FastAPI:
@@ -30,6 +41,7 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
     store = Store(settings.database)
     store.initialize()
     runner = Runner(settings, store)
+    notifier = Notifier(settings, store)
 
     @asynccontextmanager
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
@@ -37,7 +49,9 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
             log.warning("DEVELOPMENT MODE: no API keys are checked; loopback only")
         if start_runner:
             runner.start()
+            notifier.start()
         yield
+        notifier.stop()
         runner.stop()
 
     app = FastAPI(
@@ -50,6 +64,7 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
         redoc_url=None,
     )
     app.state.settings, app.state.store, app.state.runner = settings, store, runner
+    app.state.notifier = notifier
     install_handlers(app)
     install_openapi(app)
     for router in ROUTERS:

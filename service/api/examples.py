@@ -28,6 +28,7 @@ PARAMETERS: dict[str, Any] = {
     "label": ["pr:17"],
     "state": ["succeeded"],
     "limit": 20,
+    "wait": 30,
     "Idempotency-Key": "ci-run-4711",
     "If-None-Match": '"845e91831319e89c4d656bdb80c278ac"',
 }

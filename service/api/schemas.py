@@ -14,6 +14,8 @@ __all__ = [
     "CircuitSource",
     "CompareCreate",
     "DataInline",
+    "DeliveryAttemptPublic",
+    "DeliveryPublic",
     "EventPublic",
     "JobLinks",
     "JobOptions",
@@ -24,6 +26,8 @@ __all__ = [
     "ProgressPublic",
     "ReadyPublic",
     "ReferencePublic",
+    "WebhookSecretCreated",
+    "WebhookSecretPublic",
     "job_public",
 ]
 
@@ -31,6 +35,8 @@ MAX_QASM_CHARS = 1_000_000
 MAX_INLINE_ROWS = 10_000
 """Most rows of an inline data set (the body size limit applies too)."""
 MAX_INLINE_FEATURES = 1_000
+MAX_CALLBACK_CHARS = 2000
+"""Longest ``callback_url``."""
 MAX_NESTING = 32
 """Deepest nesting of arrays and objects a request body may have (a description needs ~8)."""
 
@@ -141,6 +147,14 @@ Labels = Annotated[
 ]
 
 
+CALLBACK_URL = (
+    "An https URL that receives a signed POST when the job ends (succeeded, failed or "
+    "cancelled), per the Standard Webhooks specification, signed with this key's secret "
+    "(POST /v1/webhook-secret). Its host must resolve only to public addresses unless the "
+    "server's HAARLINE_WEBHOOK_* settings allow more."
+)
+
+
 class AnalysisCreate(CircuitSource):
     """Body of ``POST /v1/analyses`` and ``POST /v1/score``."""
 
@@ -151,6 +165,11 @@ class AnalysisCreate(CircuitSource):
         "options' input law.",
     )
     labels: Labels = Field(default_factory=dict)
+    callback_url: str | None = Field(
+        default=None,
+        max_length=MAX_CALLBACK_CHARS,
+        description=CALLBACK_URL + " Jobs only: the score route refuses it.",
+    )
 
 
 class CompareCreate(_Body):
@@ -165,6 +184,9 @@ class CompareCreate(_Body):
         default=None,
         description="For circuits with inputs: rows to draw the inputs from (every circuit "
         "must encode as many inputs as the rows have features).",
+    )
+    callback_url: str | None = Field(
+        default=None, max_length=MAX_CALLBACK_CHARS, description=CALLBACK_URL
     )
 
 
@@ -202,6 +224,8 @@ class JobLinks(BaseModel):
     report: str
     summary: str
     plots: str
+    events: str = Field(description="Server-sent events of its progress and its end.")
+    deliveries: str = Field(description="The notifications of its end and their attempts.")
 
 
 class JobPublic(BaseModel):
@@ -221,6 +245,9 @@ class JobPublic(BaseModel):
     policy: Literal["passed", "warned", "failed"] | None = Field(
         default=None,
         description="The verdict of `options.policy` on the finished report (null without one).",
+    )
+    callback_url: str | None = Field(
+        default=None, description="Notified when the job ends (see deliveries)."
     )
     links: JobLinks
 
@@ -305,7 +332,64 @@ def job_public(job: dict[str, Any], base: str) -> JobPublic:
         events=[EventPublic(**e) for e in job.get("events", [])],
         labels=job.get("labels", {}),
         policy=_VERDICT.get(job.get("policy") or ""),
+        callback_url=job.get("callback_url"),
         links=JobLinks(
-            self=root, report=f"{root}/report", summary=f"{root}/summary", plots=f"{root}/plots"
+            self=root,
+            report=f"{root}/report",
+            summary=f"{root}/summary",
+            plots=f"{root}/plots",
+            events=f"{root}/events",
+            deliveries=f"{root}/deliveries",
         ),
     )
+
+
+class DeliveryAttemptPublic(BaseModel):
+    """One attempt to deliver a notification."""
+
+    attempt: int = Field(description="1 for the first attempt.")
+    at: float = Field(description="When it started (Unix seconds).")
+    seconds: float = Field(description="How long it took.")
+    status_code: int | None = Field(description="The receiver's HTTP status, if it answered.")
+    error: str | None = Field(
+        description="Why it did not count as delivered (a non-2xx status, a refused "
+        "destination, no connection, a timeout); null when delivered."
+    )
+
+
+class DeliveryPublic(BaseModel):
+    """The notification of a job's end, and every attempt to deliver it."""
+
+    id: str = Field(description="The message id, sent as webhook-id on every attempt.")
+    event: Literal[
+        "analysis.succeeded",
+        "analysis.failed",
+        "analysis.cancelled",
+        "comparison.succeeded",
+        "comparison.failed",
+        "comparison.cancelled",
+    ]
+    url: str
+    status: Literal["pending", "sending", "delivered", "failed"] = Field(
+        description="pending: an attempt is due at next_attempt; sending: one is under way; "
+        "delivered: answered 2xx; failed: every retry was used."
+    )
+    next_attempt: float | None = Field(description="When a pending delivery is tried next.")
+    created: float
+    attempts: list[DeliveryAttemptPublic]
+
+
+class WebhookSecretCreated(BaseModel):
+    """A new signing secret, shown this once."""
+
+    secret: str = Field(
+        description="whsec_ and the key in base64 (Standard Webhooks); keep it, it is not "
+        "shown again."
+    )
+    created: float
+
+
+class WebhookSecretPublic(BaseModel):
+    """Whether this key has a signing secret (never the secret itself)."""
+
+    created: float = Field(description="When the current secret was created (Unix seconds).")

@@ -20,6 +20,7 @@ from typing import Any, NoReturn
 import haarline
 from haarline.circuit.model import MAX_DESCRIPTION_BYTES, MAX_LAYERS
 from haarline.circuit.references import REFERENCE_PREFIX
+from haarline.errors import ClusterError
 from haarline.report.policy import check_metrics
 from haarline.service.cli.options import add_analysis_flags, options_from_args
 from haarline.service.cli.outputs import write_analysis, write_comparison
@@ -80,16 +81,51 @@ def _data(args: argparse.Namespace) -> haarline.Dataset | None:
 _CONTEXT_FLAGS = {"memory_budget": "--memory-budget", "workers": "--workers"}
 
 
-def _context(args: argparse.Namespace, progress: haarline.Progress) -> haarline.Context:
-    """The execution context of the flags; its problems name the flags."""
+def _scheduler(args: argparse.Namespace) -> tuple[str | None, str]:
+    """The Dask scheduler of ``--dask`` or ``HAARLINE_DASK_SCHEDULER``, and its name."""
+    from haarline.service.settings import ENV_PREFIX, dask_scheduler_from_env
+
+    if args.dask:
+        return args.dask, "--dask"
+    return dask_scheduler_from_env(), ENV_PREFIX + "DASK_SCHEDULER"
+
+
+def _context(args: argparse.Namespace, progress: haarline.Progress | None) -> haarline.Context:
+    """The execution context of the flags; its problems (the cluster's too) name the flags.
+
+    With a Dask scheduler the cluster is checked here, before any work starts.
+    """
+    scheduler, named = _scheduler(args)
+    names = {**_CONTEXT_FLAGS, "scheduler": named}
     try:
-        return haarline.Context(
-            memory_budget=args.memory_budget, workers=args.workers, progress=progress
+        context = haarline.Context(
+            memory_budget=args.memory_budget,
+            workers=args.workers,
+            progress=progress,
+            scheduler=scheduler,
         )
+        if scheduler is not None:
+            from haarline.engine import cluster
+
+            cluster.connect(scheduler)
+        return context
     except haarline.OptionError as exc:
-        raise haarline.OptionError(
-            [haarline.Problem(_CONTEXT_FLAGS.get(p.path, p.path), p.message) for p in exc.problems]
-        ) from None
+        raise _renamed(exc, names) from None
+
+
+def _renamed(exc: haarline.OptionError, names: dict[str, str]) -> haarline.OptionError:
+    """The same error with its paths named as the user gave them (flags, variables)."""
+    return type(exc)([haarline.Problem(names.get(p.path, p.path), p.message) for p in exc.problems])
+
+
+def _workers(args: argparse.Namespace) -> int:
+    """Workers that share the sampling: ``--workers``, or the Dask cluster's threads."""
+    context = _context(args, None)
+    if context.scheduler is None:
+        return context.workers
+    from haarline.engine import cluster
+
+    return cluster.threads(context.scheduler)
 
 
 ANNOUNCE_SECONDS = 5.0
@@ -126,11 +162,13 @@ def _run_analysis(
 ) -> dict[str, Any]:
     data = _data(args)
     estimate = haarline.estimate(circuit, options, memory_budget=args.memory_budget)
-    seconds = estimate.seconds(args.workers)
+    seconds = estimate.seconds(_workers(args))
     _announce(estimate, seconds, args)
     progress = TerminalProgress(stages=haarline.progress_stages(circuit, options), estimate=seconds)
     try:
         report = haarline.analyze(circuit, options, data=data, context=_context(args, progress))
+    except ClusterError as exc:  # the cluster failed during the run
+        raise _renamed(exc, {"scheduler": _scheduler(args)[1]}) from None
     finally:
         progress.close()
     if policy is not None:
@@ -382,6 +420,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return EXIT_OK
+    finally:
+        if "distributed" in sys.modules:  # a --dask run: close its client before exiting
+            from haarline.engine import cluster
+
+            cluster.disconnect()
 
 
 if __name__ == "__main__":

@@ -15,6 +15,7 @@ from typing import Any
 
 import haarline
 from haarline.circuit.model import MAX_LAYERS
+from haarline.engine.cluster import check_address
 from haarline.engine.context import MAX_WORKERS
 from haarline.report.options import DEFAULT_METRICS, DEFAULT_SEED
 from haarline.service.errors import UsageError
@@ -169,6 +170,13 @@ def _worker_count(text: str) -> int:
     return value
 
 
+def _scheduler_address(text: str) -> str:
+    try:
+        return check_address(text.strip(), "--dask")
+    except haarline.OptionError as exc:
+        raise argparse.ArgumentTypeError(exc.problems[0].message) from None
+
+
 def _metric_list(text: str) -> list[str]:
     names = [part.strip() for part in text.split(",") if part.strip()]
     for name in names:
@@ -258,6 +266,13 @@ def add_analysis_flags(p: argparse.ArgumentParser) -> None:
         type=_worker_count,
         default=1,
         help="processes sharing the sampling (default 1); the numbers do not depend on it",
+    )
+    p.add_argument(
+        "--dask",
+        type=_scheduler_address,
+        metavar="tcp://HOST:PORT",
+        help="send the sampled blocks to the Dask scheduler at this address (default: "
+        "$HAARLINE_DASK_SCHEDULER; needs the 'dask' extra); the numbers do not depend on it",
     )
     p.add_argument(
         "--gradients",

@@ -1,7 +1,11 @@
 """Runs queued jobs off the event loop: a local process pool, or a Dask cluster.
 
 A dispatcher thread moves queued jobs to ``running`` as workers free up and submits
-:func:`haarline.service.jobs.worker.execute_job` for each. Local workers are a
+:func:`haarline.service.jobs.worker.execute_job` for each. With ``HAARLINE_DASK_SCHEDULER``
+set, ``HAARLINE_DASK_UNIT`` chooses what a Dask task is: ``job``, each job runs as one task
+on the cluster (whose workers share the data directory), or ``block``, each job runs in
+the local pool and sends the sampled blocks of its analysis to the cluster
+(:mod:`haarline.engine.cluster`), so one large analysis uses every worker. Local workers are a
 :class:`haarline.service.jobs.pool.WorkerPool`, which watches its processes itself: a
 worker that dies (killed, out of memory) fails exactly its own job's future with
 :class:`~haarline.service.jobs.pool.WorkerLost` and is replaced; the job is queued again
@@ -65,7 +69,7 @@ class Runner:
     def start(self) -> None:
         """Start the pool (or connect to Dask), requeue interrupted jobs, start dispatching."""
         self._stop.clear()  # a lifespan may start the same app again after a stop
-        if self.settings.dask_scheduler:
+        if self.settings.dask_scheduler and self.settings.dask_unit == "job":
             from distributed import Client  # optional extra: pip install 'haarline[dask]'
 
             self._dask = Client(self.settings.dask_scheduler, set_as_default=False)
@@ -141,7 +145,9 @@ class Runner:
         return done
 
     def _submit(self, job_id: str) -> Future[Any]:
-        args = (str(self.store.path), job_id, self.settings.memory_budget)
+        args: tuple[Any, ...] = (str(self.store.path), job_id, self.settings.memory_budget)
+        if self.settings.dask_unit == "block":
+            args = (*args, self.settings.dask_scheduler)
         if self._dask is not None:
             return _DaskFuture(self._dask.submit(execute_job, *args, pure=False))
         pool = self._pool

@@ -73,6 +73,28 @@ MIGRATIONS: tuple[Migration, ...] = (
     ),
     Migration(
         3,
+        "notifications: a job's callback URL, each key's signing secret, the outbox of "
+        "notifications and every delivery attempt; a job's estimated work (for Retry-After)",
+        (
+            "ALTER TABLE jobs ADD COLUMN callback_url TEXT",
+            "ALTER TABLE jobs ADD COLUMN work REAL",
+            "CREATE TABLE webhook_secrets ("
+            " owner TEXT PRIMARY KEY, secret TEXT NOT NULL, created REAL NOT NULL)",
+            "CREATE TABLE deliveries ("
+            " id TEXT PRIMARY KEY, job_id TEXT NOT NULL, owner TEXT NOT NULL,"
+            " kind TEXT NOT NULL, state TEXT NOT NULL, url TEXT NOT NULL,"
+            " event TEXT NOT NULL, status TEXT NOT NULL, attempts INTEGER NOT NULL DEFAULT 0,"
+            " next_at REAL, created REAL NOT NULL, updated REAL NOT NULL)",
+            "CREATE INDEX deliveries_due ON deliveries(status, next_at)",
+            "CREATE INDEX deliveries_job ON deliveries(job_id)",
+            "CREATE TABLE delivery_attempts ("
+            " delivery_id TEXT NOT NULL, attempt INTEGER NOT NULL, at REAL NOT NULL,"
+            " seconds REAL NOT NULL, status_code INTEGER, error TEXT,"
+            " PRIMARY KEY (delivery_id, attempt))",
+        ),
+    ),
+    Migration(
+        4,
         "labels of a job (a column to show them, a table to find jobs by them), the policy "
         "status of a finished job, and share links that can be listed and revoked",
         (

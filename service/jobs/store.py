@@ -6,7 +6,9 @@ writes. A database that is locked for longer than the busy timeout, or a full di
 :class:`StoreUnavailable`, which the service answers with 503.
 
 Job states are :class:`~haarline.service.jobs.states.JobState` members, bound as SQL
-parameters. Every state change is recorded in ``events`` with its time. A finished job is
+parameters. Every state change is recorded in ``events`` with its time; a job that ends
+with a ``callback_url`` queues its notification in the same transaction
+(:func:`haarline.service.jobs.outbox.enqueue_end`). A finished job is
 deleted only on request (``DELETE`` of its URL) or by retention
 (``HAARLINE_RETENTION_DAYS``), with its events, result and PNGs. The tables and their
 migrations are in :mod:`haarline.service.jobs.migrations`.
@@ -22,12 +24,13 @@ import sqlite3
 import time
 import uuid
 from collections.abc import Iterator, Sequence
-from contextlib import contextmanager
+from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
 from typing import Any
 
 from haarline.service.errors import StoreUnavailable
 from haarline.service.jobs.migrations import migrate
+from haarline.service.jobs.outbox import enqueue_end
 from haarline.service.jobs.states import ACTIVE, FINAL, JobState
 
 __all__ = ["JOB_ID", "JobState", "Store", "StoreUnavailable", "is_job_id"]
@@ -79,6 +82,13 @@ class Store:
             raise StoreUnavailable(f"the job store is damaged or unreadable: {exc}") from None
         finally:
             conn.close()
+
+    def connect(self) -> AbstractContextManager[sqlite3.Connection]:
+        """A connection (autocommit, rows by name) for modules with tables of their own.
+
+        Errors are translated as in every store call (:class:`StoreUnavailable`).
+        """
+        return self._connect()
 
     def initialize(self) -> list[int]:
         """Switch the file to WAL mode and bring its schema up to date; return the migrations run.
@@ -159,8 +169,13 @@ class Store:
         request_hash: str,
         idempotency_key: str | None = None,
         labels: dict[str, str] | None = None,
+        callback_url: str | None = None,
+        work: float | None = None,
     ) -> tuple[dict[str, Any], bool]:
         """Insert a queued job; with an idempotency key already used, return the old one.
+
+        ``callback_url`` is notified when the job ends; ``work`` is its estimated work
+        (admission's), which the ``Retry-After`` of a full queue reads.
 
         Returns
         -------
@@ -181,7 +196,8 @@ class Store:
             labels = dict(sorted((labels or {}).items()))
             conn.execute(
                 "INSERT INTO jobs (id, owner, kind, request, request_hash, idempotency_key, "
-                "state, created, updated, labels) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                "state, created, updated, labels, callback_url, work) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (
                     job_id,
                     owner,
@@ -193,6 +209,8 @@ class Store:
                     now,
                     now,
                     json.dumps(labels),
+                    callback_url,
+                    work,
                 ),
             )
             conn.executemany(
@@ -252,6 +270,7 @@ class Store:
                     "answered from the stored result of an identical request",
                 ),
             )
+            enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
         return True
 
@@ -448,9 +467,8 @@ class Store:
                     "INSERT OR REPLACE INTO artifacts (job_id, name, content) VALUES (?, ?, ?)",
                     (job_id, name, content),
                 )
-            policy = report.get("policy")
-            status = policy.get("status") if isinstance(policy, dict) else None
-            conn.execute(
+            status = _policy_status(report)
+            cur = conn.execute(
                 "UPDATE jobs SET state = ?, fraction = 1, stage = 'done', "
                 "updated = ?, policy = ? WHERE id = ? AND state = ?",
                 (JobState.SUCCEEDED, now, status, job_id, JobState.RUNNING),
@@ -459,6 +477,8 @@ class Store:
                 "INSERT INTO events (job_id, state, at) VALUES (?, ?, ?)",
                 (job_id, JobState.SUCCEEDED, now),
             )
+            if cur.rowcount:
+                enqueue_end(conn, job_id, JobState.SUCCEEDED, now)
             conn.execute("COMMIT")
 
     def mark(self, job_id: str, state: JobState, *, error: str | None = None) -> None:
@@ -478,6 +498,8 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, state, now, error),
                 )
+                if state in FINAL:
+                    enqueue_end(conn, job_id, state, now)
             conn.execute("COMMIT")
 
     def request_cancel(self, job_id: str) -> JobState | None:
@@ -502,6 +524,7 @@ class Store:
                     "INSERT INTO events (job_id, state, at, detail) VALUES (?, ?, ?, ?)",
                     (job_id, JobState.CANCELLED, now, "cancelled before it started"),
                 )
+                enqueue_end(conn, job_id, JobState.CANCELLED, now)
                 state = JobState.CANCELLED
             elif state is JobState.RUNNING:
                 conn.execute("UPDATE jobs SET cancel = 1, updated = ? WHERE id = ?", (now, job_id))
@@ -617,7 +640,28 @@ def _job(row: sqlite3.Row) -> dict[str, Any]:
     return job
 
 
+_RANK = {"pass": 0, "warn": 1, "fail": 2}
+
+
+def _policy_status(result: dict[str, Any]) -> str | None:
+    """A report's policy status, or a comparison's worst over its circuits (or ``None``)."""
+    policy = result.get("policy")
+    if isinstance(policy, dict):
+        return str(policy.get("status"))
+    ranking = result.get("ranking") or []
+    found = [str(r["policy"]) for r in ranking if isinstance(r, dict) and r.get("policy") in _RANK]
+    return max(found, key=_RANK.__getitem__) if found else None
+
+
 def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
-    """Delete what belongs to deleted jobs (inside the caller's transaction)."""
-    for table in ("events", "results", "artifacts", "job_labels", "links"):
+    """Delete what belongs to deleted jobs (inside the caller's transaction).
+
+    A job's notifications go with it, a pending one too (its attempts are not made).
+    """
+    conn.executemany(
+        "DELETE FROM delivery_attempts WHERE delivery_id IN "
+        "(SELECT id FROM deliveries WHERE job_id = ?)",
+        [(i,) for i in ids],
+    )
+    for table in ("events", "results", "artifacts", "deliveries", "job_labels", "links"):
         conn.executemany(f"DELETE FROM {table} WHERE job_id = ?", [(i,) for i in ids])

@@ -93,10 +93,14 @@ def run_request(
     *,
     memory_budget: int,
     progress: Any = None,
+    scheduler: str | None = None,
 ) -> tuple[dict[str, Any], str, dict[str, bytes]]:
-    """Run one stored request; return (report or comparison, Markdown, PNGs)."""
+    """Run one stored request; return (report or comparison, Markdown, PNGs).
+
+    With a Dask ``scheduler`` the sampled blocks run on its cluster (block-level mode).
+    """
     options = haarline.AnalysisOptions.model_validate(request.get("options", {}))
-    context = haarline.Context(memory_budget=memory_budget, progress=progress)
+    context = haarline.Context(memory_budget=memory_budget, progress=progress, scheduler=scheduler)
     data = haarline.dataset_from(request["data"]) if request.get("data") else None
     policy = haarline.parse_policy(request["policy"]) if request.get("policy") else None
 
@@ -155,8 +159,14 @@ def warm_up() -> int:
     return os.getpid()
 
 
-def execute_job(database: str, job_id: str, memory_budget: int) -> str:
-    """Run a claimed job to its end; return its final state."""
+def execute_job(
+    database: str, job_id: str, memory_budget: int, scheduler: str | None = None
+) -> str:
+    """Run a claimed job to its end; return its final state.
+
+    ``scheduler``: the Dask scheduler that computes the job's sampled blocks
+    (``HAARLINE_DASK_UNIT=block``); cancelling the job cancels the blocks not yet done.
+    """
     store = Store(database)
     job = store.get_job(job_id)
     if job is None or job["state"] is not JobState.RUNNING:
@@ -180,11 +190,15 @@ def execute_job(database: str, job_id: str, memory_budget: int) -> str:
 
     try:
         result, markdown, images = run_request(
-            kind, request, memory_budget=memory_budget, progress=progress
+            kind, request, memory_budget=memory_budget, progress=progress, scheduler=scheduler
         )
     except JobCancelled:
         store.mark(job_id, JobState.CANCELLED, error="cancelled on request")
         return "cancelled"
+    except haarline.ClusterError as exc:  # block-level mode: the cluster, not the request
+        reason = "; ".join(f"HAARLINE_DASK_SCHEDULER: {p.message}" for p in exc.problems)
+        store.mark(job_id, JobState.FAILED, error=reason)
+        return "failed"
     except (haarline.InputError, haarline.LimitError) as exc:
         store.mark(job_id, JobState.FAILED, error=str(exc))
         return "failed"

@@ -8,8 +8,11 @@ cursor (``next`` in the body and a ``Link: <…>; rel="next"`` header), newest f
 A finished job's report, summary and plots never change: they carry a strong ``ETag`` and
 ``Cache-Control: …, immutable``, and ``If-None-Match`` gives 304
 (:mod:`haarline.service.api.http`). A job's status may change at any time
-(``Cache-Control: no-store``). ``DELETE`` cancels an active job (202) and deletes a
-finished one with its outputs (204).
+(``Cache-Control: no-store``); ``?wait=S`` holds the answer until it does, or for S
+seconds (:mod:`haarline.service.api.watch`). ``DELETE`` cancels an active job (202) and
+deletes a finished one with its outputs (204). A job's ``callback_url`` is checked here
+(:mod:`haarline.service.jobs.destinations`); its notifications, event stream and secret
+routes are in :mod:`haarline.service.api.routes.notify`.
 """
 
 import base64
@@ -20,6 +23,7 @@ from urllib.parse import urlencode
 
 import haarline
 from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, Response
+from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
 from haarline.report.schema import Comparison, Report
 from haarline.service.api.access import SHARED_READ, Token, readable_job, summary_links
@@ -50,10 +54,15 @@ from haarline.service.api.schemas import (
     JobPublic,
     job_public,
 )
+from haarline.service.api.watch import MAX_WAIT, next_change
+from haarline.service.errors import CallbackRefused
+from haarline.service.jobs import outbox
 from haarline.service.jobs.backoff import full_queue_wait
+from haarline.service.jobs.destinations import check_destination
 from haarline.service.jobs.space import require_free_space
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store, is_job_id
+from haarline.service.settings import Settings
 
 __all__ = ["analyses", "comparisons"]
 
@@ -135,6 +144,22 @@ def _owned(store: Store, job_id: str, caller: str, kind: str) -> dict[str, Any]:
     return job
 
 
+def _callback(url: str | None, caller: str, store: Store, settings: Settings) -> str | None:
+    """Check a ``callback_url`` (destination rules, a signing secret to sign with)."""
+    if url is None:
+        return None
+    check_destination(url, settings)
+    with store.connect() as conn:
+        secret = outbox.secret_of(conn, caller)
+    if secret is None:
+        raise CallbackRefused(
+            url,
+            "this key has no signing secret yet; create one with POST /v1/webhook-secret "
+            "(it is shown once), then submit again",
+        )
+    return url
+
+
 def _get(store: Store, job_id: str) -> dict[str, Any]:
     job = store.get_job(job_id)
     if job is None:
@@ -187,17 +212,19 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     ) -> Any:
         labels: dict[str, str] = body.labels  # type: ignore[attr-defined]
         if kind == "analysis":
-            stored, _ = admit_analysis(body, settings)
+            stored, estimate = admit_analysis(body, settings)
         else:
-            stored, _ = admit_compare(body, settings)
+            stored, estimate = admit_compare(body, settings)
+        url: str | None = body.callback_url  # type: ignore[attr-defined]
+        callback = _callback(url, caller, store, settings)
         digest = request_hash(kind, stored)
         here = request.url.path
         if idempotency_key is not None:
             previous = store.find_idempotent(caller, idempotency_key)
             if previous is not None:
-                if previous["request_hash"] != digest or previous["labels"] != dict(
-                    sorted(labels.items())
-                ):
+                same = previous["request_hash"] == digest
+                same = same and previous["labels"] == dict(sorted(labels.items()))
+                if not same or previous["callback_url"] != callback:
                     return problem_response(
                         409,
                         "this Idempotency-Key was used with a different request body",
@@ -215,7 +242,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
                 f"this key already has {settings.queue_per_key} queued or running jobs, the "
                 "limit; retry later",
                 kind="queue-full",
-                headers={"Retry-After": str(full_queue_wait(store, settings, runner.capacity))},
+                headers={
+                    "Retry-After": str(full_queue_wait(store, settings, runner.capacity, caller))
+                },
                 instance=here,
             )
         job, created = store.create_job(
@@ -225,6 +254,8 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             request_hash=digest,
             idempotency_key=idempotency_key,
             labels=labels,
+            callback_url=callback,
+            work=estimate.work,
         )
         if created:
             # the cache is per key unless HAARLINE_SHARED_RESULT_CACHE shares it
@@ -319,14 +350,32 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         "/{job_id}",
         response_model=JobPublic,
         operation_id=f"get{title}",
-        summary="Status and progress",
+        summary="Status and progress; with wait=S, as soon as either changes (a long poll)",
         description="The job's state, progress, events, labels, policy verdict and the links "
-        "to its outputs.",
-        responses={200: CHANGING, **problem_responses(401, 404, 503)},
+        "to its outputs; `wait` holds the answer until something changes.",
+        responses={200: CHANGING, **problem_responses(401, 404, 422, 503)},
     )
-    def status(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
+    async def status(
+        job_id: str,
+        caller: CallerDep,
+        store: StoreDep,
+        response: Response,
+        wait: Annotated[
+            float | None,
+            Query(
+                ge=0,
+                le=MAX_WAIT,
+                allow_inf_nan=False,
+                description="Seconds to hold the answer until the state or progress changes "
+                f"(at most {MAX_WAIT:g}); a finished job answers at once.",
+            ),
+        ] = None,
+    ) -> Any:
         response.headers["Cache-Control"] = NO_STORE
-        return job_public(_owned(store, job_id, caller, kind), base)
+        job = await run_in_threadpool(_owned, store, job_id, caller, kind)
+        if wait:
+            job = await next_change(store, job, wait)
+        return job_public(job, base)
 
     @router.delete(
         "/{job_id}",

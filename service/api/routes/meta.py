@@ -15,7 +15,7 @@ from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDe
 from haarline.service.api.http import require_json
 from haarline.service.api.problems import problem_responses
 from haarline.service.api.schemas import AnalysisCreate, CheckCreate, ReadyPublic, ReferencePublic
-from haarline.service.errors import Unavailable
+from haarline.service.errors import CallbackRefused, Unavailable
 from haarline.service.jobs.space import require_free_space
 from haarline.service.jobs.worker import circuit_of
 
@@ -41,6 +41,12 @@ health = APIRouter(tags=["health"])
 async def score(
     body: AnalysisCreate, caller: CallerDep, settings: SettingsDep, runner: RunnerDep
 ) -> Any:
+    if body.callback_url is not None:
+        raise CallbackRefused(
+            body.callback_url,
+            "the score route answers with the report itself; callbacks are for jobs "
+            "(POST /v1/analyses)",
+        )
     # parsing QASM and expanding at every scan size is CPU work: keep it off the event loop
     request, _ = await run_in_threadpool(admit_analysis, body, settings, route="score")
     report, _, _ = await runner.scores.run("analysis", request)

@@ -1,0 +1,158 @@
+"""Notification routes: a job's event stream and deliveries, and the key's signing secret.
+
+- ``GET …/{job_id}/events``: server-sent events (``text/event-stream``) of the job's
+  progress, then its final state, then the stream closes (:mod:`haarline.service.api.watch`);
+- ``GET …/{job_id}/deliveries``: the notification of the job's end (when it has a
+  ``callback_url``) with every attempt, its time, duration, HTTP status or error;
+- ``POST /v1/webhook-secret``: a new signing secret for the calling key, shown this once
+  (it replaces the previous one for every later attempt); ``GET`` tells when the current
+  one was created.
+
+The job routes are :mod:`haarline.service.api.routes.jobs`; the sending is
+:mod:`haarline.service.jobs.notify`.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import APIRouter, HTTPException, Response
+from fastapi.concurrency import run_in_threadpool
+from fastapi.responses import StreamingResponse
+from haarline.service.api.deps import CallerDep, StoreDep
+from haarline.service.api.http import NO_STORE
+from haarline.service.api.problems import problem_responses
+from haarline.service.api.responses import CHANGING, header
+from haarline.service.api.routes.jobs import _owned as owned
+from haarline.service.api.schemas import (
+    DeliveryAttemptPublic,
+    DeliveryPublic,
+    WebhookSecretCreated,
+    WebhookSecretPublic,
+    job_public,
+)
+from haarline.service.api.watch import event_stream
+from haarline.service.jobs import outbox
+from haarline.service.jobs.store import Store
+from haarline.service.webhooks import new_secret
+
+__all__ = ["analysis_notes", "comparison_notes", "secrets"]
+
+_NOUN = {"analysis": "analysis", "compare": "comparison"}
+
+STREAM = {
+    "description": "Server-sent events: `progress` (the job, on each change of state or "
+    "progress) and, last, `end` (the job in its final state); every `data` is the job as "
+    "its status route shows it. A job that has ended sends `end` at once.",
+    "content": {"text/event-stream": {"schema": {"type": "string"}}},
+    "headers": {
+        **CHANGING["headers"],
+        "X-Accel-Buffering": header("`no`: a proxy must pass events on at once.", enum=["no"]),
+    },
+}
+
+
+def _deliveries(store: Store, job_id: str, kind: str) -> list[DeliveryPublic]:
+    with store.connect() as conn:
+        rows = outbox.deliveries_of(conn, job_id)
+    return [
+        DeliveryPublic(
+            id=d["id"],
+            event=f"{_NOUN[kind]}.{d['state']}",  # type: ignore[arg-type]
+            url=d["url"],
+            status=d["status"],
+            next_attempt=d["next_at"] if d["status"] == outbox.PENDING else None,
+            created=d["created"],
+            attempts=[DeliveryAttemptPublic(**a) for a in d["attempts"]],
+        )
+        for d in rows
+    ]
+
+
+def _router(kind: str, prefix: str, plural: str) -> APIRouter:
+    router = APIRouter(prefix=prefix, tags=[plural])
+    title = _NOUN[kind].capitalize()
+
+    @router.get(
+        "/{job_id}/events",
+        operation_id=f"stream{title}Events",
+        summary="Server-sent events of progress and the final state (then it closes)",
+        description="A `text/event-stream` of `progress` events and a last `end` event, each "
+        "carrying the job as its status route shows it.",
+        response_class=StreamingResponse,
+        responses={200: STREAM, **problem_responses(401, 404, 503)},
+    )
+    async def events(job_id: str, caller: CallerDep, store: StoreDep) -> StreamingResponse:
+        job = await run_in_threadpool(owned, store, job_id, caller, kind)
+
+        def render(j: dict[str, Any]) -> dict[str, Any]:
+            return job_public(j, prefix).model_dump(mode="json")
+
+        return StreamingResponse(
+            event_stream(store, job, render),
+            media_type="text/event-stream",
+            headers={"Cache-Control": NO_STORE, "X-Accel-Buffering": "no"},
+        )
+
+    @router.get(
+        "/{job_id}/deliveries",
+        response_model=list[DeliveryPublic],
+        operation_id=f"list{title}Deliveries",
+        summary="The notification of the job's end and every attempt to deliver it",
+        description="The signed notification sent to the job's `callback_url`, with each "
+        "attempt's time, duration and HTTP status or error.",
+        responses={200: CHANGING, **problem_responses(401, 404, 503)},
+    )
+    def deliveries(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
+        owned(store, job_id, caller, kind)
+        response.headers["Cache-Control"] = NO_STORE
+        return _deliveries(store, job_id, kind)
+
+    return router
+
+
+analysis_notes = _router("analysis", "/v1/analyses", "analyses")
+comparison_notes = _router("compare", "/v1/comparisons", "comparisons")
+
+secrets = APIRouter(prefix="/v1/webhook-secret", tags=["notifications"])
+
+
+@secrets.post(
+    "",
+    status_code=201,
+    response_model=WebhookSecretCreated,
+    operation_id="createWebhookSecret",
+    summary="A new signing secret for this key's notifications, shown once",
+    description="Makes the secret that signs this key's notifications (Standard Webhooks); "
+    "only this answer ever shows it.",
+    responses={
+        201: {
+            "description": "The secret (whsec_…); it replaces the previous one for every "
+            "later attempt, pending notifications included.",
+            **CHANGING,
+        },
+        **problem_responses(401, 503),
+    },
+)
+def create_secret(caller: CallerDep, store: StoreDep, response: Response) -> Any:
+    secret = new_secret()
+    with store.connect() as conn:
+        created = outbox.set_secret(conn, caller, secret)
+    response.headers["Cache-Control"] = NO_STORE
+    return WebhookSecretCreated(secret=secret, created=created)
+
+
+@secrets.get(
+    "",
+    response_model=WebhookSecretPublic,
+    operation_id="getWebhookSecret",
+    summary="When this key's signing secret was created (never the secret)",
+    description="The creation time of the current signing secret; 404 when the key has none.",
+    responses=problem_responses(401, 404, 503),
+)
+def get_secret(caller: CallerDep, store: StoreDep) -> Any:
+    with store.connect() as conn:
+        created = outbox.secret_created(conn, caller)
+    if created is None:
+        raise HTTPException(404, "this key has no signing secret; POST /v1/webhook-secret")
+    return WebhookSecretPublic(created=created)
