@@ -151,6 +151,7 @@ if TYPE_CHECKING:
     )
     from haarline.report.ranking import compare_markdown, compare_reports
     from haarline.report.registry import REGISTRY, StageFraction, progress_stages, requested
+    from haarline.report.schema import Comparison, Report
     from haarline.report.summary import headline_rows, to_markdown, to_text, verdicts
     from haarline.report.verdict import Banner, banner, joint_verdict
     from haarline.report.workload import Estimate, estimate
@@ -377,6 +378,10 @@ _LAZY: dict[str, tuple[str, ...]] = {
         "compare_markdown",
         "compare_reports",
     ),
+    "haarline.report.schema": (
+        "Comparison",
+        "Report",
+    ),
     "haarline.report.registry": (
         "REGISTRY",
         "StageFraction",
@@ -440,6 +445,8 @@ __all__ = [
     "Banner",
     "Capacity",
     "Circuit",
+    "Comparison",
+    "Report",
     "CircuitError",
     "ClusterError",
     "CircuitGenerators",

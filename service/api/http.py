@@ -9,6 +9,9 @@
 - :func:`immutable`: the answer for a finished job's report, summary, plot or page: a
   strong ``ETag`` (a hash of the bytes), ``Cache-Control: private, max-age=…, immutable``
   and 304 for a matching ``If-None-Match``, whichever representation's tag it names.
+- :func:`binary`: the same for a plot, in the media type the request's ``Accept`` prefers:
+  its own (``image/png``) or ``application/octet-stream`` (the type client generators read
+  as bytes), with ``Vary: Accept`` and a tag of its own for the second representation.
 - :func:`require_json`: a body route's dependency; a body sent with another media type,
   or with none, is a 415 that names ``application/json``.
 - :func:`allowed_methods`: every method some route serves at a path (for a 405's
@@ -29,9 +32,11 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 __all__ = [
     "IMMUTABLE",
     "NO_STORE",
+    "OCTETS",
     "Compress",
     "HeadAsGet",
     "allowed_methods",
+    "binary",
     "etag_of",
     "immutable",
     "require_json",
@@ -45,6 +50,9 @@ NO_STORE = "no-store"
 
 GZIP_MIN_BYTES = 500
 """Bodies shorter than this are sent as they are (gzip would not pay for its header)."""
+
+OCTETS = "application/octet-stream"
+_OCTETS_SUFFIX = "-octets"
 
 _COMPRESSIBLE = ("application/json", "application/problem+json", "text/html", "text/markdown")
 _GZIP_SUFFIX = "-gzip"
@@ -71,23 +79,71 @@ def immutable(
     media_type: str,
     *,
     headers: dict[str, str] | None = None,
+    variant: str = "",
 ) -> Response:
     """A finished job's output with its ``ETag``, or 304 when ``If-None-Match`` names it.
 
     ``If-None-Match`` compares weakly (RFC 9110, 13.1.2): a ``W/`` prefix is ignored, and
-    the tag of the gzipped representation matches too (the content is the same).
+    the tag of any representation of the same content matches (gzipped, or another media
+    type). ``variant`` marks the tag of a representation other than the first (a strong
+    tag is unique per representation, RFC 9110, 8.8.3).
     """
-    tag = etag_of(content)
+    plain = etag_of(content)
+    tag = plain[:-1] + variant + '"'
     extra = {**(headers or {}), "Cache-Control": IMMUTABLE}
     wanted = request.headers.get("if-none-match")
     if wanted is not None:
-        variants = {tag, tag[:-1] + _GZIP_SUFFIX + '"'}
+        variants = {plain[:-1] + suffix + '"' for suffix in ("", _GZIP_SUFFIX, _OCTETS_SUFFIX)}
         for sent in _tags(wanted):
-            plain = sent.removeprefix("W/")
-            if sent == "*" or plain in variants:
-                echo = tag if sent == "*" else plain
+            named = sent.removeprefix("W/")
+            if sent == "*" or named in variants:
+                echo = tag if sent == "*" else named
                 return Response(status_code=304, headers={**extra, "ETag": echo})
     return Response(content, media_type=media_type, headers={**extra, "ETag": tag})
+
+
+def _quality(accept: str, media: str) -> float:
+    """The ``q`` that an ``Accept`` header gives ``media`` (its most specific range wins)."""
+    kind = media.split("/", 1)[0]
+    best, rank = 0.0, -1
+    for part in accept.split(","):
+        name, *params = (p.strip() for p in part.split(";"))
+        name = name.lower()
+        specific = 2 if name == media else 1 if name == f"{kind}/*" else 0 if name == "*/*" else -1
+        if specific <= rank or specific < 0:
+            continue
+        q = 1.0
+        for param in params:
+            key, _, value = param.partition("=")
+            if key.strip().lower() == "q":
+                try:
+                    q = float(value)
+                except ValueError:
+                    q = 0.0
+        best, rank = q, specific
+    return best
+
+
+def binary(request: Request, content: bytes, media_type: str) -> Response:
+    """A finished job's binary output, as ``media_type`` or as ``application/octet-stream``.
+
+    The second when the request's ``Accept`` prefers it (RFC 9110, 12.5.1): the same bytes
+    under the generic type. No ``Accept``, or a tie, gives ``media_type``.
+
+    Examples
+    --------
+    >>> _quality("application/octet-stream", "image/png"), _quality("*/*;q=0.5", "image/png")
+    (0.0, 0.5)
+    """
+    accept = request.headers.get("accept")
+    octets = accept is not None and _quality(accept, OCTETS) > _quality(accept, media_type)
+    return immutable(
+        request,
+        content,
+        OCTETS if octets else media_type,
+        headers={"Vary": "Accept"},
+        variant=_OCTETS_SUFFIX if octets else "",
+    )
 
 
 _JSON = re.compile(r"application/([a-z0-9.+-]*\+)?json", re.IGNORECASE)

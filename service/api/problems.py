@@ -42,12 +42,14 @@ from haarline.circuit.model import validation_problems
 from haarline.errors import format_path
 from haarline.report.options import option_problems
 from haarline.service.api.document import exact_bounds
+from haarline.service.api.examples import add_examples
 from haarline.service.api.http import allowed_methods
 from haarline.service.api.schemas import ProblemDetail
 from haarline.service.errors import OverLimit, StoreUnavailable, TimedOut, Unavailable
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 __all__ = [
+    "PROBLEM_HEADERS",
     "PROBLEM_STATUSES",
     "PROBLEM_TYPE",
     "OverLimit",
@@ -100,19 +102,51 @@ PROBLEM_STATUSES: dict[int, str] = {
 """Every problem status a route may declare, with the description the document shows."""
 
 
+_RETRY_AFTER = {
+    "description": "Whole seconds (1 or more) to wait before trying again.",
+    "required": True,
+    # no "minimum": FastAPI's document model would write it as a float (document.py)
+    "schema": {"type": "integer"},
+}
+PROBLEM_HEADERS: dict[int, dict[str, Any]] = {
+    401: {
+        "WWW-Authenticate": {
+            "description": "`Bearer`: the scheme the key goes in.",
+            "required": True,
+            "schema": {"type": "string", "enum": ["Bearer"]},
+        }
+    },
+    415: {
+        "Accept-Post": {
+            "description": "The media type a body must have: `application/json`.",
+            "required": True,
+            "schema": {"type": "string", "enum": ["application/json"]},
+        }
+    },
+    429: {"Retry-After": _RETRY_AFTER},
+    503: {"Retry-After": _RETRY_AFTER},
+}
+"""The headers that every answer of a problem status carries."""
+
+
 def problem_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
     """The ``responses=`` entries of a route for the problem statuses it can return.
+
+    Each comes with the headers that status always carries (:data:`PROBLEM_HEADERS`).
 
     Examples
     --------
     >>> sorted(problem_responses(401, 503))
     [401, 503]
+    >>> list(problem_responses(429)[429]["headers"])
+    ['Retry-After']
     """
     return {
         status: {
             "model": ProblemDetail,
             "description": PROBLEM_STATUSES[status],
             "content": {"application/problem+json": {}},
+            **({"headers": PROBLEM_HEADERS[status]} if status in PROBLEM_HEADERS else {}),
         }
         for status in statuses
     }
@@ -125,14 +159,15 @@ def install_openapi(app: FastAPI) -> None:
     that did not declare 422 cannot return one here, so it is dropped. A declared problem
     response is served as ``application/problem+json`` only, with the problem schema
     (FastAPI files that schema under the route's own media type, JSON or HTML). The
-    options' ``metrics`` field lists what each metric of the registry measures, and
-    integer bounds are exact (:mod:`haarline.service.api.document`).
+    options' ``metrics`` field lists what each metric of the registry measures, integer
+    bounds are exact (:mod:`haarline.service.api.document`), and every operation gets
+    its examples (:mod:`haarline.service.api.examples`).
     """
     build = app.openapi
 
     def openapi() -> dict[str, Any]:
         if app.openapi_schema is None:
-            document = _metrics_described(_declared_problems_only(build()))
+            document = add_examples(_metrics_described(_declared_problems_only(build())))
             app.openapi_schema = exact_bounds(document, getattr(app.state, "routes", app.routes))
         return app.openapi_schema
 

@@ -25,6 +25,7 @@ import haarline
 from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, Response
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
+from haarline.report.schema import Comparison, Report
 from haarline.service.api.access import SHARED_READ, Token, readable_job, summary_links
 from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
 from haarline.service.api.deps import (
@@ -35,8 +36,16 @@ from haarline.service.api.deps import (
     SettingsDep,
     StoreDep,
 )
-from haarline.service.api.http import NO_STORE, immutable, require_json
+from haarline.service.api.http import NO_STORE, binary, immutable, require_json
 from haarline.service.api.problems import problem_response, problem_responses
+from haarline.service.api.responses import (
+    CHANGING,
+    CREATED,
+    IF_NONE_MATCH,
+    LISTED,
+    PNG,
+    immutable_responses,
+)
 from haarline.service.api.schemas import (
     LABEL_KEY,
     AnalysisCreate,
@@ -118,19 +127,6 @@ def _encode_cursor(job: dict[str, Any]) -> str:
 JSON_BODY = Depends(require_json)
 """A body route's check of the request's media type (415 unless JSON)."""
 
-CREATED = {
-    "description": "The job, queued (or answered from this key's stored result of an "
-    "identical request). A retry with the same Idempotency-Key and body answers the same "
-    "way, with the first job.",
-    "headers": {
-        "Location": {"description": "The job's URL.", "schema": {"type": "string"}},
-        "Idempotent-Replayed": {
-            "description": "`true` when this answers a retry with the same Idempotency-Key.",
-            "schema": {"type": "string", "enum": ["true"]},
-        },
-    },
-}
-
 IdempotencyKey = Annotated[
     str | None,
     Header(
@@ -192,6 +188,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     base = prefix
     Body = AnalysisCreate if kind == "analysis" else CompareCreate
     title = noun.capitalize()
+    what = "an analysis of one circuit" if kind == "analysis" else "a ranking of 2 to 20 circuits"
 
     @router.post(
         "",
@@ -199,6 +196,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"create{title}",
         summary=f"Start {'an' if noun[0] in 'aeiou' else 'a'} {noun} job",
+        description=f"Queue {what}; poll the `Location` it answers with, then read the outputs.",
         responses={202: CREATED, **problem_responses(401, 408, 409, 413, 415, 422, 429, 503)},
         dependencies=[JSON_BODY],
     )
@@ -275,18 +273,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPage,
         operation_id=f"list{plural.capitalize()}",
         summary=f"List this key's {noun} jobs, newest first, by label and state",
-        responses={
-            200: {
-                "description": "One page of jobs.",
-                "headers": {
-                    "Link": {
-                        "description": 'The next page: `<URL>; rel="next"` (absent on the last).',
-                        "schema": {"type": "string"},
-                    }
-                },
-            },
-            **problem_responses(401, 422, 503),
-        },
+        description="One page of jobs, filtered by labels and states; follow `next` (or the "
+        "`Link` header) for the next page.",
+        responses={200: LISTED, **problem_responses(401, 422, 503)},
     )
     def listing(
         request: Request,
@@ -338,7 +327,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"latest{title}",
         summary=f"This key's newest {noun} job with these labels (and states)",
-        responses=problem_responses(401, 404, 422, 503),
+        description=f"The newest {noun} job of this key whose labels and state match; 404 "
+        "when none does.",
+        responses={200: CHANGING, **problem_responses(401, 404, 422, 503)},
     )
     def latest(
         response: Response,
@@ -360,7 +351,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"get{title}",
         summary="Status and progress; with wait=S, as soon as either changes (a long poll)",
-        responses=problem_responses(401, 404, 422, 503),
+        description="The job's state, progress, events, labels, policy verdict and the links "
+        "to its outputs; `wait` holds the answer until something changes.",
+        responses={200: CHANGING, **problem_responses(401, 404, 422, 503)},
     )
     async def status(
         job_id: str,
@@ -390,6 +383,8 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         response_model=JobPublic,
         operation_id=f"cancel{title}",
         summary="Cancel a queued or running job; delete a finished one",
+        description="A queued or running job is cancelled (202, the job); a finished one is "
+        "deleted with its outputs and share links (204).",
         responses={
             202: {"description": "The active job, cancelled or asked to stop."},
             204: {
@@ -411,16 +406,21 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     @router.get(
         "/{job_id}/report",
         operation_id=f"get{title}Report",
-        openapi_extra=SHARED_READ,
+        openapi_extra={**SHARED_READ, "parameters": [IF_NONE_MATCH]},
         summary="The report JSON (report_format 1)"
         if kind == "analysis"
         else "The comparison JSON (compare_format 1): ranking and reports",
+        description="The finished job's result, typed key by key; it never changes (`ETag`, "
+        "`304`).",
         response_class=JSONResponse,
+        response_model=Report if kind == "analysis" else Comparison,
         responses={
-            200: {
-                "description": "The report object, with the keys the README lists",
-                "content": {"application/json": {"schema": {"type": "object"}}},
-            },
+            **immutable_responses(
+                "The report (report_format 1)"
+                if kind == "analysis"
+                else "The ranking and each circuit's report (compare_format 1)",
+                {"application/json": {}},
+            ),
             **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
@@ -442,14 +442,15 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     @router.get(
         "/{job_id}/summary",
         operation_id=f"get{title}Summary",
-        openapi_extra=SHARED_READ,
+        openapi_extra={**SHARED_READ, "parameters": [IF_NONE_MATCH]},
         summary="The Markdown summary",
+        description="The finished job's summary as Markdown, with links to its plots and "
+        "page (absolute with HAARLINE_PUBLIC_URL, tokened when read with a token).",
         response_class=Response,
         responses={
-            200: {
-                "description": "Markdown text (UTF-8)",
-                "content": {"text/markdown": {"schema": {"type": "string"}}},
-            },
+            **immutable_responses(
+                "Markdown text (UTF-8)", {"text/markdown": {"schema": {"type": "string"}}}
+            ),
             **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
@@ -477,6 +478,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         operation_id=f"list{title}Plots",
         openapi_extra=SHARED_READ,
         summary="Names of the PNG plots",
+        description="The file names of the finished job's plots, for `…/plots/{name}`.",
         responses=problem_responses(401, 403, 404, 409, 422, 503),
     )
     def plots(
@@ -496,14 +498,13 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     @router.get(
         "/{job_id}/plots/{name}",
         operation_id=f"get{title}Plot",
-        openapi_extra=SHARED_READ,
+        openapi_extra={**SHARED_READ, "parameters": [IF_NONE_MATCH]},
         summary="One PNG plot",
+        description="The bytes of one plot: `image/png`, or the same bytes as "
+        "`application/octet-stream` when `Accept` asks for that.",
         response_class=Response,
         responses={
-            200: {
-                "description": "A PNG image",
-                "content": {"image/png": {"schema": {"type": "string", "format": "binary"}}},
-            },
+            **immutable_responses("A PNG image", PNG),
             **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
@@ -524,7 +525,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         content = store.artifact(job_id, name) if PLOT_NAME.fullmatch(name) else None
         if content is None:
             raise HTTPException(404, f"no plot {name!r}; see {base}/{job_id}/plots")
-        return immutable(request, content, "image/png")
+        return binary(request, content, "image/png")
 
     return router
 

@@ -9,6 +9,7 @@ import haarline
 from fastapi import APIRouter, Depends, HTTPException
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
+from haarline.report.schema import Report
 from haarline.service.api.admission import admit_analysis
 from haarline.service.api.deps import CallerDep, RunnerDep, SettingsDep, StoreDep
 from haarline.service.api.http import require_json
@@ -29,7 +30,12 @@ health = APIRouter(tags=["health"])
     operation_id="scoreCircuit",
     tags=["score"],
     summary="Analyze a small circuit synchronously (under the score work cap and time limit)",
-    responses=problem_responses(401, 408, 413, 415, 422, 503, 504),
+    description="The report of a small analysis while the client waits; nothing is stored.",
+    response_model=Report,
+    responses={
+        200: {"description": "The report (report_format 1)"},
+        **problem_responses(401, 408, 413, 415, 422, 503, 504),
+    },
     dependencies=[Depends(require_json)],
 )
 async def score(
@@ -52,6 +58,8 @@ async def score(
     operation_id="checkCircuit",
     tags=["circuits"],
     summary="Validate a description and return its static facts (and, if asked, its diagram)",
+    description="Checks a circuit without simulating it: sizes, gate counts, depth and, "
+    "with `diagram`, the circuit diagram.",
     responses=problem_responses(401, 408, 413, 415, 422, 503),
     dependencies=[Depends(require_json)],
 )
@@ -75,6 +83,7 @@ def check(body: CheckCreate, caller: CallerDep) -> Any:
     operation_id="getCircuitSchema",
     tags=["circuits"],
     summary="JSON Schema of the circuit description, format 1",
+    description="The JSON Schema that `circuit` bodies follow (format 1).",
     responses=problem_responses(401, 503),
 )
 def schema(caller: CallerDep) -> Any:
@@ -87,6 +96,7 @@ def schema(caller: CallerDep) -> Any:
     operation_id="listReferences",
     tags=["circuits"],
     summary="The bundled reference circuits",
+    description="Name, size and parameter count of every circuit `reference` accepts.",
     responses=problem_responses(401, 503),
 )
 def references(caller: CallerDep) -> Any:
@@ -110,6 +120,7 @@ def references(caller: CallerDep) -> Any:
     operation_id="getReference",
     tags=["circuits"],
     summary="One bundled reference circuit (its description)",
+    description="The format-1 description of one bundled circuit, ready to edit and send.",
     responses=problem_responses(401, 404, 503),
 )
 def reference(name: str, caller: CallerDep) -> Any:
@@ -118,7 +129,12 @@ def reference(name: str, caller: CallerDep) -> Any:
     return haarline.load_reference(name).model_dump(mode="json", exclude_none=True)
 
 
-@health.get("/healthz", operation_id="health", summary="The process is up (no key needed)")
+@health.get(
+    "/healthz",
+    operation_id="health",
+    summary="The process is up (no key needed)",
+    description="Answers while the process runs; says nothing of the store or the workers.",
+)
 def healthz() -> dict[str, str]:
     return {"status": "ok"}
 
@@ -128,6 +144,7 @@ def healthz() -> dict[str, str]:
     response_model=ReadyPublic,
     operation_id="ready",
     summary="The job store, the dispatcher and the disk space work (no key needed)",
+    description="200 when jobs can be taken and run; 503 with the reason otherwise.",
     responses=problem_responses(503),
 )
 def readyz(settings: SettingsDep, store: StoreDep, runner: RunnerDep) -> Any:

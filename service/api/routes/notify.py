@@ -22,6 +22,7 @@ from fastapi.responses import StreamingResponse
 from haarline.service.api.deps import CallerDep, StoreDep
 from haarline.service.api.http import NO_STORE
 from haarline.service.api.problems import problem_responses
+from haarline.service.api.responses import CHANGING, header
 from haarline.service.api.routes.jobs import _owned as owned
 from haarline.service.api.schemas import (
     DeliveryAttemptPublic,
@@ -44,6 +45,10 @@ STREAM = {
     "progress) and, last, `end` (the job in its final state); every `data` is the job as "
     "its status route shows it. A job that has ended sends `end` at once.",
     "content": {"text/event-stream": {"schema": {"type": "string"}}},
+    "headers": {
+        **CHANGING["headers"],
+        "X-Accel-Buffering": header("`no`: a proxy must pass events on at once.", enum=["no"]),
+    },
 }
 
 
@@ -72,6 +77,8 @@ def _router(kind: str, prefix: str, plural: str) -> APIRouter:
         "/{job_id}/events",
         operation_id=f"stream{title}Events",
         summary="Server-sent events of progress and the final state (then it closes)",
+        description="A `text/event-stream` of `progress` events and a last `end` event, each "
+        "carrying the job as its status route shows it.",
         response_class=StreamingResponse,
         responses={200: STREAM, **problem_responses(401, 404, 503)},
     )
@@ -92,7 +99,9 @@ def _router(kind: str, prefix: str, plural: str) -> APIRouter:
         response_model=list[DeliveryPublic],
         operation_id=f"list{title}Deliveries",
         summary="The notification of the job's end and every attempt to deliver it",
-        responses=problem_responses(401, 404, 503),
+        description="The signed notification sent to the job's `callback_url`, with each "
+        "attempt's time, duration and HTTP status or error.",
+        responses={200: CHANGING, **problem_responses(401, 404, 503)},
     )
     def deliveries(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
         owned(store, job_id, caller, kind)
@@ -114,10 +123,13 @@ secrets = APIRouter(prefix="/v1/webhook-secret", tags=["notifications"])
     response_model=WebhookSecretCreated,
     operation_id="createWebhookSecret",
     summary="A new signing secret for this key's notifications, shown once",
+    description="Makes the secret that signs this key's notifications (Standard Webhooks); "
+    "only this answer ever shows it.",
     responses={
         201: {
             "description": "The secret (whsec_…); it replaces the previous one for every "
-            "later attempt, pending notifications included."
+            "later attempt, pending notifications included.",
+            **CHANGING,
         },
         **problem_responses(401, 503),
     },
@@ -135,6 +147,7 @@ def create_secret(caller: CallerDep, store: StoreDep, response: Response) -> Any
     response_model=WebhookSecretPublic,
     operation_id="getWebhookSecret",
     summary="When this key's signing secret was created (never the secret)",
+    description="The creation time of the current signing secret; 404 when the key has none.",
     responses=problem_responses(401, 404, 503),
 )
 def get_secret(caller: CallerDep, store: StoreDep) -> Any:

@@ -29,6 +29,12 @@ from haarline.service.api.deps import (
 from haarline.service.api.http import NO_STORE, immutable, require_json
 from haarline.service.api.page import comparison_page, job_page, report_page
 from haarline.service.api.problems import problem_responses
+from haarline.service.api.responses import (
+    CHANGING,
+    IF_NONE_MATCH,
+    PAGE_HEADERS,
+    immutable_responses,
+)
 from haarline.service.api.tokens import make_token
 from haarline.service.jobs.states import JobState
 from haarline.service.jobs.store import Store, is_job_id
@@ -91,6 +97,15 @@ def _render(store: Store, job: dict[str, Any]) -> str:
     return report_page(report, images, description=request.get("circuit"), source=source)
 
 
+def _page_responses() -> dict[int | str, dict[str, Any]]:
+    out = immutable_responses(
+        "The page (UTF-8)", {"text/html": {"schema": {"type": "string"}}}, finished_only=False
+    )
+    for status in (200, 304):
+        out[status]["headers"].update(PAGE_HEADERS)
+    return out
+
+
 def _page_route(collection: str) -> None:
     kind = KINDS[collection]
     noun = "Analysis" if kind == "analysis" else "Comparison"
@@ -100,10 +115,12 @@ def _page_route(collection: str) -> None:
         response_class=HTMLResponse,
         operation_id=f"get{noun}Page",
         summary="The self-contained HTML report page (key or share token)",
+        description="One HTML file with the plots inlined; while the job runs, a page that "
+        "refreshes itself.",
         # the key is optional here: a share token in the query opens the page too
-        openapi_extra=SHARED_READ,
+        openapi_extra={**SHARED_READ, "parameters": [IF_NONE_MATCH]},
         responses={
-            200: {"content": {"text/html": {}}},
+            **_page_responses(),
             **problem_responses(401, 403, 404, 422, 503),
         },
     )
@@ -161,6 +178,8 @@ def _page_route(collection: str) -> None:
         operation_id=f"share{noun}",
         summary="A signed link to this job's page, report, summary and plots, for readers "
         "without a key",
+        description="Makes a share link that works for `ttl_seconds` (up to "
+        "HAARLINE_SHARE_MAX_DAYS) until it is revoked.",
         responses=problem_responses(401, 404, 408, 413, 415, 422, 503),
         dependencies=[Depends(require_json)],
     )
@@ -196,7 +215,8 @@ def _page_route(collection: str) -> None:
         response_model=list[SharePublic],
         operation_id=f"list{noun}Shares",
         summary="This job's share links, oldest first, with their state",
-        responses=problem_responses(401, 404, 503),
+        description="Every link made for the job, open, expired or revoked, with its token.",
+        responses={200: CHANGING, **problem_responses(401, 404, 503)},
     )
     def shares(
         job_id: str,
@@ -216,6 +236,7 @@ def _page_route(collection: str) -> None:
         response_class=Response,
         operation_id=f"revoke{noun}Share",
         summary="Revoke one share link (it stops opening anything at once)",
+        description="The link stops opening the page, report, summary and plots at once.",
         responses={204: {"description": "Revoked."}, **problem_responses(401, 404, 503)},
     )
     def revoke(job_id: str, link_id: str, caller: CallerDep, store: StoreDep) -> Response:
