@@ -522,3 +522,28 @@ def test_webhook_settings_from_the_environment(tmp_path):
     ]:
         with pytest.raises(SettingsError, match=message):
             Settings.from_env({"HAARLINE_DATA_DIR": str(tmp_path / "d"), name: value})
+
+
+def test_the_event_body_and_signature_headers_are_in_the_document(make_app):
+    # OpenAPI 3.1 describes requests the service sends under `webhooks`: the event's
+    # schema and the three Standard Webhooks headers (standardwebhooks.com)
+    from haarline.service.api.schemas import JobEndEvent
+    from haarline.service.jobs import outbox
+    from haarline.service.jobs.states import JobState
+
+    doc = make_app(runner=False).openapi()
+    hook = doc["webhooks"]["jobEnded"]["post"]
+    headers = {p["name"] for p in hook["parameters"] if p["in"] == "header"}
+    assert headers == {"webhook-id", "webhook-timestamp", "webhook-signature"}
+    ref = hook["requestBody"]["content"]["application/json"]["schema"]["$ref"]
+    assert ref.endswith("/JobEndEvent")
+    job = {
+        "id": "b" * 32,
+        "kind": "analysis",
+        "error": None,
+        "cached": 0,
+        "labels": '{"pr": "17"}',
+        "policy": "warn",
+    }
+    event = JobEndEvent.model_validate(outbox.end_event(job, JobState.SUCCEEDED, 0.0))
+    assert event.data.labels == {"pr": "17"} and event.data.policy == "warned"

@@ -69,6 +69,7 @@ def create_app(settings: Settings | None = None, *, start_runner: bool = True) -
     install_openapi(app)
     for router in ROUTERS:
         app.include_router(router)
+    notify.document_webhook(app)
     app.mount(docs.ASSETS, docs.assets(), name="docs-assets")
     # every route with its methods, for the Allow header of a 405 (problems.py)
     app.state.routes = [*app.router.routes, *(r for router in ROUTERS for r in router.routes)]

@@ -17,6 +17,7 @@ __all__ = [
     "DeliveryAttemptPublic",
     "DeliveryPublic",
     "EventPublic",
+    "JobEndEvent",
     "JobLinks",
     "JobOptions",
     "JobPage",
@@ -355,6 +356,49 @@ class DeliveryAttemptPublic(BaseModel):
         description="Why it did not count as delivered (a non-2xx status, a refused "
         "destination, no connection, a timeout); null when delivered."
     )
+
+
+EventType = Literal[
+    "analysis.succeeded",
+    "analysis.failed",
+    "analysis.cancelled",
+    "comparison.succeeded",
+    "comparison.failed",
+    "comparison.cancelled",
+]
+
+
+class JobEndLinks(BaseModel):
+    """Where the ended job's outputs are (paths on the service)."""
+
+    self: str
+    report: str
+    summary: str
+    plots: str
+    deliveries: str
+
+
+class JobEndData(BaseModel):
+    """The ended job, as the notification carries it."""
+
+    id: str
+    kind: Literal["analysis", "compare"]
+    state: Literal["succeeded", "failed", "cancelled"]
+    error: str | None = Field(description="Why it failed or was cancelled; null on success.")
+    cached: bool
+    labels: dict[str, str] = Field(description="The job's labels, as given at creation.")
+    policy: Literal["passed", "warned", "failed"] | None = Field(
+        description="The verdict of `options.policy`, when the job had one and succeeded."
+    )
+    links: JobEndLinks
+
+
+class JobEndEvent(BaseModel):
+    """The body of a job-end notification (Standard Webhooks' event shape)."""
+
+    type: EventType
+    timestamp: str = Field(description="When the job ended, ISO 8601 in UTC.")
+    data: JobEndData
 
 
 class DeliveryPublic(BaseModel):

@@ -55,6 +55,7 @@ PENDING, SENDING, DELIVERED, FAILED = "pending", "sending", "delivered", "failed
 """A delivery's status: to be sent (again), an attempt under way, answered 2xx, given up."""
 
 _NOUN = {"analysis": "analysis", "compare": "comparison"}
+_VERDICT = {"pass": "passed", "warn": "warned", "fail": "failed"}
 _ROOT = {"analysis": "/v1/analyses", "compare": "/v1/comparisons"}
 
 
@@ -79,6 +80,8 @@ def end_event(job: dict[str, Any], state: JobState, at: float) -> dict[str, Any]
             "state": state.value,
             "error": None if state is JobState.SUCCEEDED else job["error"],
             "cached": bool(job["cached"]),
+            "labels": json.loads(job.get("labels") or "{}"),
+            "policy": _VERDICT.get(job.get("policy") or ""),
             "links": {
                 "self": root,
                 "report": f"{root}/report",
@@ -97,7 +100,9 @@ def enqueue_end(conn: sqlite3.Connection, job_id: str, state: JobState, at: floa
     without a ``callback_url`` gets nothing.
     """
     row = conn.execute(
-        "SELECT id, owner, kind, error, cached, callback_url FROM jobs WHERE id = ?", (job_id,)
+        "SELECT id, owner, kind, error, cached, callback_url, labels, policy FROM jobs "
+        "WHERE id = ?",
+        (job_id,),
     ).fetchone()
     if row is None or row["callback_url"] is None:
         return

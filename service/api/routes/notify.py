@@ -14,9 +14,9 @@ The job routes are :mod:`haarline.service.api.routes.jobs`; the sending is
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import APIRouter, HTTPException, Response
+from fastapi import APIRouter, FastAPI, Header, HTTPException, Response
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import StreamingResponse
 from haarline.service.api.deps import CallerDep, StoreDep
@@ -27,6 +27,7 @@ from haarline.service.api.routes.jobs import _owned as owned
 from haarline.service.api.schemas import (
     DeliveryAttemptPublic,
     DeliveryPublic,
+    JobEndEvent,
     WebhookSecretCreated,
     WebhookSecretPublic,
     job_public,
@@ -36,7 +37,7 @@ from haarline.service.jobs import outbox
 from haarline.service.jobs.store import Store
 from haarline.service.webhooks import new_secret
 
-__all__ = ["analysis_notes", "comparison_notes", "secrets"]
+__all__ = ["analysis_notes", "comparison_notes", "document_webhook", "secrets"]
 
 _NOUN = {"analysis": "analysis", "compare": "comparison"}
 
@@ -156,3 +157,53 @@ def get_secret(caller: CallerDep, store: StoreDep) -> Any:
     if created is None:
         raise HTTPException(404, "this key has no signing secret; POST /v1/webhook-secret")
     return WebhookSecretPublic(created=created)
+
+
+def document_webhook(app: FastAPI) -> None:
+    """Describe the job-end notification in the document's ``webhooks`` (OpenAPI 3.1).
+
+    The service sends it (:mod:`haarline.service.jobs.notify`); nothing here serves it. The
+    entry gives receivers, and client generators, the body and the three signature headers.
+    """
+
+    @app.webhooks.post(
+        "jobEnded",
+        operation_id="jobEnded",
+        summary="A job ended: the POST a callback_url receives",
+        description="Sent once per job end (retried on failure with the same webhook-id) to "
+        "the job's `callback_url`, signed as the Standard Webhooks specification says, with "
+        "the key's secret (`POST /v1/webhook-secret`). Verify it with "
+        "`haarline.client.verify_webhook(secret, headers, body)` before trusting it; answer "
+        "2xx to acknowledge.",
+        responses={
+            200: {"description": "Any 2xx acknowledges the delivery."},
+            500: {"description": "Any other answer (or none in time) is retried later."},
+        },
+    )
+    def job_ended(
+        body: JobEndEvent,
+        webhook_id: Annotated[
+            str,
+            Header(
+                alias="webhook-id",
+                description="The message id, the same on every attempt: drop repeats by it.",
+            ),
+        ],
+        webhook_timestamp: Annotated[
+            str,
+            Header(
+                alias="webhook-timestamp",
+                description="The attempt's time in integer Unix seconds; refuse one far "
+                "from your clock (5 minutes), against replays.",
+            ),
+        ],
+        webhook_signature: Annotated[
+            str,
+            Header(
+                alias="webhook-signature",
+                description="Space-separated `v1,<base64>`: the HMAC-SHA256 of "
+                "`{webhook-id}.{webhook-timestamp}.{body}` under the secret's key.",
+            ),
+        ],
+    ) -> None:
+        """Documentation only."""
