@@ -14,16 +14,23 @@ review comment can embed it as it is.
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass
 from typing import Annotated, Any
 
 from fastapi import HTTPException, Query
-from haarline.service.api.deps import DEV_OWNER
+from haarline.service.api.deps import (
+    DEV_OWNER,
+    KeyOwnerDep,
+    PageSecretDep,
+    SettingsDep,
+    StoreDep,
+)
 from haarline.service.api.tokens import check_token
 from haarline.service.errors import TokenError
 from haarline.service.jobs.store import Store, is_job_id
 from haarline.service.settings import Settings
 
-__all__ = ["SHARED_READ", "Token", "readable_job", "summary_links"]
+__all__ = ["SHARED_READ", "Reading", "Token", "readable_job", "reader", "summary_links"]
 
 Token = Annotated[
     str | None,
@@ -72,6 +79,33 @@ def readable_job(
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
     return job
+
+
+@dataclass(frozen=True)
+class Reading:
+    """A job its reader may see, and the share token it was opened with (if any)."""
+
+    job: dict[str, Any]
+    token: str | None
+
+
+def reader(kind: str) -> Any:
+    """A dependency for the routes a key or a share token opens: the job ``job_id``."""
+
+    def read(
+        job_id: str,
+        owner: KeyOwnerDep,
+        settings: SettingsDep,
+        store: StoreDep,
+        secret: PageSecretDep,
+        token: Token = None,
+    ) -> Reading:
+        job = readable_job(
+            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
+        )
+        return Reading(job, token)
+
+    return read
 
 
 _LINK = re.compile(r"\]\((page|plots/[a-z0-9][a-z0-9_-]{0,60}\.png)\)")

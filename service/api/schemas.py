@@ -405,14 +405,7 @@ class DeliveryPublic(BaseModel):
     """The notification of a job's end, and every attempt to deliver it."""
 
     id: str = Field(description="The message id, sent as webhook-id on every attempt.")
-    event: Literal[
-        "analysis.succeeded",
-        "analysis.failed",
-        "analysis.cancelled",
-        "comparison.succeeded",
-        "comparison.failed",
-        "comparison.cancelled",
-    ]
+    event: EventType
     url: str
     status: Literal["pending", "sending", "delivered", "failed"] = Field(
         description="pending: an attempt is due at next_attempt; sending: one is under way; "

@@ -26,12 +26,10 @@ from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, R
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
 from haarline.report.schema import Comparison, Report
-from haarline.service.api.access import SHARED_READ, Token, readable_job, summary_links
+from haarline.service.api.access import SHARED_READ, Reading, reader, summary_links
 from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
 from haarline.service.api.deps import (
     CallerDep,
-    KeyOwnerDep,
-    PageSecretDep,
     RunnerDep,
     SettingsDep,
     StoreDep,
@@ -187,6 +185,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
     router = APIRouter(prefix=prefix, tags=[plural])
     base = prefix
     Body = AnalysisCreate if kind == "analysis" else CompareCreate
+    Readable = Annotated[Reading, Depends(reader(kind))]
     title = noun.capitalize()
     what = "an analysis of one circuit" if kind == "analysis" else "a ranking of 2 to 20 circuits"
 
@@ -424,19 +423,8 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
             **problem_responses(401, 403, 404, 409, 422, 503),
         },
     )
-    def report(
-        job_id: str,
-        request: Request,
-        owner: KeyOwnerDep,
-        settings: SettingsDep,
-        store: StoreDep,
-        secret: PageSecretDep,
-        token: Token = None,
-    ) -> Response:
-        job = readable_job(
-            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
-        )
-        result, _ = _finished(store, job)
+    def report(request: Request, store: StoreDep, reading: Readable) -> Response:
+        result, _ = _finished(store, reading.job)
         return immutable(request, bytes(JSONResponse(result).body), "application/json")
 
     @router.get(
@@ -455,21 +443,12 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         },
     )
     def summary(
-        job_id: str,
-        request: Request,
-        owner: KeyOwnerDep,
-        settings: SettingsDep,
-        store: StoreDep,
-        secret: PageSecretDep,
-        token: Token = None,
+        request: Request, settings: SettingsDep, store: StoreDep, reading: Readable
     ) -> Response:
-        job = readable_job(
-            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
-        )
-        _, markdown = _finished(store, job)
+        _, markdown = _finished(store, reading.job)
         public = settings.public_url
-        root = f"{public.rstrip('/')}{base}/{job_id}/" if public else None
-        text = summary_links(markdown, root=root, token=token)
+        root = f"{public.rstrip('/')}{base}/{reading.job['id']}/" if public else None
+        text = summary_links(markdown, root=root, token=reading.token)
         return immutable(request, text.encode(), "text/markdown; charset=utf-8")
 
     @router.get(
@@ -481,19 +460,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         description="The file names of the finished job's plots, for `…/plots/{name}`.",
         responses=problem_responses(401, 403, 404, 409, 422, 503),
     )
-    def plots(
-        job_id: str,
-        owner: KeyOwnerDep,
-        settings: SettingsDep,
-        store: StoreDep,
-        secret: PageSecretDep,
-        token: Token = None,
-    ) -> Any:
-        job = readable_job(
-            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
-        )
-        _finished(store, job)
-        return store.artifact_names(job_id)
+    def plots(store: StoreDep, reading: Readable) -> Any:
+        _finished(store, reading.job)
+        return store.artifact_names(reading.job["id"])
 
     @router.get(
         "/{job_id}/plots/{name}",
@@ -509,19 +478,9 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         },
     )
     def plot(
-        job_id: str,
-        name: str,
-        request: Request,
-        owner: KeyOwnerDep,
-        settings: SettingsDep,
-        store: StoreDep,
-        secret: PageSecretDep,
-        token: Token = None,
+        job_id: str, name: str, request: Request, store: StoreDep, reading: Readable
     ) -> Response:
-        job = readable_job(
-            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
-        )
-        _finished(store, job)
+        _finished(store, reading.job)
         content = store.artifact(job_id, name) if PLOT_NAME.fullmatch(name) else None
         if content is None:
             raise HTTPException(404, f"no plot {name!r}; see {base}/{job_id}/plots")

@@ -13,15 +13,14 @@ it dies with its job and with the key that made it.
 """
 
 import time
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
 import haarline
 from fastapi import APIRouter, Depends, HTTPException, Request, Response
 from fastapi.responses import HTMLResponse
-from haarline.service.api.access import SHARED_READ, Token, readable_job
+from haarline.service.api.access import SHARED_READ, Reading, reader
 from haarline.service.api.deps import (
     CallerDep,
-    KeyOwnerDep,
     PageSecretDep,
     SettingsDep,
     StoreDep,
@@ -125,17 +124,9 @@ def _page_route(collection: str) -> None:
         },
     )
     def page(
-        job_id: str,
-        request: Request,
-        settings: SettingsDep,
-        store: StoreDep,
-        secret: PageSecretDep,
-        owner: KeyOwnerDep,
-        token: Token = None,
+        request: Request, store: StoreDep, reading: Annotated[Reading, Depends(reader(kind))]
     ) -> Response:
-        job = readable_job(
-            store, settings, secret, job_id=job_id, kind=kind, owner=owner, token=token
-        )
+        job = reading.job
         headers = {
             "Content-Security-Policy": "default-src 'none'; img-src data:; style-src "
             "'unsafe-inline'; base-uri 'none'; form-action 'none'",
