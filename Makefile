@@ -34,7 +34,7 @@ $(VENV)/.dask: pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[dask]'
 	@touch $@ $(VENV)/.core
 
-# the bench extra: qulacs, the compiled baseline of the compiled figure (and Dask)
+# the bench extra: the compiled simulator of the compiled figure (bench/compiled_peer.py), and Dask
 $(VENV)/.bench: pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[bench,dask]'
 	@touch $@ $(VENV)/.dask $(VENV)/.core
@@ -122,7 +122,7 @@ clean:
 	rm -rf $(VENV) $(VENV313) .pytest_cache .hypothesis *.egg-info build dist
 
 ## bench: the benchmark suite (5-8 minutes); prints a table and writes bench/results.json
-## (installs the bench extra: qulacs, the compiled baseline, and the dask extra)
+## (installs the bench extra: the compiled simulator of the compiled figure, and Dask)
 bench: $(VENV)/.bench
 	$(BIN)/python bench/run.py --out bench/results.json
 

@@ -2,15 +2,15 @@
 
 * ``compiled``: states per second of the fidelity-histogram workload (``2 x pairs``
   states of ``ry-cz-ring`` with layers = n, and the pairs' overlaps) through
-  ``haarline.fidelities``, divided by the same workload written as a loop over qulacs
-  (a compiled general-purpose statevector simulator; one state at a time with its
-  parametric circuit, ``set_parameter`` and ``update_quantum_state``). Both run in fresh
-  child processes, on the same angles; before timing, the child checks that qulacs'
-  states equal haarline's (``max_state_difference``). On one core the baseline has one
-  OpenMP thread and haarline one worker (both with one BLAS thread); on both cores the
-  baseline has its default threads and haarline two worker processes. qulacs comes
-  from the ``bench`` extra (``pip install -e '.[bench]'``): without it the figure is
-  skipped with a message, never failed.
+  ``haarline.fidelities``, divided by the same workload written as a loop over a compiled
+  general-purpose statevector simulator (``bench/compiled_peer.py``; one state at a time
+  with its parametric circuit updated in place). Both run in fresh child processes, on
+  the same angles; before timing, the child checks that the simulator's states equal
+  haarline's (``max_state_difference``). On one core the baseline has one OpenMP thread
+  and haarline one worker (both with one BLAS thread); on both cores the baseline has its
+  default threads and haarline two worker processes. The simulator comes from the
+  ``bench`` extra (``pip install -e '.[bench]'``): without it the figure is skipped with a
+  message, never failed.
 * ``startup``: wall time of whole ``haarline`` processes (``--version``; a one-metric
   ``analyze``), bytecode cached, medians of repeated runs; and the whole-process
   expressibility at n = 6, 20 000 pairs, against a per-sample numpy peer
@@ -20,7 +20,6 @@
 
 from __future__ import annotations
 
-import importlib.util
 import json
 import os
 import shutil
@@ -32,10 +31,12 @@ import time
 from pathlib import Path
 from typing import Any
 
+import compiled_peer
+
 HERE = Path(__file__).resolve().parent
 
-BASELINE = "qulacs"
-"""The compiled simulator of the ``compiled`` figure (the ``bench`` extra installs it)."""
+BASELINE = "compiled"
+"""The child side that runs the compiled simulator (``bench/compiled_peer.py``)."""
 
 CHILD = r"""
 import json, sys, time
@@ -57,48 +58,21 @@ if side == "haarline":
         f = haarline.fidelities(program, pairs=pairs, seed=1, context=context)
         times.append(time.perf_counter() - t)
 else:
-    import qulacs
-    from qulacs.state import inner_product
+    import compiled_peer
 
-    circuit = qulacs.ParametricQuantumCircuit(n)
-    order = []  # the haarline parameter of each parametric gate, in the order added
-    flip = lambda q: n - 1 - q  # haarline's qubit 0 is the most significant bit
-    for op in program.operations:
-        q = [flip(x) for x in op.qubits]
-        if op.gate == "ry":
-            circuit.add_parametric_RY_gate(q[0], 0.0)
-            order.append(op.param)
-        elif op.gate == "cz":
-            circuit.add_CZ_gate(q[0], q[1])
-        else:
-            raise SystemExit(f"no qulacs translation for gate {op.gate!r}")
+    peer = compiled_peer.Loop(program)
     rows = draw_angles(1, Stream.EXPRESSIBILITY, 0, pairs, 2 * P)  # haarline's own angles
-    # qulacs' RY(a) is exp(+i a Y / 2); haarline's ry(t) is exp(-i t Y / 2)
-    sign = -1.0
-    a, b = qulacs.QuantumState(n), qulacs.QuantumState(n)
-
-    def prepare(state, theta):
-        state.set_zero_state()
-        for i, p in enumerate(order):
-            circuit.set_parameter(i, sign * theta[p])
-        circuit.update_quantum_state(state)
-
     first = np.stack([rows[0, :P], rows[0, P:]])  # both states of the first pair
     want = haarline.run(program, first)
-    diff = 0.0
-    for k in range(2):
-        prepare(a, first[k])
-        diff = max(diff, float(np.max(np.abs(a.get_vector() - want[k]))))
+    diff = max(float(np.max(np.abs(peer.state(first[k]) - want[k]))) for k in range(2))
     out["max_state_difference"] = diff
     if diff > 1e-12:
-        raise SystemExit(f"qulacs and haarline states differ by {diff}")
+        raise SystemExit(f"the {compiled_peer.NAME}'s and haarline's states differ by {diff}")
 
     def loop():
         f = np.empty(pairs)
         for k in range(pairs):
-            prepare(a, rows[k, :P])
-            prepare(b, rows[k, P:])
-            f[k] = abs(inner_product(a, b)) ** 2
+            f[k] = peer.fidelity(rows[k, :P], rows[k, P:])
         return f
 
     loop()
@@ -124,7 +98,7 @@ def log(message: str) -> None:
 def _environment(threads: int | None) -> dict[str, str]:
     """The child's environment: bytecode cached, and ``threads`` OpenMP/BLAS threads."""
     env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
-    env["PYTHONPATH"] = str(HERE.parent)
+    env["PYTHONPATH"] = os.pathsep.join([str(HERE.parent), str(HERE)])
     for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
         env.pop(name, None)
         if threads is not None:
@@ -146,11 +120,11 @@ def _child(side: str, n: int, pairs: int, repeats: int, workers: int, threads: i
 
 
 def bench_compiled(cfg: dict[str, Any]) -> dict[str, Any]:
-    """States per second of haarline over qulacs, per qubit count, on one and two cores."""
-    if importlib.util.find_spec(BASELINE) is None:
+    """States per second of haarline over the compiled simulator, per qubit count and core."""
+    if not compiled_peer.installed():
         message = (
-            f"skipped: {BASELINE} is not installed (pip install -e '.[bench]' installs it; "
-            "make bench does)"
+            f"skipped: the {compiled_peer.NAME} is not installed (pip install -e '.[bench]' "
+            "installs it; make bench does)"
         )
         log(f"compiled: {message}")
         return {"skipped": message, "rows": []}
@@ -177,7 +151,8 @@ def bench_compiled(cfg: dict[str, Any]) -> dict[str, Any]:
                     "samples": ours["samples"],
                     "states_per_second": ours["states_per_second"],
                     "baseline": {
-                        "name": f"{BASELINE}, one state at a time (parametric circuit)",
+                        "name": f"{compiled_peer.NAME} {compiled_peer.version()}, one state "
+                        "at a time (parametric circuit)",
                         "threads": "1 (OMP_NUM_THREADS=1)" if cores == 1 else "default",
                         "seconds": base["seconds"],
                         "samples": base["samples"],

@@ -26,9 +26,9 @@ Figures (medians of repeated runs):
   compute time and the bytes sent and returned per block, and from those the expected
   efficiency at 10 and 100 workers (the model is in :func:`cluster_model`).
 * ``compiled`` and ``startup`` (issue 15, ``bench/compiled.py``): states per second of the
-  fidelity workload against the compiled simulator qulacs on one and both cores (skipped
-  with a message when the ``bench`` extra is not installed), and whole-process times of
-  the CLI.
+  fidelity workload against a compiled simulator (``bench/compiled_peer.py``) on one
+  and both cores (skipped with a message when the ``bench`` extra is not installed), and
+  whole-process times of the CLI.
 """
 
 from __future__ import annotations
@@ -152,9 +152,9 @@ TARGETS = {
     "scan": "<= 60 s",
     "memory": "peak resident memory <= 1.25 x budget",
     "cluster": "2 workers >= 1.6 x as fast as 1 (no target beyond this machine's 2 cores)",
-    "compiled_one_core": "haarline / qulacs >= 1.0 at every n in 4..20, one core",
-    "compiled_small": "haarline / qulacs >= 3 at n <= 8, one core",
-    "compiled_two_cores": "haarline / qulacs >= 1.0 at every n in 4..20, both cores",
+    "compiled_one_core": "haarline / compiled simulator >= 1.0 at every n in 4..20, one core",
+    "compiled_small": "haarline / compiled simulator >= 3 at n <= 8, one core",
+    "compiled_two_cores": "haarline / compiled simulator >= 1.0 at every n in 4..20, both cores",
     "startup_version": "haarline --version, whole process <= 0.2 s",
     "startup_analyze": "haarline analyze ref:ry-cz-ring --metrics expressibility "
     "--pairs 100, whole process <= 0.3 s",
@@ -729,12 +729,12 @@ def table(results: dict[str, Any]) -> str:
         )
     comp = f["compiled"]
     if comp["skipped"]:
-        lines.append(f"| compiled ratio | - | {comp['skipped']} | qulacs |")
+        lines.append(f"| compiled ratio | - | {comp['skipped']} | compiled simulator |")
     for r in comp["rows"]:
         lines.append(
             f"| compiled ratio | n = {r['qubits']}, {r['circuit']} x{r['layers']}, "
             f"{r['states']} states, {r['cores']} core(s) | {r['ratio']:.2f}x | "
-            f"{r['baseline']['states_per_second']:.0f} states/s qulacs |"
+            f"{r['baseline']['states_per_second']:.0f} states/s compiled simulator |"
         )
     s = f["startup"]
     lines.append(f"| start-up | {s['command']} --version | {s['version']['seconds']:.3f} s | - |")

@@ -27,6 +27,18 @@ sys.path.insert(0, str(Path(__file__).parent))
 FIXTURES = Path(__file__).parent / "fixtures"
 
 
+def bench_module(name: str):
+    """A module of bench/ by its file (bench/ is not put on the import path)."""
+    import importlib.util
+
+    path = Path(__file__).resolve().parents[1] / "bench" / f"{name}.py"
+    spec = importlib.util.spec_from_file_location(f"bench_{name}", path)
+    assert spec is not None and spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
 def bearer(app: Any, name: str = "bob") -> dict[str, str]:
     """The Authorization header of a fresh key in ``app``'s store."""
     from haarline.service.api.keys import issue_key

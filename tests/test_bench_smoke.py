@@ -1,16 +1,14 @@
 """The benchmark script at tiny sizes, so that it never rots (CI times nothing)."""
 
-import importlib.util
 import json
-from pathlib import Path
 
-BENCH = Path(__file__).resolve().parent.parent / "bench" / "run.py"
+from conftest import bench_module
+
+compiled_peer = bench_module("compiled_peer")
 
 
 def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
-    spec = importlib.util.spec_from_file_location("haarline_bench", BENCH)
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
+    module = bench_module("run")
     out = tmp_path / "results.json"
     module.main(["--smoke", "--out", str(out)])
     results = json.loads(out.read_text())
@@ -48,9 +46,9 @@ def test_bench_smoke_run_writes_every_figure(tmp_path, capsys):
         assert r["returned_bytes_per_block"] < 8 * r["block_pairs"] + 200
     assert [m["workers"] for m in cl["model"]["points"]] == [10, 100, 10, 100]
     assert all(0 < m["efficiency"] <= 1 for m in cl["model"]["points"])
-    # the compiled figure runs where the bench extra installed qulacs, else says why not
+    # the compiled figure runs where the bench extra installed its simulator, else says why not
     compiled = figures["compiled"]
-    if importlib.util.find_spec("qulacs") is None:
+    if not compiled_peer.installed():
         assert "not installed" in compiled["skipped"] and compiled["rows"] == []
     else:
         assert compiled["skipped"] is None and compiled["rows"]
