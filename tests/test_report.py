@@ -214,6 +214,7 @@ _MODULE_ONLY = {
     "option_problems",
     "decode_text",
     "check_metrics",
+    "worst_status",
     "Rule",
     "COMPARE_FORMAT",
     "RANKING_RULE",

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Iterable
 from typing import Any, Literal
 
 from haarline.circuit.loading import decode_text
@@ -42,6 +43,7 @@ __all__ = [
     "evaluate_policy",
     "load_policy",
     "parse_policy",
+    "worst_status",
 ]
 
 
@@ -292,6 +294,17 @@ def _rank(status: str) -> int:
     return {"pass": 0, "warn": 1, "fail": 2}[status]
 
 
+def worst_status(statuses: Iterable[str | None]) -> str | None:
+    """The worst of some rule or policy statuses (``fail`` > ``warn`` > ``pass``).
+
+    ``None`` entries (no policy) are left out; ``None`` when nothing is left.
+
+    >>> worst_status(["pass", None, "warn"]), worst_status([None])
+    ('warn', None)
+    """
+    return max((s for s in statuses if s is not None), key=_rank, default=None)
+
+
 def evaluate_policy(policy: Policy, report: dict[str, Any]) -> dict[str, Any]:
     """Apply every rule to a report.
 
@@ -359,5 +372,5 @@ def evaluate_policy(policy: Policy, report: dict[str, Any]) -> dict[str, Any]:
         )
     if problems:
         raise PolicyError(problems)
-    worst = max((r["status"] for r in results), key=_rank, default="pass")
+    worst = worst_status(r["status"] for r in results) or "pass"
     return {"name": policy.name, "status": worst, "rules": results}

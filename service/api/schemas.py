@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Any, Literal
 
 from haarline import AnalysisOptions, Circuit
+from haarline.service.jobs.states import VERDICTS, Verdict
 from pydantic import BaseModel, ConfigDict, Field, StrictInt, StrictStr, model_validator
 
 __all__ = [
@@ -243,7 +244,7 @@ class JobPublic(BaseModel):
     updated: float
     events: list[EventPublic] = Field(default_factory=list)
     labels: dict[str, str] = Field(default_factory=dict)
-    policy: Literal["passed", "warned", "failed"] | None = Field(
+    policy: Verdict | None = Field(
         default=None,
         description="The verdict of `options.policy` on the finished report (null without one).",
     )
@@ -310,13 +311,6 @@ class ReadyPublic(BaseModel):
     min_free_bytes: int = Field(description="Below this, readiness fails (503).")
 
 
-_VERDICT: dict[str, Literal["passed", "warned", "failed"]] = {
-    "pass": "passed",
-    "warn": "warned",
-    "fail": "failed",
-}
-
-
 def job_public(job: dict[str, Any], base: str) -> JobPublic:
     """Render a stored job for its owner, with links under ``base``."""
     root = f"{base}/{job['id']}"
@@ -332,7 +326,7 @@ def job_public(job: dict[str, Any], base: str) -> JobPublic:
         updated=job["updated"],
         events=[EventPublic(**e) for e in job.get("events", [])],
         labels=job.get("labels", {}),
-        policy=_VERDICT.get(job.get("policy") or ""),
+        policy=VERDICTS.get(job.get("policy") or ""),
         callback_url=job.get("callback_url"),
         links=JobLinks(
             self=root,
@@ -387,7 +381,7 @@ class JobEndData(BaseModel):
     error: str | None = Field(description="Why it failed or was cancelled; null on success.")
     cached: bool
     labels: dict[str, str] = Field(description="The job's labels, as given at creation.")
-    policy: Literal["passed", "warned", "failed"] | None = Field(
+    policy: Verdict | None = Field(
         description="The verdict of `options.policy`, when the job had one and succeeded."
     )
     links: JobEndLinks

@@ -31,7 +31,7 @@ import time
 import uuid
 from typing import Any
 
-from haarline.service.jobs.states import JobState
+from haarline.service.jobs.states import VERDICTS, JobState
 
 __all__ = [
     "DELIVERED",
@@ -55,7 +55,6 @@ PENDING, SENDING, DELIVERED, FAILED = "pending", "sending", "delivered", "failed
 """A delivery's status: to be sent (again), an attempt under way, answered 2xx, given up."""
 
 _NOUN = {"analysis": "analysis", "compare": "comparison"}
-_VERDICT = {"pass": "passed", "warn": "warned", "fail": "failed"}
 _ROOT = {"analysis": "/v1/analyses", "compare": "/v1/comparisons"}
 
 
@@ -81,7 +80,7 @@ def end_event(job: dict[str, Any], state: JobState, at: float) -> dict[str, Any]
             "error": None if state is JobState.SUCCEEDED else job["error"],
             "cached": bool(job["cached"]),
             "labels": json.loads(job.get("labels") or "{}"),
-            "policy": _VERDICT.get(job.get("policy") or ""),
+            "policy": VERDICTS.get(job.get("policy") or ""),
             "links": {
                 "self": root,
                 "report": f"{root}/report",

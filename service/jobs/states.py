@@ -9,8 +9,9 @@ shows their values.
 from __future__ import annotations
 
 from enum import StrEnum
+from typing import Literal
 
-__all__ = ["ACTIVE", "FINAL", "JobState"]
+__all__ = ["ACTIVE", "FINAL", "VERDICTS", "JobState", "Verdict"]
 
 
 class JobState(StrEnum):
@@ -33,3 +34,9 @@ ACTIVE: tuple[JobState, ...] = (JobState.QUEUED, JobState.RUNNING)
 
 FINAL: tuple[JobState, ...] = (JobState.SUCCEEDED, JobState.FAILED, JobState.CANCELLED)
 """States a job never leaves."""
+
+Verdict = Literal["passed", "warned", "failed"]
+"""A finished job's policy verdict, as statuses and notifications show it."""
+
+VERDICTS: dict[str, Verdict] = {"pass": "passed", "warn": "warned", "fail": "failed"}
+"""The verdict of each policy status (``pass``, ``warn``, ``fail``) a report carries."""

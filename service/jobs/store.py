@@ -28,6 +28,7 @@ from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
 from typing import Any
 
+from haarline.report.policy import worst_status
 from haarline.service.errors import StoreUnavailable
 from haarline.service.jobs.migrations import migrate
 from haarline.service.jobs.outbox import enqueue_end
@@ -640,17 +641,12 @@ def _job(row: sqlite3.Row) -> dict[str, Any]:
     return job
 
 
-_RANK = {"pass": 0, "warn": 1, "fail": 2}
-
-
 def _policy_status(result: dict[str, Any]) -> str | None:
     """A report's policy status, or a comparison's worst over its circuits (or ``None``)."""
     policy = result.get("policy")
     if isinstance(policy, dict):
-        return str(policy.get("status"))
-    ranking = result.get("ranking") or []
-    found = [str(r["policy"]) for r in ranking if isinstance(r, dict) and r.get("policy") in _RANK]
-    return max(found, key=_RANK.__getitem__) if found else None
+        return str(policy["status"])
+    return worst_status(row["policy"] for row in result.get("ranking") or [])
 
 
 def _delete_outputs(conn: sqlite3.Connection, ids: list[str]) -> None:
