@@ -1,7 +1,8 @@
 """A small Python client of the haarline REST service, for bots, notebooks and CI gates.
 
-Standard library only (``urllib``), so it installs nowhere a key would not: a review bot
-needs nothing beyond ``pip install haarline``.
+It speaks HTTP with the standard library (``urllib``; PyYAML, a dependency of haarline,
+only to send a YAML description), so a review bot needs nothing beyond ``pip install
+haarline``.
 
 >>> from haarline.client import Client                      # doctest: +SKIP
 >>> service = Client("https://q.example.org", key="hl_...")  # doctest: +SKIP

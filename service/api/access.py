@@ -30,7 +30,15 @@ from haarline.service.errors import TokenError
 from haarline.service.jobs.store import Store, is_job_id
 from haarline.service.settings import Settings
 
-__all__ = ["SHARED_READ", "Reading", "Token", "readable_job", "reader", "summary_links"]
+__all__ = [
+    "SHARED_READ",
+    "Reading",
+    "Token",
+    "owned_job",
+    "readable_job",
+    "reader",
+    "summary_links",
+]
 
 Token = Annotated[
     str | None,
@@ -75,6 +83,11 @@ def readable_job(
         raise HTTPException(
             401, "an API key or a share token is required", headers={"WWW-Authenticate": "Bearer"}
         )
+    return owned_job(store, job_id, owner, kind)
+
+
+def owned_job(store: Store, job_id: str, owner: str, kind: str) -> dict[str, Any]:
+    """The job if the key ``owner`` owns it and it is of ``kind``; else 404 (no hint which)."""
     job = store.get_job(job_id, owner=owner) if is_job_id(job_id) else None
     if job is None or job["kind"] != kind:
         raise HTTPException(404, f"no {kind} job {job_id!r} for this key")

@@ -26,7 +26,7 @@ from fastapi import APIRouter, Depends, Header, HTTPException, Query, Request, R
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import JSONResponse
 from haarline.report.schema import Comparison, Report
-from haarline.service.api.access import SHARED_READ, Reading, reader, summary_links
+from haarline.service.api.access import SHARED_READ, Reading, owned_job, reader, summary_links
 from haarline.service.api.admission import admit_analysis, admit_compare, request_hash
 from haarline.service.api.deps import (
     CallerDep,
@@ -59,7 +59,7 @@ from haarline.service.jobs.backoff import full_queue_wait
 from haarline.service.jobs.destinations import check_destination
 from haarline.service.jobs.space import require_free_space
 from haarline.service.jobs.states import JobState
-from haarline.service.jobs.store import Store, is_job_id
+from haarline.service.jobs.store import Store
 from haarline.service.settings import Settings
 
 __all__ = ["analyses", "comparisons"]
@@ -133,13 +133,6 @@ IdempotencyKey = Annotated[
         description="Retrying a POST with the same key returns the first job.",
     ),
 ]
-
-
-def _owned(store: Store, job_id: str, caller: str, kind: str) -> dict[str, Any]:
-    job = store.get_job(job_id, owner=caller) if is_job_id(job_id) else None
-    if job is None or job["kind"] != kind:
-        raise HTTPException(404, f"no {kind} job {job_id!r} for this key")
-    return job
 
 
 def _callback(url: str | None, caller: str, store: Store, settings: Settings) -> str | None:
@@ -371,7 +364,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         ] = None,
     ) -> Any:
         response.headers["Cache-Control"] = NO_STORE
-        job = await run_in_threadpool(_owned, store, job_id, caller, kind)
+        job = await run_in_threadpool(owned_job, store, job_id, caller, kind)
         if wait:
             job = await next_change(store, job, wait)
         return job_public(job, base)
@@ -394,7 +387,7 @@ def _router(kind: str, prefix: str, noun: str, plural: str) -> APIRouter:
         },
     )
     def cancel(job_id: str, caller: CallerDep, store: StoreDep) -> Any:
-        job = _owned(store, job_id, caller, kind)
+        job = owned_job(store, job_id, caller, kind)
         if not job["state"].active:
             if store.delete_finished(job_id):
                 return Response(status_code=204)

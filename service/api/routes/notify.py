@@ -19,11 +19,11 @@ from typing import Annotated, Any
 from fastapi import APIRouter, FastAPI, Header, HTTPException, Response
 from fastapi.concurrency import run_in_threadpool
 from fastapi.responses import StreamingResponse
+from haarline.service.api.access import owned_job
 from haarline.service.api.deps import CallerDep, StoreDep
 from haarline.service.api.http import NO_STORE
 from haarline.service.api.problems import problem_responses
 from haarline.service.api.responses import CHANGING, header
-from haarline.service.api.routes.jobs import _owned as owned
 from haarline.service.api.schemas import (
     DeliveryAttemptPublic,
     DeliveryPublic,
@@ -84,7 +84,7 @@ def _router(kind: str, prefix: str, plural: str) -> APIRouter:
         responses={200: STREAM, **problem_responses(401, 404, 503)},
     )
     async def events(job_id: str, caller: CallerDep, store: StoreDep) -> StreamingResponse:
-        job = await run_in_threadpool(owned, store, job_id, caller, kind)
+        job = await run_in_threadpool(owned_job, store, job_id, caller, kind)
 
         def render(j: dict[str, Any]) -> dict[str, Any]:
             return job_public(j, prefix).model_dump(mode="json")
@@ -105,7 +105,7 @@ def _router(kind: str, prefix: str, plural: str) -> APIRouter:
         responses={200: CHANGING, **problem_responses(401, 404, 503)},
     )
     def deliveries(job_id: str, caller: CallerDep, store: StoreDep, response: Response) -> Any:
-        owned(store, job_id, caller, kind)
+        owned_job(store, job_id, caller, kind)
         response.headers["Cache-Control"] = NO_STORE
         return _deliveries(store, job_id, kind)
 

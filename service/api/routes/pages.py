@@ -18,7 +18,7 @@ from typing import Annotated, Any, Literal
 import haarline
 from fastapi import APIRouter, Depends, HTTPException, Request, Response
 from fastapi.responses import HTMLResponse
-from haarline.service.api.access import SHARED_READ, Reading, reader
+from haarline.service.api.access import SHARED_READ, Reading, owned_job, reader
 from haarline.service.api.deps import (
     CallerDep,
     PageSecretDep,
@@ -36,7 +36,7 @@ from haarline.service.api.responses import (
 )
 from haarline.service.api.tokens import make_token
 from haarline.service.jobs.states import JobState
-from haarline.service.jobs.store import Store, is_job_id
+from haarline.service.jobs.store import Store
 from pydantic import BaseModel, Field
 
 __all__ = ["router"]
@@ -68,13 +68,6 @@ class SharePublic(BaseModel):
     expires: int = Field(description="Unix time after which the link stops working.")
     revoked: float | None = Field(default=None, description="When it was revoked, if it was.")
     state: Literal["open", "expired", "revoked"]
-
-
-def _job(store: Store, job_id: str, kind: str) -> dict[str, Any]:
-    job = store.get_job(job_id) if is_job_id(job_id) else None
-    if job is None or job["kind"] != kind:
-        raise HTTPException(404, f"no such job {job_id!r}")
-    return job
 
 
 def _render(store: Store, job: dict[str, Any]) -> str:
@@ -157,12 +150,6 @@ def _page_route(collection: str) -> None:
             state=state,
         )
 
-    def owned(store: Any, job_id: str, caller: str) -> dict[str, Any]:
-        job = _job(store, job_id, kind)
-        if job["owner"] != caller:
-            raise HTTPException(404, f"no such job {job_id!r}")
-        return job
-
     @router.post(
         f"/v1/{collection}/{{job_id}}/share",
         response_model=SharePublic,
@@ -182,7 +169,7 @@ def _page_route(collection: str) -> None:
         secret: PageSecretDep,
         body: ShareCreate | None = None,
     ) -> SharePublic:
-        owned(store, job_id, caller)
+        owned_job(store, job_id, caller, kind)
         ttl = (body or ShareCreate()).ttl_seconds
         longest = int(settings.share_max_days * 86_400)
         if ttl > longest:
@@ -217,7 +204,7 @@ def _page_route(collection: str) -> None:
         secret: PageSecretDep,
         response: Response,
     ) -> list[SharePublic]:
-        owned(store, job_id, caller)
+        owned_job(store, job_id, caller, kind)
         response.headers["Cache-Control"] = NO_STORE
         return [link_public(job_id, li, secret, settings.base_url) for li in store.links(job_id)]
 
@@ -231,7 +218,7 @@ def _page_route(collection: str) -> None:
         responses={204: {"description": "Revoked."}, **problem_responses(401, 404, 503)},
     )
     def revoke(job_id: str, link_id: str, caller: CallerDep, store: StoreDep) -> Response:
-        owned(store, job_id, caller)
+        owned_job(store, job_id, caller, kind)
         if not store.revoke_link(link_id, job_id):
             raise HTTPException(404, f"no open share link {link_id!r} of this job")
         return Response(status_code=204)
